@@ -1,0 +1,125 @@
+"""The contract every source implements.
+
+A source turns a spec into *work units* (one per vertex type or relation, optionally split
+into partitions) and reads each unit as a stream of :class:`Page` objects. Each page holds an
+Arrow record batch in the snapshot's column convention:
+
+* vertex pages: ``vertex_id`` (string, not null), then one column per declared property,
+  named by the spec's property name;
+* edge pages: ``source_id`` and ``target_id`` (strings, not null), then edge properties.
+
+A page may carry a ``cursor``: an opaque string from which :meth:`GraphSource.read` can
+resume *after* that page. The stager persists pages and cursors, so a source that sets
+``can_resume`` never re-reads what was already staged. Page schemas may differ between pages
+(the stager unifies them); a page whose column holds values of several kinds rendered as
+strings reports them in ``value_kinds``.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from typing import Any, ClassVar, Literal
+
+import pyarrow as pa
+
+from graphmill.spec import PipelineSpec, RelationKey
+
+VERTEX_ID = "vertex_id"
+SOURCE_ID = "source_id"
+TARGET_ID = "target_id"
+
+
+@dataclass(frozen=True)
+class SourceCapabilities:
+    """What a source can do; the pipeline plans from these flags."""
+
+    can_resume: bool = False
+    can_partition: bool = False
+    knows_schema: bool = False
+    max_concurrency: int = 1
+
+
+@dataclass(frozen=True)
+class WorkUnit:
+    """One independently readable piece: a vertex type or relation, one partition of it."""
+
+    table: Literal["vertices", "edges"]
+    name: str  # vertex type name, or RelationKey.dotted
+    partition: int = 0
+    partitions: int = 1
+
+    @property
+    def unit_id(self) -> str:
+        return f"{self.table}.{self.name}.p{self.partition:03d}of{self.partitions:03d}"
+
+    @property
+    def relation(self) -> RelationKey:
+        return RelationKey.parse(self.name)
+
+
+@dataclass
+class Page:
+    batch: pa.RecordBatch
+    cursor: str | None = None
+    value_kinds: dict[str, dict[str, int]] | None = None
+
+
+@dataclass
+class Provenance:
+    """Where the data came from, safe to publish: no credentials, no secrets."""
+
+    kind: str
+    location: str
+    queries: list[str] = field(default_factory=list)
+    details: dict[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "location": self.location,
+            "queries": list(self.queries),
+            "details": dict(self.details),
+        }
+
+
+class GraphSource(ABC):
+    """Base class of every source. Subclasses set ``kind`` and ``capabilities``."""
+
+    kind: ClassVar[str]
+    capabilities: ClassVar[SourceCapabilities] = SourceCapabilities()
+
+    def __init__(self, spec: PipelineSpec) -> None:
+        self.spec = spec
+
+    def plan(self) -> list[WorkUnit]:
+        """Work units, in a stable order. Default: one per vertex type and relation."""
+        units = [WorkUnit("vertices", name) for name in self.spec.vertex_types]
+        units += [WorkUnit("edges", rel.key.dotted) for rel in self.spec.relations]
+        return units
+
+    @abstractmethod
+    def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
+        """Yield the unit's pages, starting after ``cursor`` when one is given."""
+
+    @abstractmethod
+    def provenance(self) -> Provenance:
+        """A publishable description of the source and the queries it ran."""
+
+    def discover(self) -> dict[str, Any] | None:
+        """Optional schema discovery (labels, keys, observed value types)."""
+        return None
+
+    def open(self) -> None:  # noqa: B027 - optional hook
+        """Connect or load; called once before the first ``read``."""
+
+    def close(self) -> None:  # noqa: B027 - optional hook
+        """Release connections and temporary stores."""
+
+    def __enter__(self) -> GraphSource:
+        self.open()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()

@@ -1,0 +1,382 @@
+"""The staged snapshot: one Parquet table per vertex type and per relation, plus ``snapshot.json``.
+
+Pulling writes pages into a staging folder beside the snapshot (``<snapshot>.staging``), one
+Parquet part per page with a checkpoint per work unit, so an interrupted pull resumes where it
+stopped. Finishing merges the parts of each table, unifies their types, sorts rows into a
+canonical order (by IDs, then by the other columns) and publishes the snapshot atomically.
+The same graph therefore gives the same snapshot whatever the paging, partitioning, order of
+extraction or number of interruptions.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+from collections.abc import Callable, Iterable
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from graphmill._version import __version__
+from graphmill._atomic import atomic_directory, sha256_file, write_bytes_atomic
+from graphmill._columns import (
+    KIND_TO_ARROW,
+    VALUE_KINDS_KEY,
+    conform,
+    decode_kinds,
+    encode_kinds,
+    is_multi,
+    merge_kinds,
+    unify_types,
+    value_kinds_of,
+)
+from graphmill._progress import Progress, SilentProgress
+from graphmill.connectors.base import (
+    SOURCE_ID,
+    TARGET_ID,
+    VERTEX_ID,
+    GraphSource,
+    Page,
+    WorkUnit,
+)
+from graphmill.errors import BundleIntegrityError, InputError, SourceUnavailableError
+from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
+
+SNAPSHOT_FORMAT = 1
+SNAPSHOT_FILE = "snapshot.json"
+PARQUET_OPTIONS: dict[str, Any] = {"compression": "zstd", "row_group_size": 1 << 20}
+
+
+@dataclass
+class PullInfo:
+    """What a pull did."""
+
+    snapshot: Path
+    vertex_counts: dict[str, int]
+    edge_counts: dict[str, int]
+    units_total: int
+    units_resumed: int
+    pages_read: int
+    seconds: float = 0.0
+    warnings: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "snapshot": str(self.snapshot),
+            "vertex_counts": self.vertex_counts,
+            "edge_counts": self.edge_counts,
+            "units_total": self.units_total,
+            "units_resumed": self.units_resumed,
+            "pages_read": self.pages_read,
+            "seconds": round(self.seconds, 3),
+            "warnings": self.warnings,
+        }
+
+
+# --------------------------------------------------------------------------- staging
+
+
+def _spec_fingerprint(spec: PipelineSpec) -> str:
+    relevant = {k: spec.raw.get(k) for k in ("source", "rdf", "vertex_types", "relations")}
+    return hashlib.sha256(json.dumps(relevant, sort_keys=True, default=str).encode()).hexdigest()
+
+
+class Stager:
+    """Writes pages of work units into ``<snapshot>.staging`` with a checkpoint per unit."""
+
+    def __init__(self, spec: PipelineSpec, source: GraphSource) -> None:
+        self.spec = spec
+        self.source = source
+        self.root = Path(f"{spec.output.snapshot}.staging")
+        self.pages_read = 0
+        self.units_resumed = 0
+
+    def prepare(self) -> None:
+        fingerprint = _spec_fingerprint(self.spec)
+        marker = self.root / "fingerprint"
+        if self.root.exists() and (
+            not marker.exists() or marker.read_text().strip() != fingerprint
+        ):
+            shutil.rmtree(self.root)  # staged under another spec: start afresh
+        self.root.mkdir(parents=True, exist_ok=True)
+        if not marker.exists():
+            write_bytes_atomic(marker, fingerprint.encode())
+
+    def unit_dir(self, unit: WorkUnit) -> Path:
+        return self.root / "units" / unit.unit_id
+
+    def _checkpoint(self, unit: WorkUnit) -> dict[str, Any]:
+        path = self.unit_dir(unit) / "checkpoint.json"
+        if path.exists():
+            return json.loads(path.read_text())
+        return {"pages": 0, "cursor": None, "done": False}
+
+    def _save_checkpoint(self, unit: WorkUnit, state: dict[str, Any]) -> None:
+        write_bytes_atomic(self.unit_dir(unit) / "checkpoint.json", json.dumps(state).encode())
+
+    def stage(self, unit: WorkUnit, progress_task: Any) -> None:
+        directory = self.unit_dir(unit)
+        directory.mkdir(parents=True, exist_ok=True)
+        state = self._checkpoint(unit)
+        if state["done"]:
+            self.units_resumed += 1
+            return
+        if not self.source.capabilities.can_resume:
+            state = {"pages": 0, "cursor": None, "done": False}
+        elif state["pages"]:
+            self.units_resumed += 1
+        # Parts beyond the checkpoint were written by a run that stopped before saving it.
+        for part in directory.glob("part-*.parquet"):
+            if int(part.stem.split("-")[1]) >= state["pages"]:
+                part.unlink()
+        for page in self.source.read(unit, state["cursor"]):
+            self._write_part(directory / f"part-{state['pages']:06d}.parquet", page)
+            state = {"pages": state["pages"] + 1, "cursor": page.cursor, "done": False}
+            self._save_checkpoint(unit, state)
+            self.pages_read += 1
+            progress_task.advance(page.batch.num_rows)
+        self._save_checkpoint(unit, {**state, "done": True})
+
+    def _write_part(self, path: Path, page: Page) -> None:
+        batch = page.batch
+        kinds = page.value_kinds or {}
+        profile = {
+            name: kinds.get(name) or value_kinds_of(batch.column(i))
+            for i, name in enumerate(batch.schema.names)
+        }
+        schema = batch.schema.with_metadata({VALUE_KINDS_KEY: encode_kinds(profile)})
+        table = pa.Table.from_batches([batch.replace_schema_metadata(schema.metadata)], schema)
+        scratch = path.with_suffix(".writing")
+        pq.write_table(table, scratch, compression="zstd")
+        scratch.replace(path)
+
+    def parts(self, units: Iterable[WorkUnit]) -> list[Path]:
+        out: list[Path] = []
+        for unit in units:
+            out.extend(sorted(self.unit_dir(unit).glob("part-*.parquet")))
+        return out
+
+
+def pull(
+    spec: PipelineSpec,
+    source: GraphSource,
+    *,
+    progress: Progress | None = None,
+) -> PullInfo:
+    """Extract every work unit of ``source`` into the spec's snapshot folder."""
+    import time
+
+    started = time.perf_counter()
+    progress = progress or SilentProgress()
+    stager = Stager(spec, source)
+    stager.prepare()
+    units = source.plan()
+    workers = max(1, min(source.capabilities.max_concurrency, len(units)))
+    with source:
+
+        def run(unit: WorkUnit) -> None:
+            stager.stage(unit, progress.task(f"pull {unit.table} {unit.name}"))
+
+        if workers == 1:
+            for unit in units:
+                run(unit)
+        else:
+            with ThreadPoolExecutor(max_workers=workers) as pool:
+                for future in [pool.submit(run, unit) for unit in units]:
+                    future.result()
+        provenance = source.provenance().to_dict()
+        discovery = source.discover()
+    info = publish_snapshot(spec, stager, units, provenance, discovery)
+    shutil.rmtree(stager.root, ignore_errors=True)
+    info.units_total = len(units)
+    info.units_resumed = stager.units_resumed
+    info.pages_read = stager.pages_read
+    info.seconds = time.perf_counter() - started
+    return info
+
+
+# --------------------------------------------------------------------------- finishing
+
+
+def _declared_type(prop: PropertySpec) -> pa.DataType:
+    base = KIND_TO_ARROW.get(prop.kind or "string", pa.string())
+    return pa.list_(base) if prop.multi else base
+
+
+def canonical_table(
+    parts: list[pa.Table], id_columns: list[str], declared: list[PropertySpec]
+) -> tuple[pa.Table, dict[str, dict[str, int]]]:
+    """Merge parts into one table: declared columns only, unified types, canonical order.
+
+    Returns the table and the value-kind profile of every property column.
+    """
+    names = id_columns + [p.name for p in declared]
+    columns: dict[str, list[Any]] = {n: [] for n in names}
+    profiles: dict[str, list[dict[str, int]]] = {n: [] for n in names}
+    rows = 0
+    for part in parts:
+        kinds = decode_kinds(part.schema.metadata)
+        for name in names:
+            if name in part.column_names:
+                col = part.column(name)
+                columns[name].append(col)
+                profiles[name].append(kinds.get(name) or value_kinds_of(col))
+            else:
+                columns[name].append(pa.nulls(part.num_rows))
+        rows += part.num_rows
+    arrays: list[pa.ChunkedArray] = []
+    fields: list[pa.Field] = []
+    for name in names:
+        chunks = columns[name]
+        prop = next((p for p in declared if p.name == name), None)
+        types = [c.type for c in chunks]
+        target = unify_types(types)
+        if pa.types.is_null(target):
+            target = pa.string() if prop is None else _declared_type(prop)
+        conformed = [conform(c, target) for c in chunks]
+        flat = [ch for c in conformed for ch in (c.chunks if isinstance(c, pa.ChunkedArray) else [c])]
+        arrays.append(pa.chunked_array(flat, target) if flat else pa.chunked_array([], target))
+        fields.append(pa.field(name, target, nullable=name not in id_columns))
+    table = pa.Table.from_arrays(arrays, schema=pa.schema(fields))
+    for name in id_columns:
+        if table.column(name).null_count:
+            raise InputError(f"{table.column(name).null_count} rows have no {name}")
+    sort_keys = [(n, "ascending") for n in names if not is_multi(table.schema.field(n).type)]
+    if rows:
+        table = table.sort_by(sort_keys)
+    profile = {n: merge_kinds(profiles[n]) for n in names if n not in id_columns}
+    return table.combine_chunks(), profile
+
+
+def write_parquet(table: pa.Table, path: Path) -> None:
+    """Write ``table`` deterministically (fixed options, no timestamps)."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    pq.write_table(table, path, **PARQUET_OPTIONS)
+
+
+def _read_parts(paths: list[Path]) -> list[pa.Table]:
+    return [pq.read_table(p) for p in paths]
+
+
+def publish_snapshot(
+    spec: PipelineSpec,
+    stager: Stager,
+    units: list[WorkUnit],
+    provenance: dict[str, Any],
+    discovery: dict[str, Any] | None,
+) -> PullInfo:
+    tables: list[dict[str, Any]] = []
+    vertex_counts: dict[str, int] = {}
+    edge_counts: dict[str, int] = {}
+    with atomic_directory(spec.output.snapshot) as scratch:
+        extra = [PropertySpec(spec.rdf.graph_property)] if spec.rdf.graph_property else []
+        for name, vt in spec.vertex_types.items():
+            mine = [u for u in units if u.table == "vertices" and u.name == name]
+            table, kinds = canonical_table(
+                _read_parts(stager.parts(mine)), [VERTEX_ID], list(vt.properties) + extra
+            )
+            rel_path = f"vertices/{name}.parquet"
+            write_parquet(table, scratch / rel_path)
+            vertex_counts[name] = table.num_rows
+            tables.append(_table_entry("vertices", name, rel_path, scratch, table, kinds))
+        for rel in spec.relations:
+            dotted = rel.key.dotted
+            mine = [u for u in units if u.table == "edges" and u.name == dotted]
+            table, kinds = canonical_table(
+                _read_parts(stager.parts(mine)), [SOURCE_ID, TARGET_ID], list(rel.properties)
+            )
+            rel_path = f"edges/{dotted}.parquet"
+            write_parquet(table, scratch / rel_path)
+            edge_counts[dotted] = table.num_rows
+            tables.append(_table_entry("edges", dotted, rel_path, scratch, table, kinds))
+        document = {
+            "snapshot_format": SNAPSHOT_FORMAT,
+            "graphmill_version": __version__,
+            "name": spec.name,
+            "source": provenance,
+            "discovery": discovery,
+            "tables": tables,
+        }
+        from graphmill._schemas import validate_document
+
+        validate_document("snapshot", document)
+        (scratch / SNAPSHOT_FILE).write_text(json.dumps(document, indent=2, sort_keys=True) + "\n")
+    return PullInfo(spec.output.snapshot, vertex_counts, edge_counts, len(units), 0, 0)
+
+
+def _table_entry(
+    kind: str, name: str, rel_path: str, root: Path, table: pa.Table, kinds: dict[str, dict[str, int]]
+) -> dict[str, Any]:
+    return {
+        "kind": kind,
+        "name": name,
+        "file": rel_path,
+        "rows": table.num_rows,
+        "sha256": sha256_file(root / rel_path),
+        "columns": [
+            {"name": f.name, "arrow_type": str(f.type), "value_kinds": kinds.get(f.name, {})}
+            for f in table.schema
+        ],
+    }
+
+
+# --------------------------------------------------------------------------- reading
+
+
+class Snapshot:
+    """A published snapshot, opened for reading; file hashes are checked on open."""
+
+    def __init__(self, root: Path, document: dict[str, Any]) -> None:
+        self.root = root
+        self.document = document
+        self._entries = {(t["kind"], t["name"]): t for t in document["tables"]}
+
+    @classmethod
+    def open(cls, root: str | Path, *, verify: bool = True) -> Snapshot:
+        root = Path(root)
+        manifest = root / SNAPSHOT_FILE
+        if not manifest.exists():
+            raise SourceUnavailableError(
+                "no snapshot here", file=str(root), hint="run 'graphmill pull' first"
+            )
+        document = json.loads(manifest.read_text())
+        if verify:
+            for entry in document["tables"]:
+                path = root / entry["file"]
+                if not path.exists() or sha256_file(path) != entry["sha256"]:
+                    raise BundleIntegrityError(
+                        "snapshot file is missing or its sha256 differs from snapshot.json",
+                        file=str(path),
+                        hint="pull again",
+                    )
+        return cls(root, document)
+
+    @property
+    def vertex_types(self) -> list[str]:
+        return [t["name"] for t in self.document["tables"] if t["kind"] == "vertices"]
+
+    @property
+    def relations(self) -> list[RelationKey]:
+        return [RelationKey.parse(t["name"]) for t in self.document["tables"] if t["kind"] == "edges"]
+
+    def vertices(self, vertex_type: str) -> pa.Table:
+        return pq.read_table(self.root / self._entries[("vertices", vertex_type)]["file"])
+
+    def edges(self, relation: RelationKey) -> pa.Table:
+        return pq.read_table(self.root / self._entries[("edges", relation.dotted)]["file"])
+
+    def value_kinds(self, kind: str, name: str) -> dict[str, dict[str, int]]:
+        entry = self._entries[(kind, name)]
+        return {c["name"]: c["value_kinds"] for c in entry["columns"]}
+
+    @property
+    def provenance(self) -> dict[str, Any]:
+        return self.document["source"]
+
+
+TableReader = Callable[[str], pa.Table]
