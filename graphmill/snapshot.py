@@ -20,6 +20,7 @@ from pathlib import Path
 from typing import Any
 
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from graphmill._version import __version__
@@ -253,6 +254,50 @@ def canonical_table(
     return table.combine_chunks(), profile
 
 
+def faceted_table(
+    stager: Stager, units: list[WorkUnit], declared: list[PropertySpec]
+) -> tuple[pa.Table, dict[str, dict[str, int]], dict[str, int]]:
+    """Join a membership unit and property facet units into one row per vertex."""
+    members, _ = canonical_table(
+        _read_parts(stager.parts([u for u in units if u.facet is None])), [VERTEX_ID], []
+    )
+    members = pa.table({VERTEX_ID: pc.unique(members.column(VERTEX_ID))}).sort_by(VERTEX_ID)
+    kinds: dict[str, dict[str, int]] = {}
+    collapsed: dict[str, int] = {}
+    for prop in declared:
+        facet_units = [u for u in units if u.facet == prop.name]
+        scalar = PropertySpec(prop.name, prop.source_key, prop.kind, multi=False)
+        facts, profile = canonical_table(
+            _read_parts(stager.parts(facet_units)), [VERTEX_ID], [scalar]
+        )
+        kinds[prop.name] = profile.get(prop.name, {})
+        facts = facts.filter(pc.is_valid(facts.column(prop.name)))
+        value_type = facts.schema.field(prop.name).type
+        if prop.multi:
+            grouped = facts.group_by(VERTEX_ID, use_threads=False).aggregate(
+                [(prop.name, "list")]
+            )
+            grouped = grouped.rename_columns([VERTEX_ID, prop.name])
+        else:
+            grouped = facts.group_by(VERTEX_ID, use_threads=False).aggregate(
+                [(prop.name, "first"), (prop.name, "count")]
+            )
+            several = pc.sum(pc.greater(grouped.column(f"{prop.name}_count"), 1)).as_py() or 0
+            if several:
+                collapsed[prop.name] = several
+            grouped = pa.table(
+                {VERTEX_ID: grouped.column(VERTEX_ID), prop.name: grouped.column(f"{prop.name}_first")}
+            )
+        positions = pc.index_in(members.column(VERTEX_ID), value_set=grouped.column(VERTEX_ID))
+        values = grouped.column(prop.name).take(positions)
+        want = pa.list_(value_type) if prop.multi else value_type
+        members = members.append_column(prop.name, values.cast(want))
+    members = members.sort_by([(VERTEX_ID, "ascending")]).combine_chunks()
+    fields = [pa.field(VERTEX_ID, pa.string(), nullable=False)]
+    fields += [members.schema.field(p.name) for p in declared]
+    return members.select([f.name for f in fields]).cast(pa.schema(fields)), kinds, collapsed
+
+
 def write_parquet(table: pa.Table, path: Path) -> None:
     """Write ``table`` deterministically (fixed options, no timestamps)."""
     path.parent.mkdir(parents=True, exist_ok=True)
@@ -271,15 +316,25 @@ def publish_snapshot(
     discovery: dict[str, Any] | None,
 ) -> PullInfo:
     tables: list[dict[str, Any]] = []
+    warnings: list[str] = []
     vertex_counts: dict[str, int] = {}
     edge_counts: dict[str, int] = {}
     with atomic_directory(spec.output.snapshot) as scratch:
         extra = [PropertySpec(spec.rdf.graph_property)] if spec.rdf.graph_property else []
         for name, vt in spec.vertex_types.items():
             mine = [u for u in units if u.table == "vertices" and u.name == name]
-            table, kinds = canonical_table(
-                _read_parts(stager.parts(mine)), [VERTEX_ID], list(vt.properties) + extra
-            )
+            declared = list(vt.properties) + extra
+            if any(u.facet for u in mine):
+                table, kinds, collapsed = faceted_table(stager, mine, declared)
+                warnings += [
+                    f"{name}.{prop}: {n} vertices had several values for a single-valued "
+                    "property; the smallest was kept (declare it 'multi: true' to keep all)"
+                    for prop, n in collapsed.items()
+                ]
+            else:
+                table, kinds = canonical_table(
+                    _read_parts(stager.parts(mine)), [VERTEX_ID], declared
+                )
             rel_path = f"vertices/{name}.parquet"
             write_parquet(table, scratch / rel_path)
             vertex_counts[name] = table.num_rows
@@ -301,12 +356,15 @@ def publish_snapshot(
             "source": provenance,
             "discovery": discovery,
             "tables": tables,
+            "warnings": warnings,
         }
         from graphmill._schemas import validate_document
 
         validate_document("snapshot", document)
         (scratch / SNAPSHOT_FILE).write_text(json.dumps(document, indent=2, sort_keys=True) + "\n")
-    return PullInfo(spec.output.snapshot, vertex_counts, edge_counts, len(units), 0, 0)
+    return PullInfo(
+        spec.output.snapshot, vertex_counts, edge_counts, len(units), 0, 0, warnings=warnings
+    )
 
 
 def _table_entry(

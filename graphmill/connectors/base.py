@@ -13,6 +13,14 @@ resume *after* that page. The stager persists pages and cursors, so a source tha
 ``can_resume`` never re-reads what was already staged. Page schemas may differ between pages
 (the stager unifies them); a page whose column holds values of several kinds rendered as
 strings reports them in ``value_kinds``.
+
+**Property facets** (for sources that hold facts rather than rows, such as RDF): a source may
+split a vertex type into one *membership* unit (``facet=None``; pages hold ``vertex_id`` only)
+and one unit per property (``facet="age"``; pages hold ``vertex_id`` and ``age``, one value
+per row, in any order, a vertex on several rows when it has several values). The snapshot
+joins them into one row per vertex: values of a ``multi`` property become a sorted list; of a
+single-valued one, the smallest value is kept and the number of vertices that had more is
+recorded as a snapshot warning. Vertices without membership rows are not created.
 """
 
 from __future__ import annotations
@@ -49,10 +57,12 @@ class WorkUnit:
     name: str  # vertex type name, or RelationKey.dotted
     partition: int = 0
     partitions: int = 1
+    facet: str | None = None  # a property name: see "property facets" in the module doc
 
     @property
     def unit_id(self) -> str:
-        return f"{self.table}.{self.name}.p{self.partition:03d}of{self.partitions:03d}"
+        facet = f".{self.facet}" if self.facet else ""
+        return f"{self.table}.{self.name}{facet}.p{self.partition:03d}of{self.partitions:03d}"
 
     @property
     def relation(self) -> RelationKey:
