@@ -1,5 +1,76 @@
-"""graphmill: graphs from Gremlin servers, SPARQL stores and dumps into GNN-ready bundles."""
+"""graphmill: graphs from Gremlin servers, SPARQL stores and dumps into GNN-ready bundles.
+
+The public API is what ``__all__`` lists; everything else is private. Heavy parts (the
+bundle loader, which needs torch) are imported when first used.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
 
 from graphmill._version import __version__
+from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
+from graphmill.errors import (
+    AuthenticationError,
+    BundleIntegrityError,
+    ExitCode,
+    GraphmillError,
+    InputError,
+    MalformedResponseError,
+    MissingExtraError,
+    SourceServerError,
+    SourceTimeoutError,
+    SourceUnavailableError,
+    SpecError,
+)
+from graphmill.pipeline import ChecksFailedError, Pipeline, RunResult, build, check, pull, run
+from graphmill.snapshot import Snapshot
+from graphmill.spec import PipelineSpec, RelationKey, load_spec
 
-__all__ = ["__version__"]
+_LAZY = {
+    "GraphBundle": "graphmill.bundle",
+    "inspect_bundle": "graphmill.bundle",
+    "load_bundle": "graphmill.bundle",
+}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'graphmill' has no attribute {name!r}")
+
+
+__all__ = [
+    "AuthenticationError",
+    "BundleIntegrityError",
+    "ChecksFailedError",
+    "ExitCode",
+    "GraphBundle",
+    "GraphSource",
+    "GraphmillError",
+    "InputError",
+    "MalformedResponseError",
+    "MissingExtraError",
+    "Page",
+    "Pipeline",
+    "PipelineSpec",
+    "Provenance",
+    "RelationKey",
+    "RunResult",
+    "Snapshot",
+    "SourceCapabilities",
+    "SourceServerError",
+    "SourceTimeoutError",
+    "SourceUnavailableError",
+    "SpecError",
+    "WorkUnit",
+    "__version__",
+    "build",
+    "check",
+    "inspect_bundle",
+    "load_bundle",
+    "load_spec",
+    "pull",
+    "run",
+]

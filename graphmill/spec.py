@@ -255,7 +255,9 @@ def spec_from_dict(
     output = OutputSpec(
         snapshot=snapshot,
         bundle=bundle,
-        report=_absolute(out["report"], base) if "report" in out else Path(f"{snapshot}.report.json"),
+        report=_absolute(out["report"], base)
+        if "report" in out
+        else Path(f"{snapshot}.report.json"),
         junit=_absolute(out["junit"], base) if "junit" in out else None,
     )
     checks_doc = doc.get("checks", {})
@@ -350,7 +352,8 @@ def _explain(error: Any) -> str:
     if error.validator == "enum":
         return f"{error.instance!r} is not one of {', '.join(map(repr, error.validator_value))}"
     if error.validator == "pattern":
-        return f"{error.instance!r} does not have the expected form ({error.schema.get('description', error.validator_value)})"
+        expected = error.schema.get("description", error.validator_value)
+        return f"{error.instance!r} does not have the expected form ({expected})"
     return error.message
 
 
@@ -363,7 +366,9 @@ def _cross_check(spec: PipelineSpec, where: str | None) -> None:
     for i, rel in enumerate(spec.relations):
         for side, name in (("from", rel.key.source_type), ("to", rel.key.target_type)):
             if name not in types:
-                fail(f"relation refers to undeclared vertex type {name!r}", f"relations[{i}].{side}")
+                fail(
+                    f"relation refers to undeclared vertex type {name!r}", f"relations[{i}].{side}"
+                )
         if rel.key in seen:
             fail(f"relation {rel.key.dotted} is declared twice", f"relations[{i}]")
         seen.add(rel.key)

@@ -1,0 +1,232 @@
+"""Table dumps: CSV or Parquet files of vertices and edges, column roles declared in the spec.
+
+Each file entry names its columns explicitly (``id_column``, ``source_column``,
+``target_column``) and either one vertex type / relation for every row (``type`` /
+``relation``) or a column whose values are matched against the spec's ``match`` values
+(``type_column`` / ``relation_column``). Property columns are the spec's ``from`` names.
+CSV cells are read as text, empty cells are missing, and each property is typed by its
+declared ``kind`` or, if none, inferred (see :mod:`graphmill.connectors._lexical`).
+Parquet columns keep their types.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import pyarrow as pa
+import pyarrow.compute as pc
+import pyarrow.csv as pacsv
+import pyarrow.parquet as pq
+
+from graphmill._columns import value_kinds_of
+from graphmill.connectors import _lexical
+from graphmill.connectors.base import (
+    SOURCE_ID,
+    TARGET_ID,
+    VERTEX_ID,
+    GraphSource,
+    Page,
+    Provenance,
+    SourceCapabilities,
+    WorkUnit,
+)
+from graphmill.errors import InputError, SourceUnavailableError, SpecError
+from graphmill.spec import PipelineSpec, PropertySpec, RelationSpec
+
+BLOCK_SIZE = 16 << 20
+
+
+class TableFilesSource(GraphSource):
+    """Reads vertices and edges from CSV or Parquet files (kind ``table-files``)."""
+
+    kind = "table-files"
+    capabilities = SourceCapabilities(can_resume=False, knows_schema=False)
+
+    def __init__(self, spec: PipelineSpec) -> None:
+        super().__init__(spec)
+        self.vertex_files = spec.source["vertex_files"]
+        self.edge_files = spec.source.get("edge_files", [])
+        for i, entry in enumerate(self.edge_files):
+            if "relation" in entry:
+                self._relation_by_reference(entry["relation"], f"source.edge_files[{i}].relation")
+        for i, entry in enumerate(self.vertex_files):
+            if "type" in entry and entry["type"] not in spec.vertex_types:
+                raise SpecError(
+                    f"vertex type {entry['type']!r} is not declared under vertex_types",
+                    key_path=f"source.vertex_files[{i}].type",
+                )
+
+    def _relation_by_reference(self, ref: str, key_path: str) -> RelationSpec:
+        found = [r for r in self.spec.relations if ref in (r.key.name, r.key.dotted)]
+        if len(found) != 1:
+            what = "no relation" if not found else "several relations"
+            raise SpecError(
+                f"{what} named {ref!r}",
+                key_path=key_path,
+                hint="use the dotted form 'source_type.name.target_type'",
+            )
+        return found[0]
+
+    def provenance(self) -> Provenance:
+        paths = [e["path"] for e in self.vertex_files + self.edge_files]
+        return Provenance(kind=self.kind, location=", ".join(paths))
+
+    def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
+        if unit.table == "vertices":
+            vt = self.spec.vertex_types[unit.name]
+            for entry in self.vertex_files:
+                if entry.get("type", vt.name) != vt.name and "type_column" not in entry:
+                    continue
+                yield from self._pages(
+                    entry,
+                    [entry["id_column"]],
+                    [VERTEX_ID],
+                    vt.properties,
+                    entry.get("type_column"),
+                    vt.match,
+                )
+        else:
+            rel = self.spec.relation(unit.relation)
+            for entry in self.edge_files:
+                if "relation" in entry:
+                    if self._relation_by_reference(entry["relation"], "") != rel:
+                        continue
+                    select = None
+                else:
+                    select = entry["relation_column"]
+                    self._check_unique_match(rel)
+                yield from self._pages(
+                    entry,
+                    [entry["source_column"], entry["target_column"]],
+                    [SOURCE_ID, TARGET_ID],
+                    rel.properties,
+                    select,
+                    rel.match,
+                )
+
+    def _check_unique_match(self, rel: RelationSpec) -> None:
+        same = [r for r in self.spec.relations if r.match == rel.match]
+        if len(same) > 1:
+            raise SpecError(
+                f"relation_column value {rel.match!r} matches several relations: "
+                + ", ".join(r.key.dotted for r in same),
+                key_path="relations",
+                hint="give each relation a distinct 'match' or use one edge file per relation",
+            )
+
+    def _pages(
+        self,
+        entry: dict[str, Any],
+        key_columns: list[str],
+        key_names: list[str],
+        properties: tuple[PropertySpec, ...],
+        select_column: str | None,
+        select_value: str,
+    ) -> Iterator[Page]:
+        path = self.spec.resolve_path(entry["path"])
+        wanted = key_columns + [p.source_key for p in properties]
+        if select_column:
+            wanted.append(select_column)
+        for batch, line in _read_batches(path, entry, sorted(set(wanted))):
+            if select_column:
+                batch = batch.filter(pc.equal(batch.column(select_column), select_value))
+            columns: dict[str, pa.Array] = {}
+            kinds: dict[str, dict[str, int]] = {}
+            for source_name, name in zip(key_columns, key_names, strict=True):
+                ids = batch.column(source_name)
+                ids = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
+                missing = pc.or_(pc.is_null(ids), pc.equal(ids, "")).to_numpy(zero_copy_only=False)
+                if missing.any():
+                    row = int(missing.argmax())
+                    raise InputError(
+                        f"column {source_name!r} is empty",
+                        file=str(path),
+                        line=None if line is None else line + row,
+                        hint="every row needs an id; fill it in or remove the row",
+                    )
+                columns[name] = ids
+            for prop in properties:
+                columns[prop.name], kinds[prop.name] = _typed(batch.column(prop.source_key), prop)
+            yield Page(pa.record_batch(columns), value_kinds=kinds)
+
+
+def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, int]]:
+    if not pa.types.is_string(column.type):
+        return column, value_kinds_of(column)
+    values = _lexical.blank_to_null(column)
+    counts = _lexical.kind_counts(values)
+    kind = prop.kind or _lexical.infer_kind(counts)
+    return _lexical.parse_kind(values, kind), counts
+
+
+def _read_batches(
+    path: Path, entry: dict[str, Any], columns: list[str]
+) -> Iterator[tuple[pa.RecordBatch, int | None]]:
+    """Batches of the needed columns, with the file line of each batch's first row (CSV)."""
+    fmt = entry.get("format") or (
+        "parquet" if path.suffix.lower() in (".parquet", ".pq") else "csv"
+    )
+    if not path.is_file():
+        raise SourceUnavailableError(
+            "file not found" if not path.exists() else "not a readable file",
+            file=str(path),
+            hint="check source paths in the spec (relative paths start at the spec's folder)",
+        )
+    try:
+        if fmt == "parquet":
+            parquet = pq.ParquetFile(path)
+            _require_columns(parquet.schema_arrow.names, columns, path)
+            for batch in parquet.iter_batches(columns=columns):
+                yield batch, None
+            return
+        header = _csv_header(path, entry)
+        _require_columns(header, columns, path)
+        reader = pacsv.open_csv(
+            path,
+            read_options=pacsv.ReadOptions(block_size=BLOCK_SIZE),
+            parse_options=pacsv.ParseOptions(
+                delimiter=entry.get("delimiter", ","), newlines_in_values=True
+            ),
+            convert_options=pacsv.ConvertOptions(
+                include_columns=columns,
+                column_types={c: pa.string() for c in columns},
+                strings_can_be_null=False,
+            ),
+        )
+        line = 2
+        for batch in reader:
+            yield batch, line
+            line += batch.num_rows
+    except PermissionError as exc:
+        raise SourceUnavailableError("permission denied", file=str(path)) from exc
+    except (pa.ArrowInvalid, OSError) as exc:
+        raise InputError(
+            _first_line(str(exc)), file=str(path), hint="fix the file or its entry in the spec"
+        ) from exc
+
+
+def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:
+    import csv
+
+    try:
+        with open(path, newline="", encoding="utf-8") as fh:
+            return next(csv.reader(fh, delimiter=entry.get("delimiter", ",")), [])
+    except UnicodeDecodeError as exc:
+        raise InputError("not UTF-8 text", file=str(path), line=1) from exc
+
+
+def _require_columns(present: list[str], needed: list[str], path: Path) -> None:
+    missing = [c for c in needed if c not in present]
+    if missing:
+        raise InputError(
+            f"missing column {missing[0]!r} (the file has: {', '.join(present)})",
+            file=str(path),
+            line=1,
+            hint="rename the column in the file or change the column name in the spec",
+        )
+
+
+def _first_line(text: str) -> str:
+    return text.strip().splitlines()[0] if text.strip() else "cannot parse"
