@@ -23,7 +23,6 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from graphmill._version import __version__
 from graphmill._atomic import atomic_directory, sha256_file, write_bytes_atomic
 from graphmill._columns import (
     KIND_TO_ARROW,
@@ -37,6 +36,7 @@ from graphmill._columns import (
     value_kinds_of,
 )
 from graphmill._progress import Progress, SilentProgress
+from graphmill._version import __version__
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -240,7 +240,9 @@ def canonical_table(
         if pa.types.is_null(target):
             target = pa.string() if prop is None else _declared_type(prop)
         conformed = [conform(c, target) for c in chunks]
-        flat = [ch for c in conformed for ch in (c.chunks if isinstance(c, pa.ChunkedArray) else [c])]
+        flat = [
+            ch for c in conformed for ch in (c.chunks if isinstance(c, pa.ChunkedArray) else [c])
+        ]
         arrays.append(pa.chunked_array(flat, target) if flat else pa.chunked_array([], target))
         fields.append(pa.field(name, target, nullable=name not in id_columns))
     table = pa.Table.from_arrays(arrays, schema=pa.schema(fields))
@@ -274,9 +276,7 @@ def faceted_table(
         facts = facts.filter(pc.is_valid(facts.column(prop.name)))
         value_type = facts.schema.field(prop.name).type
         if prop.multi:
-            grouped = facts.group_by(VERTEX_ID, use_threads=False).aggregate(
-                [(prop.name, "list")]
-            )
+            grouped = facts.group_by(VERTEX_ID, use_threads=False).aggregate([(prop.name, "list")])
             grouped = grouped.rename_columns([VERTEX_ID, prop.name])
         else:
             grouped = facts.group_by(VERTEX_ID, use_threads=False).aggregate(
@@ -286,7 +286,10 @@ def faceted_table(
             if several:
                 collapsed[prop.name] = several
             grouped = pa.table(
-                {VERTEX_ID: grouped.column(VERTEX_ID), prop.name: grouped.column(f"{prop.name}_first")}
+                {
+                    VERTEX_ID: grouped.column(VERTEX_ID),
+                    prop.name: grouped.column(f"{prop.name}_first"),
+                }
             )
         positions = pc.index_in(members.column(VERTEX_ID), value_set=grouped.column(VERTEX_ID))
         values = grouped.column(prop.name).take(positions)
@@ -368,7 +371,12 @@ def publish_snapshot(
 
 
 def _table_entry(
-    kind: str, name: str, rel_path: str, root: Path, table: pa.Table, kinds: dict[str, dict[str, int]]
+    kind: str,
+    name: str,
+    rel_path: str,
+    root: Path,
+    table: pa.Table,
+    kinds: dict[str, dict[str, int]],
 ) -> dict[str, Any]:
     return {
         "kind": kind,
@@ -420,7 +428,9 @@ class Snapshot:
 
     @property
     def relations(self) -> list[RelationKey]:
-        return [RelationKey.parse(t["name"]) for t in self.document["tables"] if t["kind"] == "edges"]
+        return [
+            RelationKey.parse(t["name"]) for t in self.document["tables"] if t["kind"] == "edges"
+        ]
 
     def vertices(self, vertex_type: str) -> pa.Table:
         return pq.read_table(self.root / self._entries[("vertices", vertex_type)]["file"])
