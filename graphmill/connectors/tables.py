@@ -129,24 +129,27 @@ class TableFilesSource(GraphSource):
         wanted = key_columns + [p.source_key for p in properties]
         if select_column:
             wanted.append(select_column)
-        for batch, line in _read_batches(path, entry, sorted(set(wanted))):
+        for batch, first_row in _read_batches(path, entry, sorted(set(wanted))):
+            for source_name in key_columns:
+                ids = batch.column(source_name)
+                missing = pc.is_null(ids)
+                if pa.types.is_string(ids.type):
+                    missing = pc.or_(missing, pc.equal(ids, ""))
+                flags = missing.to_numpy(zero_copy_only=False)
+                if flags.any():
+                    raise InputError(
+                        f"column {source_name!r} is empty",
+                        file=str(path),
+                        record=f"row {first_row + int(flags.argmax())}",
+                        hint="every row needs an id; fill it in or remove the row",
+                    )
             if select_column:
                 batch = batch.filter(pc.equal(batch.column(select_column), select_value))
             columns: dict[str, pa.Array] = {}
             kinds: dict[str, dict[str, int]] = {}
             for source_name, name in zip(key_columns, key_names, strict=True):
                 ids = batch.column(source_name)
-                ids = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
-                missing = pc.or_(pc.is_null(ids), pc.equal(ids, "")).to_numpy(zero_copy_only=False)
-                if missing.any():
-                    row = int(missing.argmax())
-                    raise InputError(
-                        f"column {source_name!r} is empty",
-                        file=str(path),
-                        line=None if line is None else line + row,
-                        hint="every row needs an id; fill it in or remove the row",
-                    )
-                columns[name] = ids
+                columns[name] = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
             for prop in properties:
                 columns[prop.name], kinds[prop.name] = _typed(batch.column(prop.source_key), prop)
             yield Page(pa.record_batch(columns), value_kinds=kinds)
@@ -163,8 +166,8 @@ def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, in
 
 def _read_batches(
     path: Path, entry: dict[str, Any], columns: list[str]
-) -> Iterator[tuple[pa.RecordBatch, int | None]]:
-    """Batches of the needed columns, with the file line of each batch's first row (CSV)."""
+) -> Iterator[tuple[pa.RecordBatch, int]]:
+    """Batches of the needed columns, each with the 1-based data row number of its first row."""
     fmt = entry.get("format") or (
         "parquet" if path.suffix.lower() in (".parquet", ".pq") else "csv"
     )
@@ -178,8 +181,10 @@ def _read_batches(
         if fmt == "parquet":
             parquet = pq.ParquetFile(path)
             _require_columns(parquet.schema_arrow.names, columns, path)
+            row = 1
             for batch in parquet.iter_batches(columns=columns):
-                yield batch, None
+                yield batch, row
+                row += batch.num_rows
             return
         header = _csv_header(path, entry)
         _require_columns(header, columns, path)
@@ -195,10 +200,10 @@ def _read_batches(
                 strings_can_be_null=False,
             ),
         )
-        line = 2
+        row = 1
         for batch in reader:
-            yield batch, line
-            line += batch.num_rows
+            yield batch, row
+            row += batch.num_rows
     except PermissionError as exc:
         raise SourceUnavailableError("permission denied", file=str(path)) from exc
     except (pa.ArrowInvalid, OSError) as exc:
