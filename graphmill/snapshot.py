@@ -175,23 +175,32 @@ def pull(
     started = time.perf_counter()
     progress = progress or SilentProgress()
     stager = Stager(spec, source)
+    created = _first_missing_ancestor(stager.root)
     stager.prepare()
-    units = source.plan()
-    workers = max(1, min(source.capabilities.max_concurrency, len(units)))
-    with source:
+    try:
+        units = source.plan()
+        workers = max(1, min(source.capabilities.max_concurrency, len(units)))
+        with source:
 
-        def run(unit: WorkUnit) -> None:
-            stager.stage(unit, progress.task(f"pull {unit.table} {unit.name}"))
+            def run(unit: WorkUnit) -> None:
+                stager.stage(unit, progress.task(f"pull {unit.table} {unit.name}"))
 
-        if workers == 1:
-            for unit in units:
-                run(unit)
-        else:
-            with ThreadPoolExecutor(max_workers=workers) as pool:
-                for future in [pool.submit(run, unit) for unit in units]:
-                    future.result()
-        provenance = source.provenance().to_dict()
-        discovery = source.discover()
+            if workers == 1:
+                for unit in units:
+                    run(unit)
+            else:
+                with ThreadPoolExecutor(max_workers=workers) as pool:
+                    for future in [pool.submit(run, unit) for unit in units]:
+                        future.result()
+            provenance = source.provenance().to_dict()
+            discovery = source.discover()
+    except BaseException as exc:
+        # Keep staged pages for a resume, unless they are useless: bad input, or nothing staged.
+        bad_input = getattr(exc, "exit_code", None) == 2
+        if bad_input or not any(stager.root.glob("units/*/part-*.parquet")):
+            shutil.rmtree(stager.root, ignore_errors=True)
+            _remove_empty(created)
+        raise
     info = publish_snapshot(spec, stager, units, provenance, discovery)
     shutil.rmtree(stager.root, ignore_errors=True)
     info.units_total = len(units)
@@ -199,6 +208,25 @@ def pull(
     info.pages_read = stager.pages_read
     info.seconds = time.perf_counter() - started
     return info
+
+
+def _first_missing_ancestor(path: Path) -> Path | None:
+    """The outermost folder on the way to ``path`` that does not exist yet (None if all do)."""
+    missing = None
+    for candidate in [path, *path.parents]:
+        if candidate.exists():
+            break
+        missing = candidate
+    return missing
+
+
+def _remove_empty(folder: Path | None) -> None:
+    """Remove ``folder`` if it holds nothing but empty folders."""
+    if folder is None or not folder.is_dir():
+        return
+    if any(p.is_file() for p in folder.rglob("*")):
+        return
+    shutil.rmtree(folder, ignore_errors=True)
 
 
 # --------------------------------------------------------------------------- finishing

@@ -48,6 +48,10 @@ def source_class(kind: str) -> type[GraphSource]:
     try:
         module = importlib.import_module(module_name)
     except ImportError as exc:
+        if (exc.name or "").startswith("graphmill"):
+            raise MissingExtraError(
+                f"source kind {kind!r} is not part of this installation ({exc.name} is missing)"
+            ) from exc
         hint = f"install it with: pip install 'graphmill[{extra}]'" if extra else None
         raise MissingExtraError(
             f"source kind {kind!r} needs a package that is not installed ({exc.name})",
