@@ -133,6 +133,7 @@ def conform(column: pa.Array | pa.ChunkedArray, target: pa.DataType) -> pa.Array
         return wrapped.cast(target)
     if pa.types.is_string(target) and not pa.types.is_string(column.type):
         if pa.types.is_timestamp(column.type):
-            return pc.strftime(column, format="%Y-%m-%dT%H:%M:%S.%f", timezone="UTC")
+            # %S prints the fraction too (microsecond units); UTC columns print in UTC.
+            return pc.strftime(column, format="%Y-%m-%dT%H:%M:%S")
         return pc.cast(column, pa.string())
     return pc.cast(column, target)
