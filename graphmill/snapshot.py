@@ -351,7 +351,8 @@ def publish_snapshot(
     vertex_counts: dict[str, int] = {}
     edge_counts: dict[str, int] = {}
     with atomic_directory(spec.output.snapshot) as scratch:
-        extra = [PropertySpec(spec.rdf.graph_property)] if spec.rdf.graph_property else []
+        graph_prop = spec.rdf.graph_property
+        extra = [PropertySpec(graph_prop, graph_prop, "string")] if graph_prop else []
         for name, vt in spec.vertex_types.items():
             mine = [u for u in units if u.table == "vertices" and u.name == name]
             declared = list(vt.properties) + extra
