@@ -1,0 +1,154 @@
+"""RDF files named by a spec: formats, streaming parse, and errors that name file and line.
+
+Formats come from ``source.format`` or the extension (``.nt`` ``.nq`` ``.ttl`` ``.trig``
+``.rdf``/``.owl``/``.xml``; a further ``.gz`` is read through gzip). pyoxigraph reads all of
+them (strictly: ``lenient=False``), so rdflib is not needed. A file that cannot be opened is a
+:class:`SourceUnavailableError`; content that does not parse is an :class:`InputError` with
+``file:line`` (when the parser reports a line) and "fix the line or remove it".
+"""
+
+from __future__ import annotations
+
+import contextlib
+import gzip
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from graphmill._atomic import sha256_file
+from graphmill.errors import InputError, SourceUnavailableError, SpecError, require
+from graphmill.spec import PipelineSpec
+
+FORMAT_NAMES = {
+    "n-triples": "N_TRIPLES",
+    "n-quads": "N_QUADS",
+    "turtle": "TURTLE",
+    "trig": "TRIG",
+    "rdf-xml": "RDF_XML",
+}
+EXTENSIONS = {
+    ".nt": "n-triples",
+    ".nq": "n-quads",
+    ".ttl": "turtle",
+    ".trig": "trig",
+    ".rdf": "rdf-xml",
+    ".owl": "rdf-xml",
+    ".xml": "rdf-xml",
+}
+
+
+def oxigraph() -> Any:
+    """The pyoxigraph module, or a MissingExtraError naming the ``rdf`` extra."""
+    return require("pyoxigraph", "rdf")
+
+
+@dataclass(frozen=True)
+class RdfInput:
+    """One input file: ``shown`` is the path as the spec wrote it (used in messages)."""
+
+    path: Path
+    shown: str
+    format: str
+    gzipped: bool
+
+
+def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
+    """The spec's ``source.paths`` with their formats; unreadable paths are refused."""
+    declared = spec.source.get("format")
+    inputs = []
+    for i, shown in enumerate(spec.source["paths"]):
+        path = spec.resolve_path(shown)
+        suffixes = [s.lower() for s in path.suffixes]
+        gzipped = bool(suffixes) and suffixes[-1] == ".gz"
+        ext = suffixes[-2] if gzipped and len(suffixes) > 1 else (suffixes[-1] if suffixes else "")
+        fmt = declared or EXTENSIONS.get(ext)
+        if fmt is None:
+            raise SpecError(
+                f"cannot tell the RDF format of {shown!r} from its extension {ext or '(none)'!r}",
+                key_path=f"source.paths[{i}]",
+                hint=f"set source.format or use one of {', '.join(EXTENSIONS)}",
+            )
+        check_readable(path, shown)
+        inputs.append(RdfInput(path, shown, fmt, gzipped))
+    return inputs
+
+
+def check_readable(path: Path, shown: str) -> None:
+    """Raise SourceUnavailableError unless ``path`` is a file this process can read."""
+    try:
+        if path.is_dir():
+            raise SourceUnavailableError(
+                "this is a folder, not an RDF file",
+                file=shown,
+                hint="name the files in source.paths",
+            )
+        with open(path, "rb") as fh:
+            fh.read(1)
+    except FileNotFoundError as exc:
+        raise SourceUnavailableError("no such file", file=shown, hint="check source.paths") from exc
+    except PermissionError as exc:
+        raise SourceUnavailableError(
+            "permission denied", file=shown, hint="make the file readable"
+        ) from exc
+    except OSError as exc:
+        raise SourceUnavailableError(
+            f"cannot read the file: {exc.strerror or exc}", file=shown
+        ) from exc
+
+
+def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
+    text = str(exc.args[0]) if exc.args else str(exc)
+    reason = text.split(": ", 1)[1] if text.startswith("Parser error") and ": " in text else text
+    position = exc.args[1] if len(exc.args) > 1 and isinstance(exc.args[1], tuple) else ()
+    line = exc.lineno if isinstance(exc.lineno, int) else None
+    column = position[2] if len(position) > 2 and isinstance(position[2], int) else None
+    where = f" (column {column})" if column is not None else ""
+    return InputError(
+        f"not valid {item.format}{where}: {reason}",
+        file=item.shown,
+        line=line,
+        hint="fix the line or remove it",
+    )
+
+
+@contextlib.contextmanager
+def reading(item: RdfInput) -> Iterator[None]:
+    """Turn parser and I/O errors met while reading ``item`` into graphmill errors."""
+    try:
+        yield
+    except SyntaxError as exc:
+        raise _syntax_error(exc, item) from exc
+    except (gzip.BadGzipFile, EOFError, UnicodeDecodeError) as exc:
+        raise InputError(
+            f"not a readable gzip file: {exc}", file=item.shown, hint="check the download"
+        ) from exc
+    except OSError as exc:
+        raise SourceUnavailableError(f"cannot read the file: {exc}", file=item.shown) from exc
+
+
+@contextlib.contextmanager
+def quads(item: RdfInput) -> Iterator[Any]:
+    """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written)."""
+    ox = oxigraph()
+    fmt = getattr(ox.RdfFormat, FORMAT_NAMES[item.format])
+    with contextlib.ExitStack() as stack:
+        stack.enter_context(reading(item))
+        if item.gzipped:
+            handle = stack.enter_context(gzip.open(item.path, "rb"))
+            yield ox.parse(handle, format=fmt, lenient=False)
+        else:
+            yield ox.parse(path=str(item.path), format=fmt, lenient=False)
+
+
+def file_details(inputs: list[RdfInput]) -> list[dict[str, Any]]:
+    """Publishable facts about the inputs: path as written, format, size, sha256."""
+    return [
+        {
+            "path": i.shown,
+            "format": i.format,
+            "bytes": i.path.stat().st_size,
+            "sha256": sha256_file(i.path),
+        }
+        for i in inputs
+    ]

@@ -1,0 +1,148 @@
+"""Term tables (answers to the unit queries) -> snapshot pages.
+
+Both RDF sources answer each unit with a term table shaped like the SELECT of
+:func:`~graphmill.connectors.rdf._queries.unit_query`; this module turns it into pages:
+
+* membership -> ``vertex_id``; under ``reject`` any bound ``?clash`` is an InputError naming
+  the smallest such subject;
+* property facet -> ``vertex_id`` + the property, typed per :mod:`._xsd`. The column type is
+  chosen for the whole unit: one kind keeps its type, integer + float give float64, any other
+  mix gives strings rendered as the snapshot renders typed columns (so the result does not
+  depend on page boundaries). Values equal as values (``"01"`` and ``"1"`` as xsd:integer)
+  are kept once per vertex, so every store gives the same sets;
+* graph facet -> the graph name as a string; relation -> ``source_id``, ``target_id``.
+
+Each page reports its property's value kinds, ``ill-typed`` included.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from graphmill._columns import conform
+from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID, Page, WorkUnit
+from graphmill.connectors.rdf._plan import RdfPlan
+from graphmill.connectors.rdf._queries import CLASH, SOURCE, TARGET, VALUE, VERTEX
+from graphmill.connectors.rdf._xsd import ILL_TYPED, XSD_STRING, literal_values
+from graphmill.errors import InputError
+
+DEFAULT_PAGE_ROWS = 100_000
+_NUMERIC = {"integer", "float"}
+
+
+def language_mask(
+    lang: pa.Array, datatype: pa.Array, languages: tuple[str, ...] | None
+) -> pa.Array:
+    """Which literals ``rdf.languages`` keeps: tagged ones whose tag is listed (ignoring case),
+    untagged xsd:string ones if ``""`` is listed, and every other literal."""
+    if languages is None:
+        return pa.array([True] * len(lang), pa.bool_())
+    tags = pa.array([t for t in languages if t], pa.string())
+    tagged = pc.greater(pc.utf8_length(lang), 0)
+    tag_ok = pc.is_in(pc.utf8_lower(lang), value_set=tags)
+    untagged_ok = pc.not_equal(datatype, XSD_STRING) if "" not in languages else pc.equal(lang, "")
+    return pc.fill_null(pc.if_else(tagged, tag_ok, untagged_ok), False)
+
+
+def _column(terms: pa.Table, name: str) -> pa.Array:
+    return terms.column(name).combine_chunks()
+
+
+def _check_clashes(terms: pa.Table, plan: RdfPlan, vertex_type: str) -> None:
+    if CLASH not in terms.column_names:
+        return
+    clash = _column(terms, CLASH)
+    if not clash.null_count < len(clash):
+        return
+    rows = terms.filter(pc.is_valid(clash))
+    subject = pc.min(_column(rows, VERTEX)).as_py()
+    other = pc.min(_column(rows.filter(pc.equal(_column(rows, VERTEX), subject)), CLASH)).as_py()
+    other_type = next(t for t in plan.type_names if t != vertex_type and plan.classes[t] == other)
+    raise InputError(
+        f"the subject has the classes <{plan.classes[vertex_type]}> and <{other}> of the "
+        f"vertex types {vertex_type!r} and {other_type!r}, and rdf.several_types is 'reject' "
+        f"({len(pc.unique(_column(rows, VERTEX)))} subjects in {vertex_type!r} are like this)",
+        record=subject,
+        hint="give it one declared class, or set rdf.several_types to first-declared or every-type",
+    )
+
+
+def typed_values(lexical: pa.Array, datatype: pa.Array) -> tuple[pa.Array, pa.Array, pa.Array]:
+    """(values, kinds, identity) of literals, with one column type for all (module doc).
+
+    ``identity`` is a string equal for equal values of one kind, used to drop repeats.
+    """
+    read = literal_values(lexical, datatype)
+    present = {k for k in read.values if k in pc.unique(read.kinds).to_pylist()}
+    rendered = {k: conform(v, pa.string()) for k, v in read.values.items()}
+    identity = pc.coalesce(*rendered.values(), pc.binary_join_element_wise(datatype, lexical, " "))
+    if not present:
+        values: pa.Array = pa.nulls(len(lexical))
+    elif len(present) == 1:
+        values = read.values[present.pop()]
+    elif present <= _NUMERIC:
+        values = pc.coalesce(*(read.values[k].cast(pa.float64()) for k in sorted(present)))
+    else:
+        values = pc.coalesce(*(rendered[k] for k in sorted(present)))
+    return values, read.kinds, identity
+
+
+def _distinct_values(
+    ids: pa.Array, values: pa.Array, kinds: pa.Array, identity: pa.Array
+) -> pa.Table:
+    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity, "value": values})
+    grouped = table.group_by([VERTEX_ID, "kind", "identity"], use_threads=False).aggregate(
+        [("value", "first")]
+    )
+    return grouped.rename_columns([VERTEX_ID, "kind", "identity", "value"])
+
+
+def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table, pa.Array | None]:
+    """The unit's rows in the snapshot convention, and each row's value kind (facets only)."""
+    if unit.table == "edges":
+        table = pa.table({SOURCE_ID: _column(terms, SOURCE), TARGET_ID: _column(terms, TARGET)})
+        return table, None
+    ids = _column(terms, VERTEX)
+    if unit.facet is None:
+        _check_clashes(terms, plan, unit.name)
+        return pa.table({VERTEX_ID: pc.unique(ids)}), None
+    if unit.facet == plan.graph_property:
+        graph = _column(terms, VALUE)
+        return pa.table({VERTEX_ID: ids, unit.facet: graph}), pc.if_else(
+            pc.is_valid(graph), "string", pa.scalar(None, pa.string())
+        )
+    values, kinds, identity = typed_values(
+        _column(terms, VALUE), _column(terms, VALUE + "_datatype")
+    )
+    distinct = _distinct_values(ids, values, kinds, identity)
+    table = pa.table({VERTEX_ID: distinct.column(VERTEX_ID), unit.facet: distinct.column("value")})
+    return table, distinct.column("kind").combine_chunks()
+
+
+def _kind_counts(kinds: pa.Array) -> dict[str, int]:
+    counts = pc.value_counts(kinds.drop_null())
+    return dict(
+        sorted(
+            zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist(), strict=True)
+        )
+    )
+
+
+def unit_pages(
+    plan: RdfPlan, unit: WorkUnit, terms: pa.Table, *, page_rows: int = DEFAULT_PAGE_ROWS
+) -> Iterator[Page]:
+    """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds."""
+    table, kinds = unit_table(plan, unit, terms)
+    table = table.combine_chunks()
+    for start in range(0, table.num_rows, page_rows):
+        batch = table.slice(start, page_rows).to_batches()[0]
+        value_kinds = None
+        if kinds is not None and unit.facet is not None:
+            value_kinds = {unit.facet: _kind_counts(kinds.slice(start, page_rows))}
+        yield Page(batch=batch, value_kinds=value_kinds)
+
+
+__all__ = ["ILL_TYPED", "language_mask", "typed_values", "unit_pages", "unit_table"]
