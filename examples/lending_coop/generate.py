@@ -40,6 +40,7 @@ DEFECTS = {
     "one_way_co_signs": 1,  # a co-signing stated by one side only
     "isolated_members": 1,  # a member with no edge at all
     "string_ages": 1,  # an age written as a plain string literal
+    "repeated_lines": 1,  # a transfer stated twice (one triple in RDF, see below)
 }
 START_S = np.datetime64("2017-01-01T00:00:00", "s").astype(np.int64)
 END_S = np.datetime64("2026-06-30T00:00:00", "s").astype(np.int64)
@@ -48,7 +49,8 @@ RECENT_S = np.datetime64("2025-11-01T00:00:00", "s").astype(np.int64)
 
 @dataclass(frozen=True)
 class CoopCounts:
-    """What was written: vertices per type, edges per relation (as stored), defects."""
+    """What was written: vertices per type, edges per relation as a store holds them (the
+    repeated line counted once), distinct triples, and the planted defects."""
 
     path: Path
     vertices: dict[str, int]
@@ -87,11 +89,25 @@ def timestamps(seconds: np.ndarray) -> np.ndarray:
     return np.char.add(seconds.astype("datetime64[s]").astype(str), "Z")
 
 
+def distinct_pairs(src: np.ndarray, dst: np.ndarray, n_dst: int) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct (src, dst) pairs, sorted; ``dst`` values lie in ``0..n_dst-1``."""
+    codes = np.unique(src.astype(np.int64) * n_dst + dst)
+    return codes // n_dst, codes % n_dst
+
+
 def unique_pairs(src: np.ndarray, dst: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Distinct (src, dst) pairs without self-loops, sorted."""
+    """Distinct (src, dst) pairs of one vertex type, without self-loops, sorted."""
     keep = src != dst
-    codes = np.unique(src[keep].astype(np.int64) * n + dst[keep])
-    return codes // n, codes % n
+    return distinct_pairs(src[keep], dst[keep], n)
+
+
+def cover(
+    rng: np.random.Generator, src: np.ndarray, dst: np.ndarray, n_dst: int, owners: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Add an edge from a random owner to every target no edge reaches (none is isolated)."""
+    unused = np.setdiff1d(np.arange(n_dst), dst)
+    extra = owners[rng.integers(0, len(owners), len(unused))]
+    return np.concatenate([src, extra]), np.concatenate([dst, unused])
 
 
 def rings(rng: np.random.Generator, fraud: np.ndarray) -> list[np.ndarray]:
@@ -194,8 +210,9 @@ def generate(
     per = rng.integers(1, 3, len(honest))
     u_src = np.concatenate([np.repeat(honest, per), fraud_idx])
     u_dst = np.concatenate([rng.integers(0, devices - 2 * len(ring_list), per.sum()), shared])
-    u_src, u_dst = unique_pairs(u_src, u_dst + members, members + devices)  # offset: no self pair
-    out.append(lines(mem[u_src], "uses", dev[u_dst - members]))
+    u_src, u_dst = cover(rng, u_src, u_dst, devices, honest)
+    u_src, u_dst = distinct_pairs(u_src, u_dst, devices)
+    out.append(lines(mem[u_src], "uses", dev[u_dst]))
 
     # pays: honest members pay everywhere; fraudsters prefer online, gaming and crypto.
     per = rng.integers(2, 8, len(active))
@@ -203,8 +220,9 @@ def generate(
     risky = np.flatnonzero(np.isin(category, ["online", "gaming", "crypto"]))
     anywhere = rng.integers(0, merchants, len(p_src))
     p_dst = np.where(is_fraud[p_src], risky[rng.integers(0, len(risky), len(p_src))], anywhere)
-    p_src, p_dst = unique_pairs(p_src, p_dst + members, members + merchants)
-    out.append(lines(mem[p_src], "pays", mer[p_dst - members]))
+    p_src, p_dst = cover(rng, p_src, p_dst, merchants, honest)
+    p_src, p_dst = distinct_pairs(p_src, p_dst, merchants)
+    out.append(lines(mem[p_src], "pays", mer[p_dst]))
 
     # sends_money: honest members to random others, fraudsters mostly inside their ring.
     per = rng.poisson(np.where(is_fraud[active], 4.0, 1.5))
@@ -218,6 +236,9 @@ def generate(
     ghosts = iri("member", np.array([90001, 90002]))  # defect: dangling transfers
     send_terms.append(lines(mem[[3, 5]], "sends_money", ghosts))
     send_terms.append(lines(mem[[11]], "sends_money", mem[[11]]))  # defect: self-loop
+    # A repeated line: RDF graphs are sets of triples (RDF 1.1 Concepts, section 3), so the
+    # store keeps one and check reports no repeated edge. Table dumps can hold real repeats.
+    send_terms.append(send_terms[0][:1])
     out += send_terms
 
     # co_signs: undirected, stated from both sides; ring members co-sign each other.
@@ -247,16 +268,16 @@ def generate(
         },
         labeled=int(reviewed.sum()),
         flagged=int((reviewed & is_fraud).sum()),
-        triples=len(all_lines),
+        triples=len(all_lines) - DEFECTS["repeated_lines"],
         dangling_targets=tuple(t.strip("<>") for t in ghosts),
     )
 
 
 def main(argv: list[str] | None = None) -> None:
     args = sys.argv[1:] if argv is None else argv
-    out = Path(args[0]) if args else Path(__file__).resolve().parent / "data"
+    out = Path(args[0]) if args else Path(__file__).resolve().parents[2] / "out" / "lending_coop"
     counts = generate(out)
-    print(f"wrote {counts.triples:,} triples to {counts.path}")
+    print(f"wrote {counts.triples:,} distinct triples to {counts.path}")
 
 
 if __name__ == "__main__":
