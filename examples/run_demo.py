@@ -1,0 +1,86 @@
+"""The demo: generate the lending cooperative, run the pipeline on it, train a GCN.
+
+Steps: write the RDF dump where the spec's source expects it; ``Pipeline.from_file(spec).run()``
+(pull into the embedded store, check, build); show the check report; load the bundle and
+train the two-layer GCN of :mod:`gcn` on members; print its accuracy beside the
+majority-class baseline.
+
+Run from anywhere: ``python examples/run_demo.py [--spec PATH] [--epochs N] [--seed S]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+sys.path.insert(0, str(HERE / "lending_coop"))
+
+import gcn  # noqa: E402
+import generate  # noqa: E402
+from rich.console import Console  # noqa: E402
+
+import graphmill  # noqa: E402
+from graphmill.errors import GraphmillError  # noqa: E402
+
+DEFAULT_SPEC = HERE / "lending_coop" / "spec.yaml"
+LABELED_TYPE = "member"
+
+
+def demo(spec_path: Path, *, epochs: int, seed: int, console: Console) -> dict[str, float]:
+    """Run every step; return the GCN's metrics."""
+    pipeline = graphmill.Pipeline.from_file(spec_path)
+    dump = pipeline.spec.resolve_path(pipeline.spec.source["paths"][0])
+    started = time.perf_counter()
+    counts = generate.generate(dump.parent)
+    console.print(
+        f"[bold]1. generated[/bold] {counts.triples:,} triples in "
+        f"{time.perf_counter() - started:.2f} s: {counts.path}"
+    )
+    result = pipeline.run()
+    console.print(
+        f"[bold]2. pulled[/bold] {sum(result.pull.vertex_counts.values()):,} vertices and "
+        f"{sum(result.pull.edge_counts.values()):,} edges in {result.pull.seconds:.2f} s"
+    )
+    console.print("[bold]3. checked[/bold] (the deliberate defects show as warnings):")
+    result.report.render(console)
+    if result.build is None:
+        console.print("[red]no bundle built: the checks failed[/red]")
+        return {}
+    console.print(f"[bold]4. built[/bold] {result.build.bundle} ({result.seconds:.2f} s in all)")
+    bundle = graphmill.load_bundle(result.build.bundle)
+    started = time.perf_counter()
+    metrics = gcn.train(bundle, LABELED_TYPE, epochs=epochs, seed=seed)
+    console.print(
+        f"[bold]5. trained[/bold] a two-layer GCN on {LABELED_TYPE} for {epochs} epochs "
+        f"in {time.perf_counter() - started:.2f} s"
+    )
+    for part in gcn.PARTS:
+        console.print(f"   accuracy {part:<10} {metrics[part]:.3f}")
+    console.print(
+        f"   majority-class baseline on test: {metrics['majority_test']:.3f} "
+        f"(the GCN: {metrics['test']:.3f})"
+    )
+    return metrics
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--spec", type=Path, default=DEFAULT_SPEC)
+    parser.add_argument("--epochs", type=int, default=200)
+    parser.add_argument("--seed", type=int, default=0)
+    args = parser.parse_args(argv)
+    console = Console(highlight=False)
+    try:
+        metrics = demo(args.spec, epochs=args.epochs, seed=args.seed, console=console)
+    except GraphmillError as exc:
+        console.print(f"graphmill: {exc.one_line()}", style="red")
+        return int(exc.exit_code)
+    return 0 if metrics else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
