@@ -1,0 +1,225 @@
+"""Which rule runs on which subjects, and :func:`run_checks`, which runs them all.
+
+Subjects per rule:
+
+* per relation: ``dangling-edge``, ``repeated-edge``, ``parallel-edge``;
+* per relation whose source and target type are the same: ``self-loop``, ``reciprocity``,
+  and ``one-way-edge`` when declared undirected (between two types an edge has no reverse
+  within its own relation, and a shared id names two different vertices);
+* per vertex type: ``duplicate-vertex-id``, ``isolated-vertex``, ``edgeless-vertex-type``;
+* per property column: ``mixed-value-kinds``; ``unexpected-value-kind`` where a ``kind``
+  is declared or ill-typed values were seen; ``null-rate`` (except the label, which
+  ``unlabeled-vertices`` covers); ``non-finite-number`` on float columns;
+  ``value-out-of-range`` on numeric columns with a declared ``min`` or ``max``;
+* the label: ``unlabeled-vertices``, ``thin-class``;
+* what ``checks.expect`` names: the contract rules; the whole graph:
+  ``vertex-id-in-several-types``, ``snapshot-note``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+
+from graphmill.snapshot import Snapshot
+from graphmill.spec import PipelineSpec
+from graphmill.validate import _contract_checks as contract
+from graphmill.validate import _property_checks as props
+from graphmill.validate import _structure_checks as structure
+from graphmill.validate._context import CheckContext, Outcome, subject_of
+from graphmill.validate._findings import (
+    SEVERITIES,
+    STATUS_OF,
+    Evaluation,
+    Finding,
+    Severity,
+    resolve_severities,
+)
+from graphmill.validate._report import Report
+from graphmill.validate.rules._properties import (
+    ILL_TYPED,
+    is_float_column,
+    is_numeric_column,
+)
+
+Subject = dict[str, str]
+Subjects = Callable[[CheckContext], list[Subject]]
+Check = Callable[[CheckContext, Subject], Outcome | list[Outcome]]
+
+
+def _relations(ctx: CheckContext) -> list[Subject]:
+    return [{"relation": r.dotted} for r in ctx.relations]
+
+
+def _one_type_relations(ctx: CheckContext) -> list[Subject]:
+    return [{"relation": r.dotted} for r in ctx.relations if r.source_type == r.target_type]
+
+
+def _undirected(ctx: CheckContext) -> list[Subject]:
+    def undirected(dotted: str) -> bool:
+        rel = next((r for r in ctx.relations if r.dotted == dotted), None)
+        spec = ctx.relation_spec(rel) if rel else None
+        return bool(spec and spec.undirected)
+
+    return [s for s in _one_type_relations(ctx) if undirected(s["relation"])]
+
+
+def _vertex_types(ctx: CheckContext) -> list[Subject]:
+    return [{"vertex_type": t} for t in ctx.vertex_types]
+
+
+def _graph(ctx: CheckContext) -> list[Subject]:
+    return [{}]
+
+
+def _columns(ctx: CheckContext) -> Iterator[tuple[str, str, str]]:
+    for name in ctx.vertex_types:
+        for prop in ctx.property_columns("vertices", name):
+            yield "vertices", name, prop
+    for rel in ctx.relations:
+        for prop in ctx.property_columns("edges", rel.dotted):
+            yield "edges", rel.dotted, prop
+
+
+def _all_properties(ctx: CheckContext) -> list[Subject]:
+    return [subject_of(*where) for where in _columns(ctx)]
+
+
+def _kind_known(ctx: CheckContext) -> list[Subject]:
+    def known(table: str, name: str, prop: str) -> bool:
+        declared = ctx.property_spec(table, name, prop)
+        ill = ctx.value_kinds(table, name).get(prop, {}).get(ILL_TYPED, 0)
+        return bool((declared and declared.kind) or ill)
+
+    return [subject_of(*w) for w in _columns(ctx) if known(*w)]
+
+
+def _not_label(ctx: CheckContext) -> list[Subject]:
+    label = ctx.spec.label
+    skip = ("vertices", label.vertex_type, label.property) if label else None
+    return [subject_of(*w) for w in _columns(ctx) if w != skip]
+
+
+def _float_columns(ctx: CheckContext) -> list[Subject]:
+    return [
+        subject_of(*w) for w in _columns(ctx) if is_float_column(ctx.table(*w[:2]).column(w[2]))
+    ]
+
+
+def _bounded(ctx: CheckContext) -> list[Subject]:
+    out = []
+    for w in _columns(ctx):
+        p = ctx.property_spec(*w)
+        bounded = p is not None and (p.minimum is not None or p.maximum is not None)
+        if bounded and is_numeric_column(ctx.table(*w[:2]).column(w[2])):
+            out.append(subject_of(*w))
+    return out
+
+
+def _label(ctx: CheckContext) -> list[Subject]:
+    label = ctx.spec.label
+    return [{"vertex_type": label.vertex_type, "property": label.property}] if label else []
+
+
+def _expected_types(ctx: CheckContext) -> list[Subject]:
+    return [{"vertex_type": t} for t in contract.contract_vertex_types(ctx)]
+
+
+def _expected_relations(ctx: CheckContext) -> list[Subject]:
+    return [{"relation": r} for r in ctx.spec.checks.expect.get("relations", {})]
+
+
+def _expected_properties(ctx: CheckContext) -> list[Subject]:
+    named = ctx.spec.checks.expect.get("properties", {})
+    return [{"vertex_type": t, "property": p} for t, ps in named.items() for p in ps]
+
+
+def _ranges(ctx: CheckContext) -> list[Subject]:
+    expect = ctx.spec.checks.expect
+    out: list[Subject] = [
+        {"vertex_type": t} for t, b in expect.get("vertex_types", {}).items() if b
+    ]
+    return out + [{"relation": r} for r, b in expect.get("relations", {}).items() if b]
+
+
+#: (rule id, its subjects, its check), in the catalogue's order.
+CHECKS: tuple[tuple[str, Subjects, Check], ...] = (
+    ("dangling-edge", _relations, structure.check_dangling),
+    ("duplicate-vertex-id", _vertex_types, structure.check_duplicate_vertex_id),
+    ("vertex-id-in-several-types", _graph, structure.check_shared_ids),
+    ("repeated-edge", _relations, structure.check_repeated_edge),
+    ("parallel-edge", _relations, structure.check_parallel_edge),
+    ("self-loop", _one_type_relations, structure.check_self_loop),
+    ("reciprocity", _one_type_relations, structure.check_reciprocity),
+    ("one-way-edge", _undirected, structure.check_one_way_edge),
+    ("isolated-vertex", _vertex_types, structure.check_isolated_vertex),
+    ("edgeless-vertex-type", _vertex_types, structure.check_edgeless_type),
+    ("mixed-value-kinds", _all_properties, props.check_mixed_kinds),
+    ("unexpected-value-kind", _kind_known, props.check_unexpected_kind),
+    ("null-rate", _not_label, props.check_null_rate),
+    ("non-finite-number", _float_columns, props.check_non_finite),
+    ("value-out-of-range", _bounded, props.check_out_of_range),
+    ("unlabeled-vertices", _label, props.check_unlabeled),
+    ("thin-class", _label, props.check_thin_class),
+    ("expected-vertex-type", _expected_types, contract.check_expected_vertex_type),
+    ("expected-relation", _expected_relations, contract.check_expected_relation),
+    ("expected-property", _expected_properties, contract.check_expected_property),
+    ("count-out-of-range", _ranges, contract.check_count_range),
+    ("snapshot-note", _graph, contract.check_snapshot_notes),
+)
+
+
+def _status(findings: list[Finding]) -> str:
+    for level in SEVERITIES:  # worst first
+        if any(f.severity == level for f in findings):
+            return STATUS_OF[level]
+    return "pass"
+
+
+def _snapshot_info(snapshot: Snapshot) -> dict[str, object]:
+    doc = snapshot.document
+    tables: dict[str, dict[str, int]] = {"vertices": {}, "edges": {}}
+    for entry in doc["tables"]:
+        tables[entry["kind"]][entry["name"]] = entry["rows"]
+    source = doc.get("source", {})
+    return {
+        "name": doc.get("name", ""),
+        "provenance": {"kind": source.get("kind", ""), "location": source.get("location", "")},
+        "tables": tables,
+    }
+
+
+def run_checks(spec: PipelineSpec, snapshot: Snapshot) -> Report:
+    """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
+
+    Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
+    ``checks.severity``. Findings and evaluations come in the catalogue's order, then in
+    the snapshot's order of tables and columns.
+    """
+    severities = resolve_severities(spec)
+    ctx = CheckContext(spec, snapshot)
+    findings: list[Finding] = []
+    evaluated: list[Evaluation] = []
+    for rule_id, subjects, check in CHECKS:
+        level = severities[rule_id]
+        if level == "off":
+            continue
+        for subject in subjects(ctx):
+            result = check(ctx, subject)
+            outcomes = result if isinstance(result, list) else [result]
+            found = [_finding(rule_id, level, subject, o) for o in outcomes if o.reported]
+            findings += found
+            evaluated.append(Evaluation(rule_id, subject, _status(found)))
+    return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
+
+
+def _finding(rule_id: str, level: Severity, subject: Subject, outcome: Outcome) -> Finding:
+    return Finding(
+        rule=rule_id,
+        severity="info" if outcome.note else level,
+        subject=dict(subject),
+        count=outcome.count,
+        denominator=outcome.denominator,
+        sample=outcome.sample,
+        message=outcome.message,
+        details=outcome.details,
+    )

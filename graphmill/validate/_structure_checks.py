@@ -1,0 +1,222 @@
+"""Structure checks: the pure rules of ``rules/_structure.py`` applied to snapshot tables.
+
+Each check takes the context and a subject and returns an :class:`Outcome`. Counts are
+over edge rows unless a docstring says otherwise.
+"""
+
+from __future__ import annotations
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.spec import RelationKey
+from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
+from graphmill.validate.rules import (
+    dangling_mask,
+    duplicate_counts,
+    exact_repeats,
+    isolated_mask,
+    parallel_variants,
+    reciprocated_mask,
+    reciprocity_counts,
+    self_loop_mask,
+    shared_ids,
+)
+
+ENDPOINTS = [SOURCE_ID, TARGET_ID]
+RECIPROCITY_DEFINITION = (
+    "distinct (source, target) pairs whose reverse pair is in the same relation, over all "
+    "distinct pairs; repeats count once and self-loops count as pairs that are never "
+    "reciprocated, as networkx.overall_reciprocity does on a DiGraph"
+)
+
+
+def _sum(mask: pa.Array) -> int:
+    return int(pc.sum(mask).as_py() or 0)
+
+
+def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Edges with an endpoint that is not a vertex of the relation's declared type."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    src = dangling_mask(edges.column(SOURCE_ID), ctx.vertices(rel.source_type).column(VERTEX_ID))
+    dst = dangling_mask(edges.column(TARGET_ID), ctx.vertices(rel.target_type).column(VERTEX_ID))
+    either = pc.or_(src, dst)
+    count, on_source, on_target = _sum(either), _sum(src), _sum(dst)
+    missing = pc.if_else(pc.and_(src, dst), "both", pc.if_else(src, "source", "target"))
+    records = edges.select(ENDPOINTS).append_column("missing", missing).filter(either)
+    return Outcome(
+        count,
+        edges.num_rows,
+        f"{count} of {edges.num_rows} edges of {rel.dotted} have an endpoint that is not a "
+        f"declared vertex ({on_source} on the source side, {on_target} on the target side); "
+        "add the missing vertices or drop these edges",
+        sorted_sample(records, ctx.sample_size),
+        {"source_side": on_source, "target_side": on_target},
+    )
+
+
+def check_duplicate_vertex_id(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Vertex rows beyond the first for each id (count = extra copies)."""
+    name = subject["vertex_type"]
+    ids = ctx.vertices(name).column(VERTEX_ID)
+    dups = duplicate_counts(ids)
+    extra = _sum(dups.column("copies")) - dups.num_rows
+    records = pa.table({VERTEX_ID: dups.column("value"), "copies": dups.column("copies")})
+    return Outcome(
+        extra,
+        len(ids),
+        f"{counted(dups.num_rows, 'vertex id')} of {name} occur more than once "
+        f"({counted(extra, 'extra row')} of {len(ids)}); make the ids unique in the source",
+        sorted_sample(records, ctx.sample_size),
+        {"ids": dups.num_rows},
+    )
+
+
+def check_shared_ids(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """IDs used by vertices of more than one type (count = such ids)."""
+    ids = {t: ctx.vertices(t).column(VERTEX_ID) for t in ctx.vertex_types}
+    shared = shared_ids(ids)
+    every = pa.chunked_array([pc.unique(c.combine_chunks()) for c in ids.values()], pa.string())
+    total = len(pc.unique(every)) if len(every) else 0
+    sample = sorted_sample(shared.select([VERTEX_ID]), ctx.sample_size)
+    picked = pa.array([r[VERTEX_ID] for r in sample], pa.string())
+    holders = {t: pc.is_in(picked, value_set=c).to_pylist() for t, c in ids.items()}
+    for i, record in enumerate(sample):
+        record["vertex_types"] = sorted(t for t, flags in holders.items() if flags[i])
+    return Outcome(
+        shared.num_rows,
+        total,
+        f"{shared.num_rows} of {total} vertex ids are used by vertices of several types; "
+        "each names a different vertex in each type, so check that this is intended",
+        sample,
+    )
+
+
+def check_repeated_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Exact repeats: every column equal (count = extra copies)."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    repeats = exact_repeats(edges)
+    extra = _sum(repeats.column("copies")) - repeats.num_rows
+    return Outcome(
+        extra,
+        edges.num_rows,
+        f"{extra} of {edges.num_rows} edges of {rel.dotted} are exact copies of another edge "
+        f"({counted(repeats.num_rows, 'distinct edge')} repeated; edges.duplicates is "
+        f"{ctx.spec.edges.duplicates!r})",
+        sorted_sample(repeats, ctx.sample_size),
+        {"repeated_edges": repeats.num_rows, "policy": ctx.spec.edges.duplicates},
+    )
+
+
+def check_parallel_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Edges of the same pair that differ in properties (count = distinct rows beyond the
+    first per pair; exact repeats are not counted)."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    variants = parallel_variants(edges)
+    extra = _sum(variants.column("variants")) - variants.num_rows
+    return Outcome(
+        extra,
+        edges.num_rows,
+        f"{extra} of {edges.num_rows} edges of {rel.dotted} join a pair that another edge "
+        f"with other properties already joins ({counted(variants.num_rows, 'pair')})",
+        sorted_sample(variants, ctx.sample_size),
+        {"pairs": variants.num_rows},
+    )
+
+
+def check_self_loop(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Edges from a vertex to itself (relations whose two sides are one type)."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    mask = self_loop_mask(edges.column(SOURCE_ID), edges.column(TARGET_ID))
+    count = _sum(mask)
+    return Outcome(
+        count,
+        edges.num_rows,
+        f"{count} of {edges.num_rows} edges of {rel.dotted} are self-loops "
+        f"(edges.self_loops is {ctx.spec.edges.self_loops!r})",
+        sorted_sample(edges.select(ENDPOINTS).filter(mask), ctx.sample_size),
+        {"policy": ctx.spec.edges.self_loops},
+    )
+
+
+def check_reciprocity(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Reciprocity of a same-type relation (count = reciprocated distinct pairs)."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    back, pairs = reciprocity_counts(edges.column(SOURCE_ID), edges.column(TARGET_ID))
+    value = back / pairs if pairs else None
+    text = (
+        f"the reciprocity of {rel.dotted} is {value:.4g}: {back} of {pairs} distinct pairs "
+        "have their reverse in the relation"
+        if value is not None
+        else f"{rel.dotted} has no edges, so its reciprocity is undefined"
+    )
+    details = {
+        "reciprocity": value,
+        "pairs": pairs,
+        "edges": edges.num_rows,
+        "definition": RECIPROCITY_DEFINITION,
+    }
+    return Outcome(back, pairs, text, details=details, found=True)
+
+
+def check_one_way_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Edges of an undirected relation whose reverse is missing (a self-loop is its own
+    reverse). ``details.pairs`` counts distinct such pairs."""
+    rel = RelationKey.parse(subject["relation"])
+    edges = ctx.edges(rel)
+    mask = pc.invert(reciprocated_mask(edges.column(SOURCE_ID), edges.column(TARGET_ID)))
+    count = _sum(mask)
+    one_way = edges.select(ENDPOINTS).filter(mask)
+    pairs = one_way.group_by(ENDPOINTS, use_threads=False).aggregate([]).num_rows
+    policy = ctx.spec.edges.undirected
+    then = (
+        "the build will add the missing reverses (edges.undirected: symmetrize)"
+        if policy == "symmetrize"
+        else "edges.undirected is 'as-is', so the bundle would hold them one way only"
+    )
+    return Outcome(
+        count,
+        edges.num_rows,
+        f"{count} of {edges.num_rows} edges of undirected relation {rel.dotted} lack their "
+        f"reverse; {then}",
+        sorted_sample(one_way, ctx.sample_size),
+        {"pairs": pairs, "policy": policy},
+    )
+
+
+def check_isolated_vertex(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Vertices with no edge in any relation (count = distinct ids)."""
+    name = subject["vertex_type"]
+    ids = ctx.vertices(name).column(VERTEX_ID).combine_chunks()
+    mask = isolated_mask(ids, ctx.endpoints_of(name))
+    isolated = pc.unique(ids.filter(mask))
+    total = len(pc.unique(ids))
+    return Outcome(
+        len(isolated),
+        total,
+        f"{len(isolated)} of {total} {name} vertices ({share(len(isolated), total)}) have no "
+        "edge in any declared relation",
+        sorted_sample(pa.table({VERTEX_ID: isolated}), ctx.sample_size),
+    )
+
+
+def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """A vertex type that no relation with at least one edge touches (count 0 or 1)."""
+    name = subject["vertex_type"]
+    touching = [r for r in ctx.relations if name in (r.source_type, r.target_type)]
+    with_edges = [r for r in touching if ctx.edges(r).num_rows]
+    rows = ctx.vertices(name).num_rows
+    declared = ", ".join(r.dotted for r in touching) or "none"
+    return Outcome(
+        0 if with_edges else 1,
+        1,
+        f"vertex type {name} ({rows} vertices) is in no relation that has edges "
+        f"(relations declared for it: {declared})",
+        details={"relations": [r.dotted for r in touching], "vertices": rows},
+    )
