@@ -1,0 +1,333 @@
+"""SPARQL 1.1 Protocol over HTTP (httpx): one SELECT in, one term table out, with retries.
+
+* GET with ``query=`` for short queries, POST ``application/sparql-query`` for long ones or
+  when ``method: post`` (form-encoded POST if the server answers 415);
+* ``Accept: text/tab-separated-values`` (TSV) or ``application/sparql-results+json``;
+* TSV is parsed while it streams, in pieces cut at line boundaries, so the client holds the
+  parsed Arrow columns plus one piece of text, never the whole body; JSON is parsed whole;
+* connection errors, dropped connections and HTTP 5xx are retried with exponential backoff
+  and jitter; then they become the graphmill error for the case (see :func:`_status_error`).
+
+Messages name the endpoint URL (which holds no credentials: see :mod:`._settings`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from typing import Protocol
+from urllib.parse import quote
+
+import httpx
+import pyarrow as pa
+import tenacity
+
+from graphmill._version import __version__
+from graphmill.connectors.rdf._terms import read_json_results, read_tsv_results
+from graphmill.connectors.sparql._settings import EndpointSettings
+from graphmill.errors import (
+    AuthenticationError,
+    GraphmillError,
+    MalformedResponseError,
+    SourceServerError,
+    SourceTimeoutError,
+    SourceUnavailableError,
+)
+
+PIECE_BYTES = 8 << 20  # TSV text parsed at a time
+MAX_GET_URL = 2000  # longer queries go by POST (common server and proxy URL limits)
+_ACCEPT = {"tsv": "text/tab-separated-values", "json": "application/sparql-results+json"}
+_CONTENT = {
+    "tsv": ("text/tab-separated-values",),
+    "json": ("application/sparql-results+json", "application/json"),
+}
+
+
+class Collector(Protocol):
+    """Receives the term tables of one response as they are parsed."""
+
+    def add(self, terms: pa.Table) -> None: ...
+
+
+class TableCollector:
+    """Keeps every piece; :meth:`table` concatenates them."""
+
+    def __init__(self) -> None:
+        self.pieces: list[pa.Table] = []
+
+    def add(self, terms: pa.Table) -> None:
+        self.pieces.append(terms)
+
+    def table(self) -> pa.Table:
+        return pa.concat_tables(self.pieces) if len(self.pieces) > 1 else self.pieces[0]
+
+
+@dataclass(frozen=True)
+class ServerInfo:
+    """What the endpoint says it is: ``oxigraph``, ``fuseki``, ``virtuoso`` or ``unknown``."""
+
+    product: str
+    server_header: str
+
+
+class _TransientError(Exception):
+    """A failure worth another try; carries the error to raise when tries run out."""
+
+    def __init__(self, error: GraphmillError) -> None:
+        super().__init__(error.message)
+        self.error = error
+
+
+def identify(headers: httpx.Headers) -> ServerInfo:
+    """Name the server product from response headers (Fuseki sends no Server header, but a
+    ``Fuseki-Request-Id``; Oxigraph sends ``Server: Oxigraph/<version>``)."""
+    server = headers.get("server", "")
+    low = server.lower()
+    if "oxigraph" in low:
+        return ServerInfo("oxigraph", server)
+    if "virtuoso" in low:
+        return ServerInfo("virtuoso", server)
+    if "fuseki-request-id" in headers or "fuseki" in low or "jena" in low:
+        return ServerInfo("fuseki", server)
+    return ServerInfo("unknown", server)
+
+
+class SparqlClient:
+    """A SPARQL endpoint client for one source; open it before use, close it after."""
+
+    def __init__(self, settings: EndpointSettings) -> None:
+        self.settings = settings
+        self.url = settings.query_url
+        self._http: httpx.Client | None = None
+        self.requests = 0
+
+    def open(self) -> None:
+        s = self.settings
+        auth = httpx.BasicAuth(s.username, s.password or "") if s.username is not None else None
+        self._http = httpx.Client(
+            auth=auth,
+            verify=s.ssl_verify(),
+            timeout=httpx.Timeout(s.request_timeout_s, connect=min(30.0, s.request_timeout_s)),
+            headers={"User-Agent": f"graphmill/{__version__}"},
+            follow_redirects=True,
+        )
+
+    def close(self) -> None:
+        if self._http is not None:
+            self._http.close()
+            self._http = None
+
+    def probe(self) -> ServerInfo:
+        """Send ``ASK {}`` (checks the URL and the credentials) and identify the server."""
+        response = self._retrying(lambda: self._ask("ASK {}"))
+        return identify(response)
+
+    def select(self, query: str, collector: Callable[[], Collector], *, where: str) -> Collector:
+        """Run a SELECT; feed its term tables to a fresh ``collector()`` per try; return it."""
+
+        def attempt() -> Collector:
+            sink = collector()
+            self._send(query, sink, where)
+            return sink
+
+        return self._retrying(attempt)
+
+    def select_table(self, query: str, *, where: str) -> pa.Table:
+        """Run a SELECT and return its whole term table."""
+        sink = self.select(query, TableCollector, where=where)
+        assert isinstance(sink, TableCollector)
+        return sink.table()
+
+    # ------------------------------------------------------------------ internals
+
+    def _retrying(self, action: Callable[[], object]) -> object:  # type: ignore[misc]
+        policy = self.settings.retries
+        retrying = tenacity.Retrying(
+            stop=tenacity.stop_after_attempt(policy.attempts),
+            wait=tenacity.wait_exponential_jitter(
+                initial=policy.initial_wait_s, max=policy.max_wait_s, jitter=policy.initial_wait_s
+            ),
+            retry=tenacity.retry_if_exception_type(_TransientError),
+            reraise=True,
+        )
+        try:
+            return retrying(action)
+        except _TransientError as exc:
+            error = exc.error
+            error.message += f" (after {policy.attempts} tries)"
+            raise error from exc.__cause__
+
+    def _request(self, query: str, accept: str, *, form: bool = False) -> httpx.Request:
+        assert self._http is not None, "open() the client first"
+        headers = {"Accept": accept}
+        method = self.settings.method
+        long_query = len(self.url) + len(quote(query, safe="")) + 7 > MAX_GET_URL
+        if method == "get" or (method == "auto" and not long_query):
+            return self._http.build_request(
+                "GET", self.url, params={"query": query}, headers=headers
+            )
+        if form:
+            return self._http.build_request(
+                "POST", self.url, data={"query": query}, headers=headers
+            )
+        headers["Content-Type"] = "application/sparql-query; charset=utf-8"
+        return self._http.build_request(
+            "POST", self.url, content=query.encode("utf-8"), headers=headers
+        )
+
+    def _ask(self, query: str) -> httpx.Headers:
+        with self._exchange(query, _ACCEPT["json"]) as response:
+            response.read()
+            return response.headers
+
+    def _send(self, query: str, sink: Collector, where: str) -> None:
+        fmt = self.settings.results_format
+        with self._exchange(query, _ACCEPT[fmt]) as response:
+            kind = response.headers.get("content-type", "").split(";")[0].strip().lower()
+            if kind not in _CONTENT[fmt]:
+                raise MalformedResponseError(
+                    f"the endpoint answered with content type {kind or 'none'!r}, "
+                    f"not {_ACCEPT[fmt]!r}",
+                    source=self.url,
+                    hint="check that query_url is the SPARQL query endpoint",
+                )
+            chunks = response.iter_bytes(1 << 20)
+            if fmt == "tsv":
+                for terms in _tsv_pieces(chunks, where):
+                    sink.add(terms)
+            else:
+                sink.add(read_json_results(b"".join(chunks), where=where))
+
+    def _exchange(self, query: str, accept: str) -> _Exchange:
+        return _Exchange(self, query, accept)
+
+
+class _Exchange:
+    """One request/response as a context manager that maps httpx failures to ours."""
+
+    def __init__(self, client: SparqlClient, query: str, accept: str) -> None:
+        self.client, self.query, self.accept = client, query, accept
+        self._stream: httpx.Response | None = None
+
+    def __enter__(self) -> httpx.Response:
+        http = self.client._http
+        assert http is not None
+        try:
+            request = self.client._request(self.query, self.accept)
+            response = http.send(request, stream=True)
+            if response.status_code == 415 and request.method == "POST":
+                response.close()
+                request = self.client._request(self.query, self.accept, form=True)
+                response = http.send(request, stream=True)
+        except httpx.HTTPError as exc:
+            raise _transport_error(exc, self.client.url) from exc
+        self.client.requests += 1
+        self._stream = response
+        if response.status_code >= 400:
+            response.read()
+            response.close()
+            raise _status_error(response, self.client.url)
+        return response
+
+    def __exit__(self, exc_type: object, exc: BaseException | None, tb: object) -> None:
+        assert self._stream is not None
+        self._stream.close()
+        if isinstance(exc, httpx.HTTPError):
+            raise _transport_error(exc, self.client.url) from exc
+
+
+def _transport_error(exc: httpx.HTTPError, url: str) -> Exception:
+    if isinstance(exc, httpx.ConnectTimeout | httpx.PoolTimeout):
+        return _TransientError(
+            SourceTimeoutError(
+                "connecting to the endpoint timed out",
+                source=url,
+                hint="check that the server is up and reachable",
+            )
+        )
+    if isinstance(exc, httpx.TimeoutException):
+        return SourceTimeoutError(
+            "the endpoint did not answer within request_timeout_s",
+            source=url,
+            hint="raise source.request_timeout_s or lower source.page_size",
+        )
+    if isinstance(exc, httpx.ConnectError):
+        return _TransientError(
+            SourceUnavailableError(
+                f"cannot connect to the endpoint ({_reason(exc)})",
+                source=url,
+                hint="check that the server is running and that query_url is right",
+            )
+        )
+    if isinstance(exc, httpx.TransportError):
+        return _TransientError(
+            SourceUnavailableError(
+                f"the connection to the endpoint broke off ({_reason(exc)})",
+                source=url,
+                hint="run the pull again: it resumes after the last staged page",
+            )
+        )
+    return SourceUnavailableError(f"HTTP request failed ({_reason(exc)})", source=url)
+
+
+def _reason(exc: BaseException) -> str:
+    text = str(exc).strip() or type(exc).__name__
+    return text.splitlines()[0][:160]
+
+
+def _status_error(response: httpx.Response, url: str) -> Exception:
+    code = response.status_code
+    said = " ".join(response.text[:300].split())[:160]
+    detail = f"HTTP {code} {response.reason_phrase}" + (f": {said}" if said else "")
+    if code in (401, 403):
+        return AuthenticationError(
+            f"the endpoint refused the credentials ({detail})",
+            source=url,
+            hint="check the user name and password in the variables named by "
+            "source.username_env and source.password_env",
+        )
+    if code >= 500:
+        return _TransientError(
+            SourceServerError(
+                f"the endpoint answered {detail}",
+                source=url,
+                hint="check the server's log, or try again later",
+            )
+        )
+    if code == 404:
+        return SourceUnavailableError(
+            f"no SPARQL endpoint here ({detail})", source=url, hint="check source.query_url"
+        )
+    return SourceServerError(
+        f"the endpoint refused the query ({detail})",
+        source=url,
+        hint="check the spec's IRIs; report the query if it is valid",
+    )
+
+
+def _tsv_pieces(chunks: Iterator[bytes], where: str) -> Iterator[pa.Table]:
+    """Parse a streamed TSV results document piece by piece, cutting at line ends."""
+    header: bytes | None = None
+    pending = bytearray()
+    for chunk in chunks:
+        pending += chunk
+        if header is None:
+            end = pending.find(b"\n")
+            if end < 0:
+                continue
+            header = bytes(pending[: end + 1])
+            del pending[: end + 1]
+        if len(pending) >= PIECE_BYTES:
+            cut = pending.rfind(b"\n")
+            if cut >= 0:
+                yield read_tsv_results(header + pending[: cut + 1], where=where)
+                del pending[: cut + 1]
+    if header is None:
+        if not pending.strip():
+            raise MalformedResponseError(
+                "the endpoint sent an empty document",
+                source=where,
+                hint="check that query_url is the SPARQL query endpoint",
+            )
+        header, pending = bytes(pending), bytearray()
+    yield read_tsv_results(header + pending, where=where)

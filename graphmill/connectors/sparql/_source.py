@@ -1,0 +1,252 @@
+"""``sparql-endpoint``: each work unit read from a SPARQL 1.1 endpoint over HTTP.
+
+The units, their SELECTs and the term -> page mapping are those of the RDF sources
+(:mod:`graphmill.connectors.rdf`), so an endpoint holding the same data gives the same
+snapshot as a dump. What this module adds is paging (see the package doc for the strategies),
+truncation checks and resumable cursors.
+"""
+
+from __future__ import annotations
+
+import json
+import threading
+from collections.abc import Iterator
+from typing import Any, ClassVar
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
+from graphmill.connectors.rdf._mapping import unit_pages
+from graphmill.connectors.rdf._plan import plan_units, resolve
+from graphmill.connectors.rdf._queries import VERTEX, KeyRange, unit_query, unit_variables
+from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
+from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
+from graphmill.connectors.sparql._settings import (
+    EndpointSettings,
+    check_query_url,
+    endpoint_settings,
+)
+from graphmill.errors import GraphmillError, MalformedResponseError
+from graphmill.spec import PipelineSpec
+
+#: what ``paging: auto`` picks per server, and the result cap the server is known to apply
+AUTO_PAGING: dict[str, tuple[str, int | None]] = {
+    "oxigraph": ("key-range", None),
+    "fuseki": ("key-range", None),
+    "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
+    "unknown": ("key-range", None),
+}
+_WHOLE = 1 << 62  # "no page limit" for unit_pages: one page per query
+
+
+def looks_capped(rows: int, cap: int | None) -> bool:
+    """Whether a result of ``rows`` rows may have been cut by a server cap: a known cap, or a
+    round number of at least 1000 (caps are configured as round numbers)."""
+    return rows > 0 and (rows == cap or (rows >= 1000 and rows % 1000 == 0))
+
+
+class SparqlEndpointSource(GraphSource):
+    """Reads the spec's vertex types and relations from ``source.query_url``."""
+
+    kind: ClassVar[str] = "sparql-endpoint"
+    capabilities: ClassVar[SourceCapabilities] = SourceCapabilities(
+        can_resume=True, knows_schema=False, max_concurrency=2
+    )
+
+    def __init__(self, spec: PipelineSpec) -> None:
+        super().__init__(spec)
+        self.url = check_query_url(str(spec.source["query_url"]))
+        self.rdf = resolve(spec)
+        self.settings: EndpointSettings | None = None
+        self.client: SparqlClient | None = None
+        self.server = ServerInfo("not contacted", "")
+        self.paging = str(spec.source.get("paging", "auto"))
+        self.known_cap: int | None = None
+        self._samples: dict[str, KeySample] = {}
+        self._lock = threading.Lock()
+
+    def plan(self) -> list[WorkUnit]:
+        return plan_units(self.spec)
+
+    def open(self) -> None:
+        self.settings = endpoint_settings(self.spec.source)
+        self.client = SparqlClient(self.settings)
+        self.client.open()
+        self.server = self.client.probe()
+        auto, self.known_cap = AUTO_PAGING[self.server.product]
+        if self.settings.paging == "auto":
+            self.paging = auto
+
+    def close(self) -> None:
+        if self.client is not None:
+            self.client.close()
+            self.client = None
+
+    # ------------------------------------------------------------------ reading
+
+    def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
+        if self.client is None:
+            raise GraphmillError("the source is not open", hint="use it in a 'with' block")
+        if cursor is not None and json.loads(cursor).get("paging") != self.paging:
+            raise GraphmillError(
+                f"the staged pages of {unit.unit_id} were read with another paging strategy",
+                hint="delete the '.staging' folder beside the snapshot and pull again",
+            )
+        if self.paging == "single-stream":
+            yield from self._read_whole(unit, cursor)
+        elif self.paging == "offset":
+            yield from self._read_offsets(unit, cursor)
+        else:
+            yield from self._read_ranges(unit, cursor)
+
+    def _where(self, unit: WorkUnit) -> str:
+        return f"{self.url} ({unit.unit_id})"
+
+    def _terms(self, unit: WorkUnit, query: str) -> pa.Table:
+        assert self.client is not None
+        return self.client.select_table(query, where=self._where(unit))
+
+    def _truncated(self, unit: WorkUnit, rows: int, key_range: KeyRange | None) -> bool:
+        """Whether the answer of ``rows`` rows was cut short: ask for row ``rows + 1``."""
+        if not looks_capped(rows, self.known_cap):
+            return False
+        probe = unit_query(self.spec, unit, key_range=key_range, limit=1, offset=rows)
+        return self._terms(unit, probe).num_rows > 0
+
+    def _page(self, unit: WorkUnit, terms: pa.Table, cursor: str) -> Page | None:
+        pages = list(unit_pages(self.rdf, unit, terms, page_rows=_WHOLE))
+        if not pages:
+            return None
+        pages[0].cursor = cursor
+        return pages[0]
+
+    def _capped_error(self, unit: WorkUnit, rows: int) -> MalformedResponseError:
+        return MalformedResponseError(
+            f"the endpoint returned exactly {rows} rows but holds more: it caps results "
+            "(e.g. Virtuoso's ResultSetMaxRows) and no smaller slice is possible",
+            source=self._where(unit),
+            hint="raise the server's result limit, or use paging: offset with a page_size "
+            "below the cap",
+        )
+
+    def _read_whole(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
+        """single-stream: one unpaged SELECT per unit, read as it streams, one page."""
+        if cursor is not None:
+            return  # the unit's only page is staged
+        terms = self._terms(unit, unit_query(self.spec, unit))
+        if self._truncated(unit, terms.num_rows, None):
+            raise self._capped_error(unit, terms.num_rows)
+        page = self._page(unit, terms, json.dumps({"paging": "single-stream"}))
+        if page is not None:
+            yield page
+
+    def _read_offsets(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
+        """offset: ORDER BY + LIMIT/OFFSET pages, cut at a vertex boundary."""
+        state = json.loads(cursor) if cursor else {"offset": 0, "limit": None}
+        if state.get("finished"):
+            return
+        offset, limit = int(state["offset"]), int(state["limit"] or self._page_rows())
+        first = unit_variables(self.spec, unit)[0]
+        while True:
+            query = unit_query(self.spec, unit, ordered=True, limit=limit, offset=offset)
+            terms = self._terms(unit, query)
+            rows = terms.num_rows
+            if 0 < rows < limit and self._truncated_at(unit, offset, rows):
+                limit = rows  # the server's cap: page by it from now on
+            finished = rows < limit
+            if rows == limit and unit.table == "vertices":
+                # a vertex's values must share a page, so equal values can be merged
+                keys = terms.column(first).combine_chunks()
+                keep = pc.not_equal(keys, keys[rows - 1])
+                if pc.any(keep).as_py():
+                    terms = terms.filter(keep)
+            offset += terms.num_rows
+            state = {"paging": "offset", "offset": offset, "limit": limit, "finished": finished}
+            page = self._page(unit, terms, json.dumps(state, sort_keys=True))
+            if page is not None:
+                yield page
+            if finished:
+                return
+
+    def _truncated_at(self, unit: WorkUnit, offset: int, rows: int) -> bool:
+        if not looks_capped(rows, self.known_cap):
+            return False
+        probe = unit_query(self.spec, unit, ordered=True, limit=1, offset=offset + rows)
+        return self._terms(unit, probe).num_rows > 0
+
+    def _page_rows(self) -> int:
+        assert self.settings is not None
+        return self.settings.page_size
+
+    def _sample(self, vertex_type: str) -> KeySample:
+        """The member key sample of ``vertex_type``, taken once per source."""
+        with self._lock:
+            if vertex_type not in self._samples:
+                assert self.client is not None
+                members = WorkUnit("vertices", vertex_type)
+                sink = self.client.select(
+                    unit_query(self.spec, members),
+                    lambda: KeySampler(VERTEX),
+                    where=self._where(members),
+                )
+                assert isinstance(sink, KeySampler)
+                self._samples[vertex_type] = sink.sample()
+            return self._samples[vertex_type]
+
+    def _read_ranges(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
+        """key-range: one SELECT per slice of subjects, one page per slice."""
+        state = RangeCursor.decode(cursor)
+        if state.finished:
+            return
+        if state.row_cap is None:
+            state.row_cap = self.known_cap
+        owner = unit.name if unit.table == "vertices" else unit.relation.source_type
+        planner = RangePlanner(self._sample(owner), self._page_rows())
+        if planner.whole_unit_fits(state):
+            terms = self._terms(unit, unit_query(self.spec, unit))
+            if not self._truncated(unit, terms.num_rows, None):
+                state.finished = True
+                page = self._page(unit, terms, state.encode())
+                if page is not None:
+                    yield page
+                return
+            state.row_cap = terms.num_rows
+        while not state.finished:
+            key_range, members = planner.next_range(state)
+            terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+            while self._truncated(unit, terms.num_rows, key_range):
+                state.row_cap = terms.num_rows
+                smaller = planner.narrower(key_range)
+                if smaller is None:
+                    raise self._capped_error(unit, terms.num_rows)
+                key_range, members = smaller, members / 2
+                terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+            if key_range.blank_nodes:
+                state.blanks_done = True
+            else:
+                state.low, state.finished = key_range.high, key_range.high is None
+            state.rows += terms.num_rows
+            state.members += members
+            page = self._page(unit, terms, state.encode())
+            if page is not None:
+                yield page
+
+    # ------------------------------------------------------------------ describing
+
+    def provenance(self) -> Provenance:
+        details: dict[str, Any] = {"server": self.server.product, "paging": self.paging}
+        if self.settings is not None:
+            details.update(self.settings.describe())
+            details["paging"] = self.paging
+        if self.paging == "key-range":
+            details["key_range_filter"] = (
+                "each page adds FILTER(isIRI(?k) && STR(?k) >= low && STR(?k) < high) on the "
+                "unit's first variable, or FILTER(isBlank(?k)) for blank-node subjects"
+            )
+        return Provenance(
+            kind=self.kind,
+            location=self.url,
+            queries=[unit_query(self.spec, u) for u in self.plan()],
+            details=details,
+        )
