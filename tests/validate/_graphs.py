@@ -10,6 +10,7 @@ exercise the snapshot's type unification and value-kind profiles just as a real 
 from __future__ import annotations
 
 from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -20,14 +21,40 @@ from graphmill.snapshot import Snapshot, pull
 from graphmill.spec import PipelineSpec, spec_from_dict
 
 Columns = Mapping[str, Sequence[Any] | pa.Array]
-Pages = Columns | pa.Table | Sequence[Columns | pa.Table]
 
 
-def _pages(value: Pages | None) -> list[pa.Table]:
+@dataclass(frozen=True)
+class KindedPage:
+    """A page whose source reports its own value-kind profile (as the RDF sources do for
+    ill-typed literals): ``value_kinds`` is ``{column: {kind: count}}``."""
+
+    columns: Columns | pa.Table
+    value_kinds: Mapping[str, Mapping[str, int]]
+
+
+PageLike = Columns | pa.Table | KindedPage
+Pages = PageLike | Sequence[PageLike]
+
+
+def _page(value: PageLike) -> Page:
+    kinds = None
+    if isinstance(value, KindedPage):
+        kinds = {k: dict(v) for k, v in value.value_kinds.items()}
+        value = value.columns
+    table = value if isinstance(value, pa.Table) else pa.table(dict(value))
+    return Page(
+        table.combine_chunks().to_batches()[0]
+        if table.num_rows
+        else pa.RecordBatch.from_pylist([], schema=table.schema),
+        value_kinds=kinds,
+    )
+
+
+def _pages(value: Pages | None) -> list[Page]:
     if value is None:
         return []
     items = value if isinstance(value, list | tuple) else [value]
-    return [v if isinstance(v, pa.Table) else pa.table(dict(v)) for v in items]
+    return [_page(v) for v in items]
 
 
 class InMemorySource(GraphSource):
@@ -44,7 +71,7 @@ class InMemorySource(GraphSource):
         facets: Mapping[tuple[str, str], Pages] | None = None,
     ) -> None:
         super().__init__(spec)
-        self._tables: dict[tuple[str, str, str | None], list[pa.Table]] = {}
+        self._tables: dict[tuple[str, str, str | None], list[Page]] = {}
         for name, pages in vertices.items():
             self._tables[("vertices", name, None)] = _pages(pages)
         for dotted, pages in edges.items():
@@ -58,10 +85,7 @@ class InMemorySource(GraphSource):
         return units + faceted
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
-        for table in self._tables.get((unit.table, unit.name, unit.facet), []):
-            for batch in table.combine_chunks().to_batches() or [None]:
-                if batch is not None:
-                    yield Page(batch)
+        yield from self._tables.get((unit.table, unit.name, unit.facet), [])
 
     def provenance(self) -> Provenance:
         return Provenance(kind=self.kind, location="tests/validate", queries=[])
