@@ -32,10 +32,15 @@ def finding_text(finding: Finding) -> str:
         f"{finding.severity}: {finding.message}",
         f"count {finding.count} of {finding.denominator} (rate {finding.rate:.6g})",
     ]
-    lines += [f"  e.g. {json.dumps(json_safe(r), sort_keys=True)}" for r in finding.sample]
+    lines += [f"  e.g. {_json(r)}" for r in finding.sample]
     if finding.details:
-        lines.append(f"details: {json.dumps(json_safe(finding.details), sort_keys=True)}")
+        lines.append(f"details: {_json(finding.details)}")
     return xml_text("\n".join(lines))
+
+
+def _json(value: object) -> str:
+    # JSON escapes control characters itself; other characters stay readable.
+    return json.dumps(json_safe(value), sort_keys=True, ensure_ascii=False)
 
 
 def testcase_name(rule: str, subject: dict[str, str]) -> str:

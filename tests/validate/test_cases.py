@@ -9,6 +9,7 @@ from typing import Any
 import pytest
 import yaml
 
+from graphmill._schemas import validate_document
 from graphmill.validate import run_checks
 from tests.validate._graphs import KindedPage, publish
 
@@ -51,6 +52,7 @@ def _publish(tmp_path: Path, case: dict[str, Any]) -> Any:
 def test_case(tmp_path: Path, case: dict[str, Any]) -> None:
     spec, snapshot = _publish(tmp_path, case)
     report = run_checks(spec, snapshot)
+    validate_document("report", report.to_dict())  # every emitted report matches its schema
     found = [f.to_dict() for f in report.findings]
     evaluated = {(e.rule, tuple(sorted(e.subject.items()))): e.status for e in report.evaluated}
 
