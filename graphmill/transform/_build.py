@@ -1,0 +1,269 @@
+"""``build_bundle``: a published snapshot and the spec in, a bundle folder out.
+
+Steps: index the vertices of each type, code the label and draw the parts, encode the
+features (fitted on the train part of the labelled type), map and police the edges of each
+relation (plus reverse relations when asked), then write everything into a scratch folder
+that replaces ``spec.output.bundle`` only once complete. Any error leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import re
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill._atomic import atomic_directory
+from graphmill._progress import Progress, SilentProgress
+from graphmill._version import __version__
+from graphmill.bundle import relation_key, table_path
+from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.errors import InputError, SpecError
+from graphmill.snapshot import Snapshot
+from graphmill.spec import PipelineSpec, RelationKey
+from graphmill.transform._edges import EdgeArrays, apply_edge_policy
+from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
+from graphmill.transform._pseudonyms import SCHEME, pseudonym_key, pseudonymizer
+from graphmill.transform._vertices import add_vertex_type
+from graphmill.transform._writer import BundleContent, write_bundle
+
+_USERINFO = re.compile(r"(?<=://)[^/@\s]*@")
+
+
+@dataclass
+class BuildInfo:
+    """What a build did."""
+
+    bundle: Path
+    vertex_counts: dict[str, int] = field(default_factory=dict)
+    edge_counts: dict[str, int] = field(default_factory=dict)
+    duplicate_vertices: dict[str, int] = field(default_factory=dict)
+    dropped_edges: dict[str, dict[str, int]] = field(default_factory=dict)
+    merged_edges: dict[str, int] = field(default_factory=dict)
+    added_edges: dict[str, int] = field(default_factory=dict)
+    part_sizes: dict[str, int] = field(default_factory=dict)
+    seconds: float = 0.0
+    warnings: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "bundle": str(self.bundle),
+            "vertex_counts": self.vertex_counts,
+            "edge_counts": self.edge_counts,
+            "duplicate_vertices": self.duplicate_vertices,
+            "dropped_edges": self.dropped_edges,
+            "merged_edges": self.merged_edges,
+            "added_edges": self.added_edges,
+            "part_sizes": self.part_sizes,
+            "seconds": round(self.seconds, 3),
+            "warnings": self.warnings,
+        }
+
+
+def build_bundle(
+    spec: PipelineSpec,
+    snapshot: Snapshot,
+    *,
+    checks_summary: dict[str, Any] | None = None,
+    progress: Progress | None = None,
+) -> BuildInfo:
+    """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically."""
+    started = time.perf_counter()
+    progress = progress or SilentProgress()
+    key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
+    _check_snapshot(spec, snapshot)
+    info = BuildInfo(spec.output.bundle)
+    content = BundleContent()
+    content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None})
+    indices: dict[str, VertexIndex] = {}
+    task = progress.task("build vertices", total=len(spec.vertex_types))
+    for name, vt in spec.vertex_types.items():
+        columns = [VERTEX_ID] + [p.name for p in vt.properties]
+        table = snapshot.vertices(name).select(columns)
+        fn = pseudonymizer(name, key) if key is not None else None
+        indices[name] = vi = index_vertices(name, table, pseudonymize=fn)
+        _check_unique(vi)
+        info.warnings += add_vertex_type(content, spec, vi)
+        info.vertex_counts[name] = vi.count
+        info.duplicate_vertices[name] = vi.duplicates
+        task.advance()
+    task = progress.task("build relations", total=len(spec.relations))
+    for rel in spec.relations:
+        _add_relation(content, info, spec, snapshot, rel, indices)
+        task.advance()
+    if spec.label is not None:
+        split = content.manifest["split"]
+        info.part_sizes = dict(split["sizes"]) if split else {}
+    content.manifest.update(
+        {
+            "graphmill_version": __version__,
+            "name": spec.name,
+            "source": public_source(snapshot.provenance),
+            "ids": {
+                "pseudonymized": key is not None,
+                "scheme": SCHEME if key is not None else None,
+                "key_env": spec.pseudonym_key_env if key is not None else None,
+                "index_order": "pseudonym" if key is not None else "vertex_id",
+            },
+            "counts": {
+                "vertices": info.vertex_counts,
+                "duplicate_vertices_dropped": info.duplicate_vertices,
+                "edges": info.edge_counts,
+                "edges_dropped": info.dropped_edges,
+                "edges_merged": info.merged_edges,
+                "edges_added": info.added_edges,
+            },
+            "edge_policy": {
+                "duplicates": spec.edges.duplicates,
+                "self_loops": spec.edges.self_loops,
+                "undirected": spec.edges.undirected,
+                "add_reverse": spec.edges.add_reverse,
+            },
+            "validation": checks_summary,
+            "warnings": info.warnings,
+        }
+    )
+    with atomic_directory(spec.output.bundle) as scratch:
+        write_bundle(scratch, content)
+    info.seconds = time.perf_counter() - started
+    return info
+
+
+def public_source(provenance: dict[str, Any]) -> dict[str, Any]:
+    """Kind, location and queries, with any ``user:password@`` removed from the location."""
+    return {
+        "kind": str(provenance.get("kind", "")),
+        "location": _USERINFO.sub("", str(provenance.get("location", ""))),
+        "queries": [str(q) for q in provenance.get("queries", [])],
+    }
+
+
+def _check_snapshot(spec: PipelineSpec, snapshot: Snapshot) -> None:
+    hint = "pull again with the current spec"
+    for name, vt in spec.vertex_types.items():
+        if name not in snapshot.vertex_types:
+            raise InputError(
+                f"the snapshot has no vertex type {name!r}", file=str(snapshot.root), hint=hint
+            )
+        have = set(snapshot.vertices(name).schema.names)
+        for prop in vt.properties:
+            if prop.name not in have:
+                raise InputError(
+                    f"the snapshot's {name!r} vertices have no property {prop.name!r}",
+                    file=str(snapshot.root),
+                    hint=hint,
+                )
+    for rel in spec.relations:
+        if rel.key not in snapshot.relations:
+            raise InputError(
+                f"the snapshot has no relation {rel.key.dotted}", file=str(snapshot.root), hint=hint
+            )
+
+
+def _check_unique(vi: VertexIndex) -> None:
+    """Pseudonyms are 128 bits: a collision is astronomically unlikely, but never silent."""
+    ids = vi.public_ids
+    if (
+        len(ids) > 1
+        and not pa.compute.all(
+            pa.compute.not_equal(ids.slice(1), ids.slice(0, len(ids) - 1))
+        ).as_py()
+    ):
+        raise InputError(
+            f"two {vi.vertex_type!r} vertices got the same pseudonym", hint="use another key"
+        )
+
+
+def _add_relation(
+    content: BundleContent,
+    info: BuildInfo,
+    spec: PipelineSpec,
+    snapshot: Snapshot,
+    rel: Any,
+    indices: dict[str, VertexIndex],
+) -> None:
+    key: RelationKey = rel.key
+    table = snapshot.edges(key).select([SOURCE_ID, TARGET_ID] + [p.name for p in rel.properties])
+    src, dst = indices[key.source_type], indices[key.target_type]
+    same_type = key.source_type == key.target_type
+    symmetrize = rel.undirected and spec.edges.undirected == "symmetrize"
+    if symmetrize and not same_type:
+        info.warnings.append(
+            f"{key.dotted}: an undirected relation between two vertex types cannot be "
+            "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
+        )
+    outcome = apply_edge_policy(
+        map_endpoints(table.column(SOURCE_ID), src.ids),
+        map_endpoints(table.column(TARGET_ID), dst.ids),
+        same_type=same_type,
+        vertex_count=src.count,
+        duplicates=spec.edges.duplicates,
+        self_loops=spec.edges.self_loops,
+        symmetrize=symmetrize and same_type,
+    )
+    properties = table.drop_columns([SOURCE_ID, TARGET_ID])
+    entry = {
+        "undirected": rel.undirected,
+        "symmetrized": symmetrize and same_type,
+        "reverse_of": None,
+    }
+    _emit_relation(content, info, key, outcome.edges, properties, entry)
+    info.dropped_edges[key.dotted] = outcome.dropped
+    info.merged_edges[key.dotted] = outcome.merged
+    info.added_edges[key.dotted] = outcome.added_reverses
+    if spec.edges.add_reverse and not rel.undirected:
+        reverse = RelationKey(key.target_type, f"rev_{key.name}", key.source_type)
+        if any(r.key == reverse for r in spec.relations):
+            raise SpecError(
+                f"edges.add_reverse would add {reverse.dotted}, which the spec already declares",
+                key_path="edges.add_reverse",
+                hint="rename that relation or set add_reverse: false",
+            )
+        entry = {"undirected": False, "symmetrized": False, "reverse_of": key.dotted}
+        _emit_relation(content, info, reverse, outcome.edges.reversed(), properties, entry)
+
+
+def _emit_relation(
+    content: BundleContent,
+    info: BuildInfo,
+    key: RelationKey,
+    edges: EdgeArrays,
+    properties: pa.Table,
+    entry: dict[str, Any],
+) -> None:
+    endpoints = np.stack([edges.source, edges.target]).astype(np.int64).reshape(2, len(edges))
+    tensor = content.add_tensor(
+        relation_key(key, "endpoints"),
+        endpoints,
+        f"{key.dotted}: row 0 source index, row 1 target index",
+    )
+    columns: dict[str, Any] = {"source_index": edges.source, "target_index": edges.target}
+    if edges.multiplicity is not None:
+        content.add_tensor(
+            relation_key(key, "multiplicity"),
+            edges.multiplicity.astype(np.float32),
+            f"{key.dotted}: number of repeated copies merged into each edge",
+        )
+        columns["multiplicity"] = edges.multiplicity
+    edge_table = pa.table(columns)
+    kept = properties.take(pa.array(edges.rows, pa.int64()))
+    for name in kept.column_names:
+        edge_table = edge_table.append_column(name, kept.column(name))
+    path = table_path("edges", key.dotted)
+    content.tables[path] = edge_table
+    content.manifest.setdefault("relations", {})[key.dotted] = {
+        **entry,
+        "source_type": key.source_type,
+        "name": key.name,
+        "target_type": key.target_type,
+        "count": len(edges),
+        "merged": edges.multiplicity is not None,
+        "properties": [n for n in properties.column_names],
+        "table": path,
+        "tensor": tensor,
+    }
+    info.edge_counts[key.dotted] = len(edges)

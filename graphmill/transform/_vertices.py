@@ -1,0 +1,170 @@
+"""One vertex type into the bundle: its table, label codes, parts and features.
+
+Contract: for the labelled type the label is coded (``_labels``), the parts drawn
+(``_splits``) and the encoders fitted on the train part only; for every other type they are
+fitted on all vertices. Adds tables, tensors and the type's manifest entry to the content;
+returns warnings.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill.bundle import table_path, vertex_key
+from graphmill.connectors.base import VERTEX_ID
+from graphmill.spec import PipelineSpec
+from graphmill.transform._features import FeatureTable, encode_vertex_features
+from graphmill.transform._indexing import VertexIndex
+from graphmill.transform._labels import class_codes, label_strings
+from graphmill.transform._splits import PARTS, part_flags, part_positions, split_vertices
+from graphmill.transform._writer import BundleContent
+
+INDEX = "index"
+PSEUDONYM = "pseudonym"
+
+
+def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex) -> list[str]:
+    """Add everything about ``vi.vertex_type`` to ``content``; return warnings."""
+    name, n = vi.vertex_type, vi.count
+    warnings: list[str] = []
+    index = pa.array(np.arange(n, dtype=np.int64))
+    id_column = PSEUDONYM if spec.pseudonymize else VERTEX_ID
+    vertices = pa.table({INDEX: index, id_column: vi.public_ids})
+    for column in vi.table.column_names[1:]:
+        vertices = vertices.append_column(column, vi.table.column(column))
+    content.tables[table_path("vertices", name)] = vertices
+    entry: dict[str, Any] = {
+        "count": n,
+        "id_column": id_column,
+        "properties": vi.table.column_names[1:],
+        "table": table_path("vertices", name),
+        "label": None,
+        "parts": None,
+        "codes": {},
+    }
+    fit_rows = np.arange(n, dtype=np.int64)
+    features = [f for f in spec.features if f.vertex_type == name]
+    label = spec.label
+    if label is not None and label.vertex_type == name:
+        fit_rows = _add_label_and_parts(content, spec, vi, entry, warnings)
+        if any(f.property == label.property for f in features):
+            warnings.append(
+                f"features.{name}: property {label.property!r} is also the label; the "
+                "features reveal the label"
+            )
+    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids)
+    _add_features(content, name, index, encoded, entry)
+    content.manifest.setdefault("vertex_types", {})[name] = entry
+    return warnings
+
+
+def _add_label_and_parts(
+    content: BundleContent,
+    spec: PipelineSpec,
+    vi: VertexIndex,
+    entry: dict[str, Any],
+    warnings: list[str],
+) -> np.ndarray:
+    assert spec.label is not None
+    name, prop = vi.vertex_type, spec.label.property
+    strings = label_strings(vi.table.column(prop), where=f"label.property ({prop})")
+    codes, classes = class_codes(strings)
+    content.add_tensor(
+        vertex_key(name, "labels"), codes, f"{name}: class code per vertex, -1 unlabeled"
+    )
+    labelled = int((codes >= 0).sum())
+    sizes_by_class = np.bincount(codes[codes >= 0], minlength=len(classes))
+    entry["label"] = {
+        "property": prop,
+        "classes": classes,
+        "class_sizes": {c: int(k) for c, k in zip(classes, sizes_by_class, strict=True)},
+        "labelled": labelled,
+        "tensor": vertex_key(name, "labels"),
+    }
+    if labelled == 0:
+        warnings.append(f"label.property: no {name!r} vertex has a value for {prop!r}")
+    split = spec.split
+    fractions = (split.train, split.validation, split.test)
+    part_of = split_vertices(
+        codes,
+        method=split.method,
+        fractions=fractions,
+        seed=split.seed,
+        only_labeled=split.only_labeled,
+    )
+    positions, flags = part_positions(part_of), part_flags(part_of)
+    for part in PARTS:
+        content.add_tensor(
+            vertex_key(name, f"part.{part}.positions"),
+            positions[part],
+            f"{name}: sorted indices in {part}",
+        )
+        content.add_tensor(
+            vertex_key(name, f"part.{part}.flags"), flags[part], f"{name}: membership of {part}"
+        )
+    assigned = np.flatnonzero(part_of >= 0)
+    content.tables[table_path("parts", name)] = pa.table(
+        {
+            "index": pa.array(assigned.astype(np.int64)),
+            "part": pa.array(
+                np.asarray(PARTS, dtype=object)[part_of[assigned]].tolist(), pa.string()
+            ),
+        }
+    )
+    sizes = {part: len(positions[part]) for part in PARTS}
+    entry["parts"] = {"table": table_path("parts", name), "sizes": sizes}
+    content.manifest["label"] = {"vertex_type": name, "property": prop, "classes": classes}
+    content.manifest["split"] = {
+        "method": split.method,
+        "seed": split.seed,
+        "fractions": dict(zip(PARTS, fractions, strict=True)),
+        "only_labeled": split.only_labeled,
+        "rounding": "largest remainder per stratum; one train vertex per non-empty stratum",
+        "generator": "numpy.random.Generator(PCG64(seed)).permutation",
+        "sizes": sizes,
+    }
+    if sizes["train"] == 0 and spec.features:
+        warnings.append(f"split: the train part of {name!r} is empty; encoders use defaults")
+    return positions["train"]
+
+
+def _add_features(
+    content: BundleContent, name: str, index: pa.Array, encoded: FeatureTable, entry: dict[str, Any]
+) -> None:
+    has_table = bool(encoded.names or encoded.codes)
+    tensor = None
+    if encoded.matrix is not None:
+        tensor = content.add_tensor(
+            vertex_key(name, "features"),
+            encoded.matrix,
+            f"{name}: encoded features, one row per vertex",
+        )
+    entry["features"] = {
+        "columns": encoded.names,
+        "width": len(encoded.names),
+        "tensor": tensor,
+        "table": table_path("features", name) if has_table else None,
+        "encoders": encoded.encoders,
+    }
+    for prop, codes in encoded.codes.items():
+        stats = next(
+            e["statistics"] for e in encoded.encoders if e.get("code_column") == f"{prop}__code"
+        )
+        entry["codes"][prop] = {
+            "tensor": content.add_tensor(
+                vertex_key(name, f"codes.{prop}"), codes, f"{name}: category code of {prop!r}"
+            ),
+            "vocabulary": stats["vocabulary"],
+            "unknown_code": stats["unknown_code"],
+        }
+    if has_table:
+        table = pa.table({INDEX: index})
+        matrix = encoded.matrix
+        for j, column in enumerate(encoded.names):
+            table = table.append_column(pa.field(column, pa.float32()), [pa.array(matrix[:, j])])
+        for prop, codes in encoded.codes.items():
+            table = table.append_column(f"{prop}__code", [pa.array(codes)])
+        content.tables[table_path("features", name)] = table

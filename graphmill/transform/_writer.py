@@ -1,0 +1,87 @@
+"""Writing a bundle's files into a (scratch) folder, deterministically.
+
+Contract: given the tables, the tensors and the manifest body, write every Parquet table with
+the snapshot's fixed options, the tensors as one safetensors file (keys sorted, no metadata
+that varies), then ``manifest.json`` with the tensor index and the ``files`` list (path,
+bytes, sha256 of every other file, sorted by path), sealed with its self-hash. Nothing here
+knows the time or the machine, so equal inputs give equal bytes.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill._atomic import sha256_file
+from graphmill._schemas import validate_document
+from graphmill.bundle import BUNDLE_FORMAT, MANIFEST_FILE, TENSOR_FILE, seal_manifest
+from graphmill.snapshot import write_parquet
+
+
+@dataclass
+class BundleContent:
+    """What a bundle will hold, gathered before anything is written."""
+
+    tables: dict[str, pa.Table] = field(default_factory=dict)  # relative path -> table
+    tensors: dict[str, np.ndarray] = field(default_factory=dict)
+    meanings: dict[str, str] = field(default_factory=dict)  # tensor key -> one line
+    manifest: dict[str, Any] = field(default_factory=dict)
+
+    def add_tensor(self, key: str, array: np.ndarray, meaning: str) -> str:
+        if key in self.tensors:
+            raise ValueError(f"tensor {key!r} added twice")  # a bug, never bad input
+        self.tensors[key] = np.ascontiguousarray(array)
+        self.meanings[key] = meaning
+        return key
+
+
+_DTYPE_NAMES = {
+    np.dtype(np.float32): "float32",
+    np.dtype(np.int64): "int64",
+    np.dtype(bool): "bool",
+}
+
+
+def tensor_index(content: BundleContent) -> dict[str, dict[str, Any]]:
+    """key -> dtype, shape, meaning; only the three dtypes the loader expects."""
+    index = {}
+    for key, array in sorted(content.tensors.items()):
+        if array.dtype not in _DTYPE_NAMES:
+            raise ValueError(f"tensor {key!r} has unexpected dtype {array.dtype}")
+        index[key] = {
+            "dtype": _DTYPE_NAMES[array.dtype],
+            "shape": [int(n) for n in array.shape],
+            "meaning": content.meanings[key],
+        }
+    return index
+
+
+def write_bundle(root: Path, content: BundleContent) -> dict[str, Any]:
+    """Write everything into ``root`` (an empty folder); return the sealed manifest."""
+    from safetensors.numpy import save as save_tensors
+
+    for rel_path, table in sorted(content.tables.items()):
+        write_parquet(table, root / rel_path)
+    (root / TENSOR_FILE).write_bytes(
+        save_tensors(dict(sorted(content.tensors.items())), metadata={"bundle_format": "1"})
+    )
+    files = []
+    for path in sorted(p for p in root.rglob("*") if p.is_file()):
+        rel = path.relative_to(root).as_posix()
+        files.append({"path": rel, "bytes": path.stat().st_size, "sha256": sha256_file(path)})
+    manifest = {
+        **content.manifest,
+        "bundle_format": BUNDLE_FORMAT,
+        "tensors": tensor_index(content),
+        "files": files,
+    }
+    data = seal_manifest(manifest)
+    sealed = json.loads(data)
+    validate_document("manifest", sealed)  # a mismatch here is a bug in graphmill
+    (root / MANIFEST_FILE).write_bytes(data)
+    return sealed
