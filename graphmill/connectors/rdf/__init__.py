@@ -29,8 +29,10 @@ How RDF becomes a property graph
   rendered as the snapshot renders typed values (``1``, ``2.5``, ``true``,
   ``2020-01-01T00:00:00.000000``), with the kind counts in the value-kind profile. The column
   type is chosen per work unit, so it does not depend on paging.
-* **Repeated values.** A vertex's values of one property form a set: values equal as values
-  (``"01"`` and ``"1"`` as xsd:integer) count once.
+* **Repeated values.** A vertex's values of one property form a set: typed values equal as
+  values (``"01"`` and ``"1"`` as xsd:integer, ``"1"^^xsd:int`` too) count once; strings count
+  once per lexical form, datatype and language tag (``"chat"@en`` and ``"chat"`` are two
+  values, both written ``chat``).
 * **Languages.** With ``rdf.languages`` set, a language-tagged literal is kept only if its tag
   is listed (compared ignoring case, whole tags: ``en`` does not keep ``en-GB``), an untagged
   xsd:string literal only if ``""`` is listed; literals of other datatypes are always kept.

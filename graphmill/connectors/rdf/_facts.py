@@ -31,6 +31,7 @@ def _distinct(table: pa.Table) -> pa.Table:
 
 
 def _terms(name: str, table: pa.Table, prefix: str) -> dict[str, pa.ChunkedArray]:
+    """The term columns ``prefix*`` of ``table`` renamed to ``name*``."""
     return {name + sfx: table.column(prefix + sfx) for sfx in TERM_SUFFIXES}
 
 
@@ -83,7 +84,7 @@ class FactTable:
             source_type, predicate = plan.relations[unit.name]
             rows = self._with_subject_in(predicate, self.members(source_type))
             rows = rows.filter(pc.not_equal(rows.column("o_kind"), "literal"))
-            return _distinct(pa.table({**_terms(SOURCE, rows, "s"), **_terms(TARGET, rows, "o")}))
+            return _distinct(pa.table({SOURCE: rows.column("s"), TARGET: rows.column("o")}))
         if unit.facet is None:
             return self._membership(unit.name)
         if unit.facet == plan.graph_property:
@@ -97,7 +98,8 @@ class FactTable:
             plan.languages,
         )
         rows = rows.filter(keep)
-        return _distinct(pa.table({**_terms(VERTEX, rows, "s"), **_terms(VALUE, rows, "o")}))
+        facts = {VERTEX: rows.column("s"), **_terms(VALUE, rows, "o")}
+        return _distinct(pa.table(facts).drop_columns([VALUE + "_kind"]))
 
     def _membership(self, vertex_type: str) -> pa.Table:
         members = self.members(vertex_type)

@@ -70,15 +70,22 @@ def _check_clashes(terms: pa.Table, plan: RdfPlan, vertex_type: str) -> None:
     )
 
 
-def typed_values(lexical: pa.Array, datatype: pa.Array) -> tuple[pa.Array, pa.Array, pa.Array]:
+def typed_values(
+    lexical: pa.Array, datatype: pa.Array, lang: pa.Array | None = None
+) -> tuple[pa.Array, pa.Array, pa.Array]:
     """(values, kinds, identity) of literals, with one column type for all (module doc).
 
     ``identity`` is a string equal for equal values of one kind, used to drop repeats.
     """
     read = literal_values(lexical, datatype)
+    lang = pa.nulls(len(lexical), pa.string()) if lang is None else lang
     present = {k for k in read.values if k in pc.unique(read.kinds).to_pylist()}
     rendered = {k: conform(v, pa.string()) for k, v in read.values.items()}
-    identity = pc.coalesce(*rendered.values(), pc.binary_join_element_wise(datatype, lexical, " "))
+    # Strings are equal only with equal datatype and language tag (RDF 1.1 Concepts, 3.3);
+    # ill-typed literals only as terms; typed values by value.
+    as_term = pc.binary_join_element_wise(datatype, pc.fill_null(lang, ""), lexical, " ")
+    by_value = [v for k, v in rendered.items() if k != "string"]
+    identity = pc.coalesce(*by_value, as_term)
     if not present:
         values: pa.Array = pa.nulls(len(lexical))
     elif len(present) == 1:
@@ -93,11 +100,15 @@ def typed_values(lexical: pa.Array, datatype: pa.Array) -> tuple[pa.Array, pa.Ar
 def _distinct_values(
     ids: pa.Array, values: pa.Array, kinds: pa.Array, identity: pa.Array
 ) -> pa.Table:
-    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity, "value": values})
-    grouped = table.group_by([VERTEX_ID, "kind", "identity"], use_threads=False).aggregate(
-        [("value", "first")]
-    )
-    return grouped.rename_columns([VERTEX_ID, "kind", "identity", "value"])
+    """One row per (vertex, kind, value identity); the value of equal rows is equal."""
+    keys = [VERTEX_ID, "kind", "identity"]
+    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity})
+    if pa.types.is_null(values.type):  # no typed value at all (none, or all ill-typed)
+        grouped = table.group_by(keys, use_threads=False).aggregate([])
+        return grouped.append_column("value", pa.nulls(grouped.num_rows))
+    table = table.append_column("value", values)
+    grouped = table.group_by(keys, use_threads=False).aggregate([("value", "first")])
+    return grouped.rename_columns([*keys, "value"])
 
 
 def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table, pa.Array | None]:
@@ -115,7 +126,7 @@ def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table
             pc.is_valid(graph), "string", pa.scalar(None, pa.string())
         )
     values, kinds, identity = typed_values(
-        _column(terms, VALUE), _column(terms, VALUE + "_datatype")
+        _column(terms, VALUE), _column(terms, VALUE + "_datatype"), _column(terms, VALUE + "_lang")
     )
     distinct = _distinct_values(ids, values, kinds, identity)
     table = pa.table({VERTEX_ID: distinct.column(VERTEX_ID), unit.facet: distinct.column("value")})

@@ -30,10 +30,6 @@ from graphmill.errors import MalformedResponseError
 
 TERM_SUFFIXES = ("", "_kind", "_datatype", "_lang")
 _NULL = pa.scalar(None, pa.string())
-_QUOTED = {
-    '"': r'^"(?P<lex>(?:[^"\\]|\\.)*)"(?P<rest>.*)$',
-    "'": r"^'(?P<lex>(?:[^'\\]|\\.)*)'(?P<rest>.*)$",
-}
 _SUFFIX = r"^(?:@(?P<lang>[A-Za-z]+(?:-[A-Za-z0-9]+)*)|\^\^<(?P<dt>[^<>\"\s]*)>)?$"
 # Turtle short forms (Turtle, section 2.5.2) that SPARQL TSV results may use.
 _SHORT = (
@@ -44,7 +40,7 @@ _SHORT = (
 )
 _ECHAR = {"t": "\t", "b": "\b", "n": "\n", "r": "\r", "f": "\f", '"': '"', "'": "'"}
 _UCHAR = re.compile(r"\\u([0-9A-Fa-f]{4})|\\U([0-9A-Fa-f]{8})")
-_GRAPH_TAIL = r'^(?P<o>.*) (?P<g><[^<>"\s]*>|_:[^\s"\\<>]+)$'
+_GRAPH_TAIL = r' (?P<g><[^<>"\s]*>|_:[^\s"\\<>]+)$'
 
 
 def _flat(array: pa.Array | pa.ChunkedArray) -> pa.Array:
@@ -87,44 +83,59 @@ def _malformed(cells: pa.Array, bad: pa.Array, where: str) -> MalformedResponseE
     )
 
 
+def _scatter(mask: pa.Array, values: Any, into: pa.Array) -> pa.Array:
+    """``into`` with the rows under ``mask`` replaced by ``values`` (an array or a scalar)."""
+    if isinstance(values, str):
+        return pc.if_else(mask, values, into)
+    return pc.replace_with_mask(into, mask, values)
+
+
+def _literals(cells: pa.Array, quote: str, where: str) -> tuple[pa.Array, pa.Array, pa.Array]:
+    """(lexical, datatype, lang) of quoted literals; the closing quote is the last one, as
+    neither ``@lang`` nor ``^^<iri>`` can hold a quote."""
+    parts = pc.split_pattern(cells, pattern=quote, max_splits=1, reverse=True)
+    head, suffix = pc.list_element(parts, 0), pc.list_element(parts, 1)
+    tail = pc.extract_regex(suffix, _SUFFIX)
+    if tail.null_count:
+        raise _malformed(cells, pc.is_null(tail), where)
+    tag, dt = pc.struct_field(tail, "lang"), pc.struct_field(tail, "dt")
+    tagged = pc.greater(pc.utf8_length(tag), 0)
+    dt = pc.if_else(tagged, RDF_LANG_STRING, pc.if_else(pc.equal(dt, ""), XSD_STRING, dt))
+    return unescape(pc.utf8_slice_codeunits(head, 1)), dt, tag
+
+
 def split_terms(cells: pa.Array, *, where: str = "SPARQL results") -> dict[str, pa.Array]:
     """Parse Turtle-syntax term cells into ``value``, ``kind``, ``datatype`` and ``lang``."""
     cells = _flat(cells)
     n = len(cells)
-    value = pa.nulls(n, pa.string())
-    kind, datatype, lang = value, value, value
-    known = pc.is_null(cells)
-
-    def place(mask: pa.Array, k: str, v: pa.Array, dt: Any = _NULL, tag: Any = _NULL) -> None:
-        nonlocal value, kind, datatype, lang, known
-        value = pc.if_else(mask, v, value)
-        kind = pc.if_else(mask, k, kind)
-        datatype = pc.if_else(mask, dt, datatype)
-        lang = pc.if_else(mask, tag, lang)
-        known = pc.or_(known, mask)
-
-    is_iri = pc.fill_null(pc.match_substring_regex(cells, r'^<[^<>"\s]*>$'), False)
-    place(is_iri, "iri", unescape(pc.utf8_slice_codeunits(cells, 1, -1)))
-    is_blank = pc.fill_null(pc.match_substring_regex(cells, r"^_:\S+$"), False)
-    place(is_blank, "blank", cells)
-    for quote, pattern in _QUOTED.items():
-        starts = pc.fill_null(pc.starts_with(cells, quote), False)
-        if not pc.any(starts).as_py():
+    value = kind = datatype = lang = pa.nulls(n, pa.string())
+    first = pc.utf8_slice_codeunits(cells, 0, 1)
+    is_iri = pc.fill_null(pc.and_(pc.equal(first, "<"), pc.ends_with(cells, ">")), False)
+    if pc.any(is_iri).as_py():
+        iris = unescape(pc.utf8_slice_codeunits(cells.filter(is_iri), 1, -1))
+        value, kind = _scatter(is_iri, iris, value), _scatter(is_iri, "iri", kind)
+    is_blank = pc.fill_null(pc.starts_with(cells, "_:"), False)
+    value, kind = pc.if_else(is_blank, cells, value), _scatter(is_blank, "blank", kind)
+    known = pc.or_(pc.or_(is_iri, is_blank), pc.is_null(cells))
+    for quote in ('"', "'"):
+        mask = pc.fill_null(pc.and_(pc.equal(first, quote), pc.invert(known)), False)
+        if not pc.any(mask).as_py():
             continue
-        parts = pc.extract_regex(pc.if_else(starts, cells, _NULL), pattern)
-        suffix = pc.extract_regex(pc.struct_field(parts, "rest"), _SUFFIX)
-        ok = pc.fill_null(pc.and_(starts, pc.is_valid(suffix)), False)
-        tag = pc.struct_field(suffix, "lang")
-        dt = pc.struct_field(suffix, "dt")
-        tagged = pc.greater(pc.utf8_length(tag), 0)
-        dt = pc.if_else(tagged, RDF_LANG_STRING, pc.if_else(pc.equal(dt, ""), XSD_STRING, dt))
-        place(ok, "literal", unescape(pc.struct_field(parts, "lex")), dt, tag)
+        lexical, dt, tag = _literals(cells.filter(mask), quote, where)
+        value, kind = _scatter(mask, lexical, value), _scatter(mask, "literal", kind)
+        datatype, lang = _scatter(mask, dt, datatype), _scatter(mask, tag, lang)
+        known = pc.or_(known, mask)
     for pattern, short_type in _SHORT:
-        mask = pc.fill_null(pc.match_substring_regex(cells, pattern), False)
-        place(pc.and_(mask, pc.invert(known)), "literal", cells, short_type, "")
-    bad = pc.invert(known)
-    if pc.any(bad).as_py():
-        raise _malformed(cells, bad, where)
+        if not known.false_count:
+            break
+        mask = pc.and_(
+            pc.fill_null(pc.match_substring_regex(cells, pattern), False), pc.invert(known)
+        )
+        value, kind = pc.if_else(mask, cells, value), _scatter(mask, "literal", kind)
+        datatype, lang = _scatter(mask, short_type, datatype), _scatter(mask, "", lang)
+        known = pc.or_(known, mask)
+    if known.false_count:
+        raise _malformed(cells, pc.invert(known), where)
     return {"": value, "_kind": kind, "_datatype": datatype, "_lang": lang}
 
 
@@ -221,7 +232,9 @@ def read_nquads(data: bytes, *, predicates: pa.Array | None = None) -> pa.Table:
 
     ``predicates`` (IRIs) keeps only quads with those predicates, before objects are parsed.
     """
-    text = pa.array([data.decode("utf-8")], pa.string())
+    offsets = pa.array([0, len(data)], pa.int32())
+    text = pa.StringArray.from_buffers(1, offsets.buffers()[1], pa.py_buffer(data))
+    text.validate(full=True)  # UTF-8
     lines = pc.list_flatten(pc.split_pattern(text, pattern="\n"))
     lines = lines.filter(pc.greater(pc.utf8_length(lines), 0))
     parts = pc.split_pattern(lines, pattern=" ", max_splits=2)
@@ -232,10 +245,10 @@ def read_nquads(data: bytes, *, predicates: pa.Array | None = None) -> pa.Table:
         keep = pc.is_in(predicate, value_set=predicates)
         subject, predicate, rest = subject.filter(keep), predicate.filter(keep), rest.filter(keep)
     rest = pc.utf8_slice_codeunits(rest, 0, -2)  # the closing " ."
-    tail = pc.extract_regex(rest, _GRAPH_TAIL)
-    has_graph = pc.is_valid(tail)
-    obj = pc.if_else(has_graph, pc.struct_field(tail, "o"), rest)
-    graph = pc.if_else(has_graph, pc.struct_field(tail, "g"), _NULL)
+    # The graph, if any, is the last space-separated token: no object can end in one.
+    found = pc.extract_regex(rest, _GRAPH_TAIL)
+    graph = pc.struct_field(found, "g")
+    obj = pc.replace_substring_regex(rest, pattern=_GRAPH_TAIL, replacement="")
     where = "N-Quads"
     out = {"s" + k: v for k, v in split_terms(subject, where=where).items()}
     out["p"] = predicate
