@@ -108,7 +108,7 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
         f"not valid {item.format}{where}: {reason}",
         file=item.shown,
         line=line,
-        hint="fix the line or remove it",
+        hint="Fix the line or remove it",
     )
 
 

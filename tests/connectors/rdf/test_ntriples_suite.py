@@ -93,5 +93,5 @@ def test_bad_case_names_file_and_line(tmp_path, kind, name, line):
     assert (error.file, error.line) == (case.name, line)
     message = error.one_line()
     assert message.startswith(f"{case.name}:{line}: not valid n-triples")
-    assert "fix the line or remove it" in message and "\n" not in message
+    assert message.endswith(". Fix the line or remove it.") and "\n" not in message
     assert not spec.output.snapshot.exists()  # nothing half-written
