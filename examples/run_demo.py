@@ -21,6 +21,7 @@ sys.path.insert(0, str(HERE / "lending_coop"))
 
 import gcn  # noqa: E402
 import generate  # noqa: E402
+import torch  # noqa: E402
 from rich.console import Console  # noqa: E402
 
 import graphmill  # noqa: E402
@@ -50,8 +51,12 @@ def demo(spec_path: Path, *, epochs: int, seed: int, console: Console) -> dict[s
     if result.build is None:
         console.print("[red]no bundle built: the checks failed[/red]")
         return {}
-    console.print(f"[bold]4. built[/bold] {result.build.bundle} ({result.seconds:.2f} s in all)")
+    console.print(
+        f"[bold]4. built[/bold] {Path(result.build.bundle).resolve()} "
+        f"(pull, check and build: {result.seconds:.2f} s)"
+    )
     bundle = graphmill.load_bundle(result.build.bundle)
+    torch.set_num_threads(1)  # a small graph: one thread beats two that share a busy machine
     started = time.perf_counter()
     metrics = gcn.train(bundle, LABELED_TYPE, epochs=epochs, seed=seed)
     console.print(
@@ -73,7 +78,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--epochs", type=int, default=200)
     parser.add_argument("--seed", type=int, default=0)
     args = parser.parse_args(argv)
-    console = Console(highlight=False)
+    console = Console(highlight=False, width=None if sys.stdout.isatty() else 120)
     try:
         metrics = demo(args.spec, epochs=args.epochs, seed=args.seed, console=console)
     except GraphmillError as exc:
