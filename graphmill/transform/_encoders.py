@@ -5,7 +5,8 @@ mapping that goes into the manifest) and ``apply_*(values, statistics) -> float6
 Values come in as float64 arrays with NaN for missing; NaN and ±inf both count as missing
 and are replaced by the fill value (the mean over the fitted rows, computed after the
 transform for ``log``). Statistics use the population standard deviation (``ddof=0``); a
-spread of zero (or no fitted rows) is replaced by 1 so that encoding never divides by zero.
+spread below ``10 * float64 epsilon`` (or no fitted rows) is replaced by 1 so that encoding
+never divides by (almost) zero. An encoded value beyond the float32 range is an error.
 
 * ``standardize``: ``(v - mean) / std``.
 * ``min-max``: ``(v - min) / (max - min)``; values outside the fitted range are not clipped.
@@ -29,6 +30,9 @@ import pyarrow.compute as pc
 from graphmill._columns import DATETIME_TYPE, is_multi, kind_of_type
 
 MICROS_PER_DAY = 86_400_000_000
+# A spread this small is rounding noise, not information; treated as zero (then as 1).
+SPREAD_FLOOR = 10 * float(np.finfo(np.float64).eps)
+FLOAT32_MAX = float(np.finfo(np.float32).max)
 
 
 class BadValue(Exception):  # noqa: N818 - internal signal, turned into InputError by _features
@@ -111,7 +115,7 @@ def _fitted(values: np.ndarray, fit_rows: np.ndarray) -> np.ndarray:
 
 
 def _spread(value: float) -> float:
-    return value if np.isfinite(value) and value > 0 else 1.0
+    return value if np.isfinite(value) and value > SPREAD_FLOOR else 1.0
 
 
 def fit_moments(values: np.ndarray, fit_rows: np.ndarray) -> dict[str, Any]:
@@ -191,3 +195,14 @@ def fit_part_means(parts: np.ndarray, names: tuple[str, ...], fit_rows: np.ndarr
 def apply_part_fill(parts: np.ndarray, stats: dict[str, Any]) -> np.ndarray:
     fills = np.array([stats["fill"][name] for name in stats["parts"]], dtype=np.float64)
     return np.where(np.isnan(parts), fills[None, :], parts)
+
+
+def check_float32_range(values: np.ndarray) -> None:
+    """BadValue at the first row whose encoded value would overflow float32."""
+    rows = np.flatnonzero((np.abs(values) > FLOAT32_MAX).any(axis=1))
+    if len(rows):
+        raise BadValue(
+            "an encoded value is beyond the float32 range",
+            position=int(rows[0]),
+            hint="check the value; a far outlier against a narrow training range does this",
+        )

@@ -106,6 +106,7 @@ def encode_vertex_features(
         column = _column(table, feature.property)
         try:
             result = encode_feature(feature, column, fit_rows)
+            enc.check_float32_range(result.values)
         except BadValue as bad:
             record = None if bad.position is None else str(public_ids[bad.position])
             raise InputError(
