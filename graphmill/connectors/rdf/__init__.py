@@ -22,9 +22,12 @@ How RDF becomes a property graph
   (offsets applied; **no offset is taken as UTC**; digits beyond microseconds dropped);
   xsd:date -> date32 (any offset dropped); xsd:string and rdf:langString -> string; any other
   datatype -> string (the lexical form). Leading and trailing XSD whitespace is allowed for the
-  typed kinds. A literal outside its datatype's lexical space (``"abc"^^xsd:integer``), or one
-  the column cannot hold (an integer beyond int64, a year outside 1-9999), is null and is
-  counted under the value kind ``ill-typed``.
+  typed kinds. Both kinds read XSD-typed literals in the form Oxigraph's store keeps them in:
+  its canonical form (``"PT60M"^^xsd:duration`` is read as ``PT1H``), and it also accepts a
+  few forms XSD does not (``inf``, ``Infinity``, ``+NaN`` as xsd:double); an endpoint on
+  another server may report those as ill-typed. A literal outside its datatype's lexical
+  space (``"abc"^^xsd:integer``), or one the column cannot hold (an integer beyond int64, a
+  year outside 1-9999), is null and is counted under the value kind ``ill-typed``.
 * **Several kinds in one property.** integer + float -> float64; any other mix -> strings,
   rendered as the snapshot renders typed values (``1``, ``2.5``, ``true``,
   ``2020-01-01T00:00:00.000000``), with the kind counts in the value-kind profile. The column
@@ -48,8 +51,12 @@ How RDF becomes a property graph
   graph name, or **the empty string for the default graph**; a vertex typed in several graphs
   has several values (declare nothing: single-valued keeps the smallest, with a warning).
 
-Both sources yield the same pages for the same files (byte-identical snapshots); the SPARQL of
-:mod:`._queries` and the term readers of :mod:`._terms` are shared with the endpoint source.
+The two kinds give byte-identical snapshots for the same files: ``rdf-store`` answers each
+work unit with the SPARQL of :mod:`._queries` on an in-memory Oxigraph store, ``rdf-file``
+with Arrow over the parsed quads (:mod:`._facts`), which is faster and keeps only the quads the
+spec uses. The SPARQL, the term readers (:mod:`._terms`) and the mapping (:mod:`._mapping`)
+are shared with the endpoint source. Neither kind needs rdflib: pyoxigraph reads N-Triples,
+N-Quads, Turtle, TriG and RDF/XML (a trailing ``.gz`` is unpacked on the fly).
 """
 
 from __future__ import annotations

@@ -55,7 +55,7 @@ def _check_clashes(terms: pa.Table, plan: RdfPlan, vertex_type: str) -> None:
     if CLASH not in terms.column_names:
         return
     clash = _column(terms, CLASH)
-    if not clash.null_count < len(clash):
+    if clash.null_count == len(clash):
         return
     rows = terms.filter(pc.is_valid(clash))
     subject = pc.min(_column(rows, VERTEX)).as_py()

@@ -35,7 +35,7 @@ from graphmill.connectors.rdf._xsd import XSD, XSD_STRING
 from graphmill.errors import GraphmillError
 from graphmill.spec import PipelineSpec
 
-CHUNK_QUADS = 500_000
+CHUNK_QUADS = 250_000
 _PROBE = "urn:graphmill:literal"
 
 

@@ -42,10 +42,11 @@ def _escape(text: str) -> str:
 
 
 def random_dump(seed: int, subjects: int = 120) -> str:
-    """N-Quads: typed subjects with random literal facts and links in three graphs."""
+    """N-Quads: typed subjects with random literal facts and links in four graphs (one of them
+    named by a blank node)."""
     rng = random.Random(seed)
     nodes = [f"<{EX}n{i}>" for i in range(subjects)] + [f"_:b{i}" for i in range(subjects // 10)]
-    graphs = ["", f" <{EX}g1>", f" <{EX}g2>"]
+    graphs = ["", f" <{EX}g1>", f" <{EX}g2>", " _:graph3"]
     lines = []
     for node in nodes:
         for cls in rng.sample(["A", "B", "C", "Z"], rng.randint(0, 2)):
