@@ -70,11 +70,9 @@ class Channel:
         context = self.settings.ssl_context()
         if context is not None:
             options["ssl_options"] = context
-        transport = AiohttpTransport(
-            read_timeout=self.settings.request_timeout_s,
-            write_timeout=self.settings.request_timeout_s,
-            **options,
-        )
+        # the server's own timeout (598) should come first: it says more than silence does
+        patience = self.settings.request_timeout_s * 1.5 + 10
+        transport = AiohttpTransport(read_timeout=patience, write_timeout=patience, **options)
         self._transport = transport  # set first, so close() releases a half-open one
         transport.connect(self.settings.url, {useragent.userAgentHeader: useragent.userAgent})
         protocol = GremlinServerWSProtocol(

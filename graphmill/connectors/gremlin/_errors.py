@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import asyncio
 import ssl
+import struct
 from collections.abc import Callable
 from typing import Any, TypeVar
 
@@ -21,6 +22,7 @@ from graphmill.connectors.gremlin._settings import GremlinSettings
 from graphmill.errors import (
     AuthenticationError,
     GraphmillError,
+    MalformedResponseError,
     SourceServerError,
     SourceTimeoutError,
     SourceUnavailableError,
@@ -73,6 +75,12 @@ def as_graphmill_error(exc: BaseException, settings: GremlinSettings) -> Graphmi
             )
         if _lost_connection(exc):
             return _unavailable(exc, where)
+        if code == 599:
+            return SourceServerError(
+                f"the server cannot send a value (status 599: {_short(exc.status_message)})",
+                hint="leave the property that holds it out of the spec or convert it on the server",
+                **where,
+            )
         return SourceServerError(
             f"the server answered with status {code}: {_short(exc.status_message)}",
             hint="check source.traversal_source and the server's log",
@@ -104,9 +112,16 @@ def as_graphmill_error(exc: BaseException, settings: GremlinSettings) -> Graphmi
             hint="check the url's path (Gremlin Server uses /gremlin)",
             **where,
         )
+    if isinstance(exc, ValueError | struct.error | UnicodeDecodeError):
+        return MalformedResponseError(
+            f"the server sent a value gremlinpython cannot read ({_short(exc)})",
+            hint="leave the property that holds it out of the spec (for example a Java "
+            "LocalDateTime), or convert it on the server",
+            **where,
+        )
     if isinstance(exc, asyncio.TimeoutError | TimeoutError):
         return SourceTimeoutError(
-            f"no answer from the server within {settings.request_timeout_s:g} s",
+            "the server did not answer in time",
             hint="raise source.request_timeout_s or check the server's load",
             **where,
         )

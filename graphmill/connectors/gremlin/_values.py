@@ -1,10 +1,12 @@
 """Gremlin values (as gremlinpython deserializes them) into Arrow columns.
 
-Each property arrives as one list per element (``values(key).fold()``). The fast path hands
-the lists to ``pyarrow.array`` in one call; it covers a page whose values share one kind:
-integer → int64, float (Java float/double) → float64, boolean, string, datetime (Java
-``Date``, naive UTC in Python, or ``OffsetDateTime``) → timestamp[us, UTC], bytes → binary.
-Everything else takes the slow path, value by value: UUID and char → string; BigDecimal →
+Each property arrives as one list per element (``values(key).fold()``). A census of the
+Python types on the page (``Counter(map(type, ...))``, no Python-level loop) picks the fast
+path, one ``pyarrow.array`` call with an explicit type, when the values share one kind:
+integer → int64, float (Java float/double) → float64, integers and floats together →
+float64 (with both counts reported), boolean, string, datetime (Java ``Date``, naive UTC in
+Python, or ``OffsetDateTime``) → timestamp[us, UTC], bytes → binary. Everything else takes
+the slow path, value by value: UUID and char → string; BigDecimal →
 float64 when the double prints back as the same decimal, else its decimal text; BigInteger
 beyond int64 → its decimal text; maps and other objects → JSON text (kind ``other``). A page
 whose values have several kinds is stored as text (each kind rendered by
@@ -22,7 +24,9 @@ import datetime as dt
 import decimal
 import json
 import uuid
+from collections import Counter
 from collections.abc import Sequence
+from itertools import chain
 from typing import Any
 
 import numpy as np
@@ -41,6 +45,17 @@ _GROUP_TYPES: dict[str, pa.DataType] = {
     "binary": pa.binary(),
 }
 _INT64 = (-(2**63), 2**63 - 1)
+_FAST_KIND: dict[type, str] = {
+    bool: "boolean",
+    int: "integer",
+    float: "float",
+    str: "string",
+    dt.datetime: "datetime",
+    bytes: "binary",
+}
+# subclasses gremlinpython uses (long, short, SingleByte, SingleChar, ByteBuffer); bool and
+# its timestamp float subclass are matched exactly above or fall to the slow path
+_FAST_BASES: tuple[tuple[type, str], ...] = ((int, "integer"), (str, "string"), (bytes, "binary"))
 _ARROW_ERRORS = (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError, OverflowError)
 
 
@@ -75,38 +90,47 @@ def _id_family(cls: type) -> str:
 def property_array(
     values: Sequence[list[Any]], *, multi: bool
 ) -> tuple[pa.Array, dict[str, int] | None]:
-    """One column from per-element value lists; kind counts only when rendered as text."""
-    lists = _fast_lists(values)
-    kinds = None
+    """One column from per-element value lists, and the kind counts when the column mixes
+    kinds (integers with floats in a float64 column, or anything rendered as text)."""
+    census = Counter(map(type, chain.from_iterable(values)))
+    kinds = _fast_kinds(census)
+    lists = _fast_lists(values, kinds) if kinds is not None else None
     if lists is None:
-        lists, kinds = _slow_lists(values)
+        lists, reported = _slow_lists(values)
+    else:
+        reported = kinds if kinds and len(kinds) > 1 else None
     lengths = pc.list_value_length(lists)
     longest = pc.max(lengths).as_py() or 0
     if not multi and longest <= 1:
         starts = lists.offsets[:-1]
         index = pc.if_else(pc.greater(lengths, 0), starts, pa.scalar(None, starts.type))
-        return lists.values.take(index), kinds
+        return lists.values.take(index), reported
     ordered = _sort_within_lists(lists)
     empty = pc.equal(lengths, 0)
-    return pa.ListArray.from_arrays(ordered.offsets, ordered.values, mask=empty), kinds
+    return pa.ListArray.from_arrays(ordered.offsets, ordered.values, mask=empty), reported
 
 
-def _fast_lists(values: Sequence[list[Any]]) -> pa.ListArray | None:
+def _fast_kinds(census: Counter[type]) -> dict[str, int] | None:
+    """Kind counts when every value type has a one-call conversion, else None."""
+    kinds: Counter[str] = Counter()
+    for cls, n in census.items():
+        kind = _FAST_KIND.get(cls) or next(
+            (k for base, k in _FAST_BASES if issubclass(cls, base)), None
+        )
+        if kind is None:
+            return None
+        kinds[kind] += n
+    if len(kinds) > 1 and set(kinds) != {"integer", "float"}:
+        return None
+    return dict(sorted(kinds.items()))
+
+
+def _fast_lists(values: Sequence[list[Any]], kinds: dict[str, int]) -> pa.ListArray | None:
+    target = pa.float64() if "float" in kinds else _GROUP_TYPES.get(next(iter(kinds), ""))
     try:
-        lists = pa.array(values)
-    except _ARROW_ERRORS:
+        return pa.array(values, type=pa.list_(target or pa.null()))
+    except _ARROW_ERRORS:  # integers beyond int64
         return None
-    if not pa.types.is_list(lists.type):
-        return None
-    if pa.types.is_list(lists.type.value_type):  # List/Set values: their items count
-        inner = lists.values
-        lists = pa.ListArray.from_arrays(inner.offsets.take(lists.offsets), inner.values)
-    item = lists.type.value_type
-    if pa.types.is_timestamp(item):
-        return pa.ListArray.from_arrays(lists.offsets, lists.values.cast(DATETIME_TYPE))
-    if pa.types.is_null(item) or item in _GROUP_TYPES.values():
-        return lists
-    return None  # decimals, structs, durations: normalised value by value
 
 
 def _slow_lists(values: Sequence[list[Any]]) -> tuple[pa.ListArray, dict[str, int] | None]:
@@ -201,6 +225,9 @@ def json_default(value: Any) -> Any:
         return base64.b64encode(bytes(value)).decode()
     if isinstance(value, set | frozenset):
         return sorted(value, key=repr)
+    if isinstance(value, dt.timedelta):  # ISO 8601 duration, as Java's Duration prints it
+        sign, seconds = ("-" if value < dt.timedelta(0) else ""), abs(value.total_seconds())
+        return f"{sign}PT{seconds:.6f}".rstrip("0").rstrip(".") + "S"
     exact = _decimal_of(value)
     if exact is not None:
         return str(exact)
@@ -226,9 +253,17 @@ def meta_json(values: Sequence[list[dict[str, Any]]]) -> pa.Array:
     out: list[str | None] = []
     for row in values:
         items = [
-            {"value": entry["v"], "meta": {str(k): v for k, v in entry["m"].items()}}
+            (
+                json.dumps(entry["v"], default=json_default),
+                {"value": entry["v"], "meta": {str(k): v for k, v in entry["m"].items()}},
+            )
             for entry in row
         ]
-        texts = sorted(json.dumps(item, sort_keys=True, default=json_default) for item in items)
+        texts = [
+            json.dumps(item, sort_keys=True, default=json_default)
+            for _, item in sorted(
+                items, key=lambda pair: (pair[0], json.dumps(pair[1], sort_keys=True, default=str))
+            )
+        ]
         out.append("[" + ", ".join(texts) + "]" if texts else None)
     return pa.array(out, pa.string())
