@@ -85,8 +85,10 @@ def stage(name: str, figures: dict[str, dict[str, float]]) -> Iterator[None]:
     """Time a stage and sample its peak RSS into ``figures[name]``."""
     started = time.perf_counter()
     with PeakSampler() as sampler:
+        before = sampler.peak
         yield
-    figures[name] = {"seconds": time.perf_counter() - started, "peak_rss": sampler.peak}
+    seconds = time.perf_counter() - started
+    figures[name] = {"seconds": seconds, "peak_rss": sampler.peak, "rss_before": before}
 
 
 def string_ids(prefix: str, count: int) -> pa.Array:
@@ -215,7 +217,11 @@ def render(result: dict[str, Any]) -> str:
     ]
     for name in ("generate", "floor", "pull", "check", "build"):
         seconds, peak_mib = f[name]["seconds"], f[name]["peak_rss"] / mib
-        rows.append(f"  {name:<9}{seconds:8.2f} s   peak RSS {peak_mib:9,.0f} MiB")
+        growth = (f[name]["peak_rss"] - f[name]["rss_before"]) / mib
+        rows.append(
+            f"  {name:<9}{seconds:8.2f} s   peak RSS {peak_mib:9,.0f} MiB "
+            f"(+{growth:,.0f} MiB over the stage's start)"
+        )
     rows += [
         f"pull + build: {pull_build:.2f} s = {result['edges'] / pull_build:,.0f} edges/s",
         f"pull + check + build: {pull_build + f['check']['seconds']:.2f} s",

@@ -165,3 +165,9 @@ def test_the_demo_script_runs_on_a_copy_of_the_spec(
     assert f"PASSED: 0 errors, {warnings} warnings" in printed
     assert "majority-class baseline on test" in printed
     assert (tmp_path / "out" / "bundle" / "manifest.json").is_file()
+
+
+def test_the_generator_is_deterministic(demo: dict[str, Any], tmp_path: Path) -> None:
+    again = generate.generate(tmp_path)
+    assert again.path.read_bytes() == demo["counts"].path.read_bytes()
+    assert again == generate.CoopCounts(**{**vars(demo["counts"]), "path": again.path})

@@ -10,8 +10,8 @@ can be learned from structure and features.
 The dump plants a few defects so that ``graphmill check`` has something to show; their exact
 counts are in :data:`DEFECTS` and in the :class:`CoopCounts` that :func:`generate` returns.
 
-Run ``python examples/lending_coop/generate.py [OUT_DIR]``; the same seed always writes the
-same bytes.
+Run ``python examples/lending_coop/generate.py [OUT_DIR]`` (default: ``out/lending_coop`` at
+the repo root, where the demo spec reads it); the same seed always writes the same bytes.
 """
 
 from __future__ import annotations
@@ -63,7 +63,7 @@ class CoopCounts:
 
 
 def iri(kind: str, index: np.ndarray) -> np.ndarray:
-    """``<NS kind/k000042>`` for each index (vectorized)."""
+    """``<NS kind/k00042>`` for each index (vectorized)."""
     return np.char.add(
         np.char.add(f"<{NS}{kind}/{kind[0]}", np.char.zfill(index.astype(str), 5)), ">"
     )
@@ -110,12 +110,124 @@ def cover(
     return np.concatenate([src, extra]), np.concatenate([dst, unused])
 
 
-def rings(rng: np.random.Generator, fraud: np.ndarray) -> list[np.ndarray]:
-    """Split the fraudsters into rings of 4 to 8 members."""
-    sizes = rng.integers(4, 9, size=len(fraud))
-    cuts = np.cumsum(sizes)
-    cuts = cuts[cuts < len(fraud)]
-    return np.split(fraud, cuts)
+@dataclass(frozen=True)
+class Rings:
+    """Fraud rings: ``of[m]`` is member ``m``'s ring (-1 for honest members); ring ``r``'s
+    members are ``members[start[r] : start[r] + sizes[r]]``."""
+
+    of: np.ndarray
+    members: np.ndarray
+    start: np.ndarray
+    sizes: np.ndarray
+
+    @classmethod
+    def split(cls, rng: np.random.Generator, fraud: np.ndarray, count: int) -> Rings:
+        """Split the fraudsters into rings of 4 to 8 members (the last may be smaller)."""
+        cuts = np.cumsum(rng.integers(4, 9, size=len(fraud)))
+        cuts = cuts[cuts < len(fraud)]
+        sizes = np.diff(np.concatenate([[0], cuts, [len(fraud)]]))
+        of = np.full(count, -1)
+        of[fraud] = np.repeat(np.arange(len(sizes)), sizes)
+        return cls(of, fraud, np.concatenate([[0], cuts]), sizes)
+
+    @property
+    def count(self) -> int:
+        return len(self.sizes)
+
+    def mates(self, rng: np.random.Generator, owners: np.ndarray) -> np.ndarray:
+        """A random member of each owner's ring (maybe the owner: callers drop self pairs)."""
+        r = self.of[owners]
+        return self.members[self.start[r] + rng.integers(0, self.sizes[r])]
+
+
+def member_lines(
+    rng: np.random.Generator, mem: np.ndarray, is_fraud: np.ndarray, reviewed_rate: float
+) -> tuple[list[np.ndarray], np.ndarray]:
+    """Property lines of the members (features that differ between honest members and
+    fraudsters) and the mask of reviewed (labelled) members."""
+    n = len(mem)
+    age = np.where(is_fraud, rng.normal(26, 5, n), rng.normal(43, 13, n))
+    age = np.clip(np.rint(age), 18, 90).astype(np.int64)
+    age_terms = typed(age, "integer")
+    age_terms[7] = plain(age[7:8])[0]  # defect: a plain string where an integer belongs
+    old, new = rng.integers(START_S, END_S, n), rng.integers(RECENT_S, END_S, n)
+    joined = np.where(is_fraud & (rng.random(n) < 0.85), new, old)
+    verified = rng.random(n) < np.where(is_fraud, 0.3, 0.85)
+    balance = np.round(rng.lognormal(np.where(is_fraud, 4.5, 7.0), 1.2), 2)
+    limit = np.round(rng.uniform(500, 20000, n), 1)
+    segment = SEGMENTS[rng.integers(0, len(SEGMENTS), n)]
+    branch = BRANCHES[np.minimum(rng.geometric(0.35, n) - 1, len(BRANCHES) - 1)]
+    out = [
+        lines(mem, "age", age_terms),
+        lines(mem, "joined", typed(timestamps(joined), "dateTime")),
+        lines(mem, "verified", typed(np.where(verified, "true", "false"), "boolean")),
+        lines(mem, "balance", typed(np.char.mod("%.2f", balance), "decimal")),
+        lines(mem, "credit_limit", typed(np.char.mod("%.1f", limit), "double")),
+        lines(mem, "segment", plain(segment)),
+        lines(mem, "branch", plain(branch)),
+    ]
+    owner = np.repeat(np.arange(n), rng.integers(0, 4, n))
+    tags = np.unique(owner * len(TAGS) + rng.integers(0, len(TAGS), len(owner)))
+    out.append(lines(mem[tags // len(TAGS)], "tag", plain(TAGS[tags % len(TAGS)])))
+    has_motto = rng.random(n) < 0.4
+    motto = rng.integers(0, len(MOTTOS_EN), n)[has_motto]
+    out.append(lines(mem[has_motto], "motto", plain(MOTTOS_EN[motto], "en")))
+    out.append(lines(mem[has_motto], "motto", plain(MOTTOS_FR[motto], "fr")))
+    reviewed = rng.random(n) < reviewed_rate
+    reviewed[-1] = False  # the isolated member was never reviewed
+    flag = np.where(is_fraud, "true", "false")[reviewed]
+    out.append(lines(mem[reviewed], "flagged", typed(flag, "boolean")))
+    return out, reviewed
+
+
+def uses_pairs(
+    rng: np.random.Generator, honest: np.ndarray, rings: Rings, devices: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Honest members use one or two devices of their own; each ring shares two devices
+    (the last ``2 * rings.count``)."""
+    own = devices - 2 * rings.count
+    fraud = rings.members
+    shared = own + 2 * rings.of[fraud] + rng.integers(0, 2, len(fraud))
+    per = rng.integers(1, 3, len(honest))
+    src = np.concatenate([np.repeat(honest, per), fraud])
+    dst = np.concatenate([rng.integers(0, own, per.sum()), shared])
+    return distinct_pairs(*cover(rng, src, dst, devices, honest), devices)
+
+
+def pays_pairs(
+    rng: np.random.Generator,
+    active: np.ndarray,
+    honest: np.ndarray,
+    is_fraud: np.ndarray,
+    category: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Honest members pay anywhere; fraudsters prefer online, gaming and crypto merchants."""
+    src = np.repeat(active, rng.integers(2, 8, len(active)))
+    risky = np.flatnonzero(np.isin(category, ["online", "gaming", "crypto"]))
+    anywhere = rng.integers(0, len(category), len(src))
+    dst = np.where(is_fraud[src], risky[rng.integers(0, len(risky), len(src))], anywhere)
+    return distinct_pairs(*cover(rng, src, dst, len(category), honest), len(category))
+
+
+def sends_pairs(
+    rng: np.random.Generator, active: np.ndarray, is_fraud: np.ndarray, rings: Rings
+) -> tuple[np.ndarray, np.ndarray]:
+    """Honest members send to random others, fraudsters mostly inside their ring."""
+    src = np.repeat(active, rng.poisson(np.where(is_fraud[active], 4.0, 1.5)))
+    dst = active[rng.integers(0, len(active), len(src))]
+    inside = is_fraud[src] & (rng.random(len(src)) < 0.8)
+    dst[inside] = rings.mates(rng, src[inside])
+    return unique_pairs(src, dst, len(is_fraud))
+
+
+def co_sign_pairs(
+    rng: np.random.Generator, active: np.ndarray, honest: np.ndarray, rings: Rings, count: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct unordered pairs (lower, higher): a few among everyone, more inside rings."""
+    k = len(honest) // 4
+    src = np.concatenate([honest[rng.integers(0, len(honest), k)], rings.members])
+    dst = np.concatenate([active[rng.integers(0, len(active), k)], rings.mates(rng, rings.members)])
+    return unique_pairs(np.minimum(src, dst), np.maximum(src, dst), count)
 
 
 def generate(
@@ -128,58 +240,23 @@ def generate(
     reviewed_rate: float = 0.85,
     seed: int = 20261202,
 ) -> CoopCounts:
-    """Write ``out_dir/coop.nt`` and return what it holds."""
+    """Write ``out_dir/coop.nt`` (through a temporary file and a rename) and return what
+    it holds. The last member is the isolated one; no fraudster is isolated."""
     rng = np.random.default_rng(seed)
     m = np.arange(members)
-    isolated = members - 1  # no edge of any kind; never a fraudster
-    fraud_idx = np.sort(rng.choice(members - 1, size=int(members * fraud_rate), replace=False))
-    is_fraud = np.zeros(members, dtype=bool)
-    is_fraud[fraud_idx] = True
-    ring_list = rings(rng, fraud_idx)
-    out: list[np.ndarray] = []
-    mem, dev, mer = (
-        iri("member", m),
-        iri("device", np.arange(devices)),
-        iri("merchant", np.arange(merchants)),
-    )
+    fraud = np.sort(rng.choice(members - 1, size=int(members * fraud_rate), replace=False))
+    is_fraud = np.isin(m, fraud)
+    rings = Rings.split(rng, fraud, members)
+    mem, dev = iri("member", m), iri("device", np.arange(devices))
+    mer = iri("merchant", np.arange(merchants))
     type_line = f" {RDF_TYPE} <{NS}"
-    out.append(np.char.add(mem, type_line + "Member> ."))
-    out.append(np.char.add(dev, type_line + "Device> ."))
-    out.append(np.char.add(mer, type_line + "Merchant> ."))
-
-    # --- member properties: features that differ between honest members and fraudsters
-    age = np.where(is_fraud, rng.normal(26, 5, members), rng.normal(43, 13, members))
-    age = np.clip(np.rint(age), 18, 90).astype(np.int64)
-    age_terms = typed(age, "integer")
-    age_terms[7] = plain(age[7:8])[0]  # defect: a plain string where an integer belongs
-    out.append(lines(mem, "age", age_terms))
-    old = rng.integers(START_S, END_S, members)
-    new = rng.integers(RECENT_S, END_S, members)
-    joined = np.where(is_fraud & (rng.random(members) < 0.85), new, old)
-    out.append(lines(mem, "joined", typed(timestamps(joined), "dateTime")))
-    verified = rng.random(members) < np.where(is_fraud, 0.3, 0.85)
-    out.append(lines(mem, "verified", typed(np.where(verified, "true", "false"), "boolean")))
-    balance = np.round(rng.lognormal(np.where(is_fraud, 4.5, 7.0), 1.2), 2)
-    out.append(lines(mem, "balance", typed(np.char.mod("%.2f", balance), "decimal")))
-    limit = np.round(rng.uniform(500, 20000, members), 1)
-    out.append(lines(mem, "credit_limit", typed(np.char.mod("%.1f", limit), "double")))
-    segment = SEGMENTS[rng.integers(0, len(SEGMENTS), members)]
-    out.append(lines(mem, "segment", plain(segment)))
-    branch = BRANCHES[np.minimum(rng.geometric(0.35, members) - 1, len(BRANCHES) - 1)]
-    out.append(lines(mem, "branch", plain(branch)))
-    n_tags = rng.integers(0, 4, members)
-    tag_owner = np.repeat(m, n_tags)
-    tag_codes = np.unique(tag_owner * len(TAGS) + rng.integers(0, len(TAGS), len(tag_owner)))
-    out.append(lines(mem[tag_codes // len(TAGS)], "tag", plain(TAGS[tag_codes % len(TAGS)])))
-    has_motto = rng.random(members) < 0.4
-    motto_pick = rng.integers(0, len(MOTTOS_EN), members)[has_motto]
-    out.append(lines(mem[has_motto], "motto", plain(MOTTOS_EN[motto_pick], "en")))
-    out.append(lines(mem[has_motto], "motto", plain(MOTTOS_FR[motto_pick], "fr")))
-    reviewed = (rng.random(members) < reviewed_rate) & (m != isolated)
-    flag = np.where(is_fraud, "true", "false")[reviewed]
-    out.append(lines(mem[reviewed], "flagged", typed(flag, "boolean")))
-
-    # --- device and merchant properties
+    out = [
+        np.char.add(mem, type_line + "Member> ."),
+        np.char.add(dev, type_line + "Device> ."),
+        np.char.add(mer, type_line + "Merchant> ."),
+    ]
+    properties, reviewed = member_lines(rng, mem, is_fraud, reviewed_rate)
+    out += properties
     out.append(lines(dev, "platform", plain(PLATFORMS[rng.integers(0, 3, devices)])))
     first_seen = rng.integers(START_S, END_S, devices)
     out.append(lines(dev, "first_seen", typed(timestamps(first_seen), "dateTime")))
@@ -188,83 +265,43 @@ def generate(
     risk = np.round(rng.beta(2, 5, merchants), 3)
     out.append(lines(mer, "risk_score", typed(np.char.mod("%.3f", risk), "double")))
 
-    # --- edges. Every relation leaves out the isolated member.
-    active = m[m != isolated]
+    active = m[:-1]  # every relation leaves out the isolated member
     honest = active[~is_fraud[active]]
-    ring_of = np.full(members, -1)
-    for r, ring in enumerate(ring_list):  # one step per ring, not per vertex
-        ring_of[ring] = r
-    ring_sizes = np.array([len(r) for r in ring_list])
-    ring_start = np.concatenate([[0], np.cumsum(ring_sizes)[:-1]])
-    ring_members = np.concatenate(ring_list)
-
-    def ring_mates(owners: np.ndarray) -> np.ndarray:
-        """A random member of each owner's ring (maybe the owner; callers drop self pairs)."""
-        r = ring_of[owners]
-        return ring_members[ring_start[r] + rng.integers(0, ring_sizes[r])]
-
-    # uses: honest members have their own devices; each ring shares two devices.
-    shared = (
-        devices - 2 * len(ring_list) + 2 * ring_of[fraud_idx] + rng.integers(0, 2, len(fraud_idx))
-    )
-    per = rng.integers(1, 3, len(honest))
-    u_src = np.concatenate([np.repeat(honest, per), fraud_idx])
-    u_dst = np.concatenate([rng.integers(0, devices - 2 * len(ring_list), per.sum()), shared])
-    u_src, u_dst = cover(rng, u_src, u_dst, devices, honest)
-    u_src, u_dst = distinct_pairs(u_src, u_dst, devices)
+    u_src, u_dst = uses_pairs(rng, honest, rings, devices)
     out.append(lines(mem[u_src], "uses", dev[u_dst]))
-
-    # pays: honest members pay everywhere; fraudsters prefer online, gaming and crypto.
-    per = rng.integers(2, 8, len(active))
-    p_src = np.repeat(active, per)
-    risky = np.flatnonzero(np.isin(category, ["online", "gaming", "crypto"]))
-    anywhere = rng.integers(0, merchants, len(p_src))
-    p_dst = np.where(is_fraud[p_src], risky[rng.integers(0, len(risky), len(p_src))], anywhere)
-    p_src, p_dst = cover(rng, p_src, p_dst, merchants, honest)
-    p_src, p_dst = distinct_pairs(p_src, p_dst, merchants)
+    p_src, p_dst = pays_pairs(rng, active, honest, is_fraud, category)
     out.append(lines(mem[p_src], "pays", mer[p_dst]))
-
-    # sends_money: honest members to random others, fraudsters mostly inside their ring.
-    per = rng.poisson(np.where(is_fraud[active], 4.0, 1.5))
-    s_src = np.repeat(active, per)
-    random_dst = active[rng.integers(0, len(active), len(s_src))]
-    inside = is_fraud[s_src] & (rng.random(len(s_src)) < 0.8)
-    s_dst = random_dst.copy()
-    s_dst[inside] = ring_mates(s_src[inside])
-    s_src, s_dst = unique_pairs(s_src, s_dst, members)
-    send_terms = [lines(mem[s_src], "sends_money", mem[s_dst])]
+    s_src, s_dst = sends_pairs(rng, active, is_fraud, rings)
+    sends = lines(mem[s_src], "sends_money", mem[s_dst])
     ghosts = iri("member", np.array([90001, 90002]))  # defect: dangling transfers
-    send_terms.append(lines(mem[[3, 5]], "sends_money", ghosts))
-    send_terms.append(lines(mem[[11]], "sends_money", mem[[11]]))  # defect: self-loop
-    # A repeated line: RDF graphs are sets of triples (RDF 1.1 Concepts, section 3), so the
-    # store keeps one and check reports no repeated edge. Table dumps can hold real repeats.
-    send_terms.append(send_terms[0][:1])
-    out += send_terms
-
-    # co_signs: undirected, stated from both sides; ring members co-sign each other.
-    c_src = np.concatenate([honest[rng.integers(0, len(honest), len(honest) // 4)], fraud_idx])
-    c_dst = np.concatenate(
-        [active[rng.integers(0, len(active), len(honest) // 4)], ring_mates(fraud_idx)]
-    )
-    lo, hi = np.minimum(c_src, c_dst), np.maximum(c_src, c_dst)
-    lo, hi = unique_pairs(lo, hi, members)
-    one_way = 0  # defect: the first pair is stated by its lower member only
-    both_src = np.concatenate([lo, hi[one_way + 1 :]])
-    both_dst = np.concatenate([hi, lo[one_way + 1 :]])
-    out.append(lines(mem[both_src], "co_signs", mem[both_dst]))
+    planted = [
+        lines(mem[[3, 5]], "sends_money", ghosts),
+        lines(mem[[11]], "sends_money", mem[[11]]),  # defect: a self-loop
+        # A repeated line: RDF graphs are sets of triples (RDF 1.1 Concepts, section 3), so
+        # the store keeps one and check reports no repeated edge.
+        sends[:1],
+    ]
+    out += [sends, *planted]
+    lo, hi = co_sign_pairs(rng, active, honest, rings, members)
+    # Each co-signing is stated from both sides, but the first pair (a defect) one way only.
+    c_src, c_dst = np.concatenate([lo, hi[1:]]), np.concatenate([hi, lo[1:]])
+    out.append(lines(mem[c_src], "co_signs", mem[c_dst]))
 
     all_lines = np.concatenate(out)
     path = Path(out_dir) / DUMP_NAME
     path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text("\n".join(all_lines.tolist()) + "\n", encoding="utf-8")
+    scratch = path.with_name(f".{path.name}.writing")
+    scratch.write_text("\n".join(all_lines.tolist()) + "\n", encoding="utf-8")
+    scratch.replace(path)
+    stored_sends = len(s_src) + DEFECTS["dangling_transfers"] + DEFECTS["self_loop_transfers"]
     return CoopCounts(
         path=path,
         vertices={"member": members, "device": devices, "merchant": merchants},
         edges={
             "member.uses.device": len(u_src),
             "member.pays.merchant": len(p_src),
-            "member.sends_money.member": len(s_src) + 3,
-            "member.co_signs.member": len(both_src),
+            "member.sends_money.member": stored_sends,
+            "member.co_signs.member": len(c_src),
         },
         labeled=int(reviewed.sum()),
         flagged=int((reviewed & is_fraud).sum()),
