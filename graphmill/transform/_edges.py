@@ -16,6 +16,7 @@ import numpy as np
 
 from graphmill.transform._indexing import NO_VERTEX
 
+_KEY_LIMIT = 2**62
 DROP_REASONS = ("dangling-both", "dangling-source", "dangling-target", "repeated-edge", "self-loop")
 
 
@@ -93,8 +94,21 @@ def add_missing_reverses(edges: EdgeArrays, vertex_count: int) -> tuple[EdgeArra
 
 
 def sort_order(edges: EdgeArrays) -> np.ndarray:
-    """Stable order by (source, target)."""
-    return np.lexsort((edges.target, edges.source))
+    """Stable order by (source, target).
+
+    One int64 key per edge when the index ranges allow it: a stable argsort of that key is
+    about twice as fast as a two-key lexsort, and nearly free on the common already-sorted
+    input (snapshot rows are in ID order, which is index order).
+    """
+    if len(edges) == 0:
+        return np.zeros(0, dtype=np.int64)
+    width = int(edges.target.max()) + 1
+    if (int(edges.source.max()) + 1) * width >= _KEY_LIMIT:
+        return np.lexsort((edges.target, edges.source))
+    key = edges.source * np.int64(width) + edges.target
+    if bool(np.all(key[1:] >= key[:-1])):
+        return np.arange(len(key), dtype=np.int64)
+    return np.argsort(key, kind="stable")
 
 
 def group_starts(edges: EdgeArrays) -> np.ndarray:

@@ -162,9 +162,10 @@ def _add_features(
         }
     if has_table:
         table = pa.table({INDEX: index})
-        matrix = encoded.matrix
-        for j, column in enumerate(encoded.names):
-            table = table.append_column(pa.field(column, pa.float32()), [pa.array(matrix[:, j])])
+        if encoded.matrix is not None:
+            for j, column in enumerate(encoded.names):
+                values = pa.array(encoded.matrix[:, j])
+                table = table.append_column(pa.field(column, pa.float32()), [values])
         for prop, codes in encoded.codes.items():
             table = table.append_column(f"{prop}__code", [pa.array(codes)])
         content.tables[table_path("features", name)] = table
