@@ -51,15 +51,20 @@ def subject_of(table: str, name: str, prop: str | None = None) -> dict[str, str]
 def sorted_sample(records: pa.Table, k: int) -> list[dict[str, Any]]:
     """The ``k`` smallest distinct rows of ``records``, sorted by every column in order.
 
-    Runs in time linear in the rows (a top-k selection), so a sample of millions of
-    offenders costs no full sort.
+    Selects the smallest ``m`` rows (a top-k selection, no full sort) and widens ``m``
+    only while repeats of the same row leave fewer than ``k`` distinct ones.
     """
     if k <= 0 or records.num_rows == 0:
         return []
     keys = [(name, "ascending") for name in records.column_names]
-    distinct = records.group_by(records.column_names, use_threads=False).aggregate([])
-    picked = pc.select_k_unstable(distinct, k=min(k, distinct.num_rows), sort_keys=keys)
-    return distinct.take(picked).sort_by(keys).to_pylist()
+    wanted = k
+    while True:
+        m = min(wanted, records.num_rows)
+        top = records.take(pc.select_k_unstable(records, k=m, sort_keys=keys))
+        distinct = top.group_by(top.column_names, use_threads=False).aggregate([])
+        if distinct.num_rows >= k or m == records.num_rows:
+            return distinct.sort_by(keys).slice(0, k).to_pylist()
+        wanted *= 4
 
 
 def share(count: int, total: int) -> str:

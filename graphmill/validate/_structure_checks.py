@@ -13,10 +13,14 @@ from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.spec import RelationKey
 from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
 from graphmill.validate.rules import (
+    PairCodes,
     dangling_mask,
+    distinct_pairs,
+    distinct_rows,
     duplicate_counts,
     exact_repeats,
     isolated_mask,
+    pair_codes,
     parallel_variants,
     reciprocated_mask,
     reciprocity_counts,
@@ -36,16 +40,53 @@ def _sum(mask: pa.Array) -> int:
     return int(pc.sum(mask).as_py() or 0)
 
 
+def _codes(ctx: CheckContext, rel: RelationKey) -> PairCodes:
+    """The relation's pair codes, computed once per run and shared by the rules."""
+    edges = ctx.edges(rel)
+    return ctx.memo(
+        ("codes", rel.dotted),
+        lambda: pair_codes(edges.column(SOURCE_ID), edges.column(TARGET_ID)),
+    )
+
+
+def _coded_sides(ctx: CheckContext, vertex_type: str) -> list[tuple[PairCodes, str]]:
+    """The coded endpoint columns of every relation where ``vertex_type`` stands."""
+    sides = []
+    for rel in ctx.relations:
+        if rel.source_type == vertex_type:
+            sides.append((_codes(ctx, rel), "source"))
+        if rel.target_type == vertex_type:
+            sides.append((_codes(ctx, rel), "target"))
+    return sides
+
+
+def _distinct(ctx: CheckContext, rel: RelationKey) -> pa.Table:
+    return ctx.memo(
+        ("distinct", rel.dotted), lambda: distinct_rows(ctx.edges(rel), codes=_codes(ctx, rel))
+    )
+
+
 def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Edges with an endpoint that is not a vertex of the relation's declared type."""
     rel = RelationKey.parse(subject["relation"])
     edges = ctx.edges(rel)
-    src = dangling_mask(edges.column(SOURCE_ID), ctx.vertices(rel.source_type).column(VERTEX_ID))
-    dst = dangling_mask(edges.column(TARGET_ID), ctx.vertices(rel.target_type).column(VERTEX_ID))
+    codes = _codes(ctx, rel)
+    src = dangling_mask(
+        edges.column(SOURCE_ID),
+        ctx.vertices(rel.source_type).column(VERTEX_ID),
+        coded=(codes, "source"),
+    )
+    dst = dangling_mask(
+        edges.column(TARGET_ID),
+        ctx.vertices(rel.target_type).column(VERTEX_ID),
+        coded=(codes, "target"),
+    )
     either = pc.or_(src, dst)
+    records = edges.select(ENDPOINTS).filter(either)
+    src, dst = src.filter(either), dst.filter(either)
     count, on_source, on_target = _sum(either), _sum(src), _sum(dst)
     missing = pc.if_else(pc.and_(src, dst), "both", pc.if_else(src, "source", "target"))
-    records = edges.select(ENDPOINTS).append_column("missing", missing).filter(either)
+    records = records.append_column("missing", missing)
     return Outcome(
         count,
         edges.num_rows,
@@ -98,7 +139,7 @@ def check_repeated_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Exact repeats: every column equal (count = extra copies)."""
     rel = RelationKey.parse(subject["relation"])
     edges = ctx.edges(rel)
-    repeats = exact_repeats(edges)
+    repeats = exact_repeats(edges, codes=_codes(ctx, rel), distinct=_distinct(ctx, rel))
     extra = _sum(repeats.column("copies")) - repeats.num_rows
     return Outcome(
         extra,
@@ -116,7 +157,7 @@ def check_parallel_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     first per pair; exact repeats are not counted)."""
     rel = RelationKey.parse(subject["relation"])
     edges = ctx.edges(rel)
-    variants = parallel_variants(edges)
+    variants = parallel_variants(edges, codes=_codes(ctx, rel), distinct=_distinct(ctx, rel))
     extra = _sum(variants.column("variants")) - variants.num_rows
     return Outcome(
         extra,
@@ -148,7 +189,9 @@ def check_reciprocity(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Reciprocity of a same-type relation (count = reciprocated distinct pairs)."""
     rel = RelationKey.parse(subject["relation"])
     edges = ctx.edges(rel)
-    back, pairs = reciprocity_counts(edges.column(SOURCE_ID), edges.column(TARGET_ID))
+    back, pairs = reciprocity_counts(
+        edges.column(SOURCE_ID), edges.column(TARGET_ID), codes=_codes(ctx, rel)
+    )
     value = back / pairs if pairs else None
     text = (
         f"the reciprocity of {rel.dotted} is {value:.4g}: {back} of {pairs} distinct pairs "
@@ -170,10 +213,16 @@ def check_one_way_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     reverse). ``details.pairs`` counts distinct such pairs."""
     rel = RelationKey.parse(subject["relation"])
     edges = ctx.edges(rel)
-    mask = pc.invert(reciprocated_mask(edges.column(SOURCE_ID), edges.column(TARGET_ID)))
+    back = reciprocated_mask(
+        edges.column(SOURCE_ID), edges.column(TARGET_ID), codes=_codes(ctx, rel)
+    )
+    mask = pc.invert(back)
     count = _sum(mask)
     one_way = edges.select(ENDPOINTS).filter(mask)
-    pairs = one_way.group_by(ENDPOINTS, use_threads=False).aggregate([]).num_rows
+    codes = _codes(ctx, rel)
+    where = mask.to_numpy(zero_copy_only=False)
+    subset = codes.subset(where)
+    pairs = distinct_pairs(one_way.column(SOURCE_ID), one_way.column(TARGET_ID), codes=subset)
     policy = ctx.spec.edges.undirected
     then = (
         "the build will add the missing reverses (edges.undirected: symmetrize)"
@@ -194,7 +243,7 @@ def check_isolated_vertex(ctx: CheckContext, subject: dict[str, str]) -> Outcome
     """Vertices with no edge in any relation (count = distinct ids)."""
     name = subject["vertex_type"]
     ids = ctx.vertices(name).column(VERTEX_ID).combine_chunks()
-    mask = isolated_mask(ids, ctx.endpoints_of(name))
+    mask = isolated_mask(ids, ctx.endpoints_of(name), coded=_coded_sides(ctx, name))
     isolated = pc.unique(ids.filter(mask))
     total = len(pc.unique(ids))
     return Outcome(

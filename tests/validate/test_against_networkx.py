@@ -24,6 +24,7 @@ from graphmill.validate.rules import (
     duplicate_counts,
     exact_repeats,
     isolated_mask,
+    pair_codes,
     reciprocated_mask,
     reciprocity_counts,
     self_loop_mask,
@@ -96,6 +97,19 @@ def test_pure_rules_match_networkx_and_scipy(vertices, edges):
     endpoints = [sources, targets]
     isolated = vertex_ids.filter(isolated_mask(vertex_ids, endpoints))
     assert set(isolated.to_pylist()) == _isolated_nx(vertices, edges)
+
+    # The coded paths the runner takes give the same masks as the plain ones.
+    codes = pair_codes(sources, targets)
+    for column, side in ((sources, "source"), (targets, "target")):
+        coded = dangling_mask(column, vertex_ids, coded=(codes, side))
+        assert coded.equals(dangling_mask(column, vertex_ids))
+    coded_sides = [(codes, "source"), (codes, "target")]
+    assert isolated_mask(vertex_ids, endpoints, coded=coded_sides).equals(
+        isolated_mask(vertex_ids, endpoints)
+    )
+    assert isolated_mask(vertex_ids, [sources], coded=coded_sides[:1]).equals(
+        isolated_mask(vertex_ids, [sources])
+    )
 
 
 @settings(max_examples=200, deadline=None)

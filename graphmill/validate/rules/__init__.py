@@ -5,6 +5,16 @@ tests compare the two result for result.
 """
 
 from graphmill.validate.rules._contract import count_in_range, missing_or_empty
+from graphmill.validate.rules._pairs import (
+    PairCodes,
+    distinct_pairs,
+    distinct_rows,
+    exact_repeats,
+    pair_codes,
+    parallel_variants,
+    reciprocated_mask,
+    reciprocity_counts,
+)
 from graphmill.validate.rules._properties import (
     element_values,
     kind_mix,
@@ -18,21 +28,19 @@ from graphmill.validate.rules._properties import (
 from graphmill.validate.rules._structure import (
     dangling_mask,
     duplicate_counts,
-    exact_repeats,
     isolated_mask,
-    pair_codes,
-    parallel_variants,
-    reciprocated_mask,
-    reciprocity_counts,
     self_loop_mask,
     shared_ids,
 )
 from graphmill.validate.rules._target import class_sizes, thin_classes, unlabeled_mask
 
 __all__ = [
+    "PairCodes",
     "class_sizes",
     "count_in_range",
     "dangling_mask",
+    "distinct_pairs",
+    "distinct_rows",
     "duplicate_counts",
     "element_values",
     "exact_repeats",
