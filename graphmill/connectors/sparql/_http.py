@@ -145,7 +145,9 @@ class SparqlClient:
         retrying = tenacity.Retrying(
             stop=tenacity.stop_after_attempt(policy.attempts),
             wait=tenacity.wait_exponential_jitter(
-                initial=policy.initial_wait_s, max=policy.max_wait_s, jitter=policy.initial_wait_s
+                multiplier=policy.initial_wait_s,
+                max=policy.max_wait_s,
+                jitter=policy.initial_wait_s,
             ),
             retry=tenacity.retry_if_exception_type(_TransientError),
             reraise=True,

@@ -97,6 +97,15 @@ class RangeCursor:
     members: float = 0.0
     row_cap: int | None = None  # a result cap the server was found to apply
 
+    def advance(self, key_range: KeyRange, rows: int, members: float) -> None:
+        """Record that ``key_range`` (``rows`` rows, about ``members`` members) is staged."""
+        if key_range.blank_nodes:
+            self.blanks_done = True
+        else:
+            self.low, self.finished = key_range.high, key_range.high is None
+        self.rows += rows
+        self.members += members
+
     def encode(self) -> str:
         return json.dumps({"paging": "key-range", **asdict(self)}, sort_keys=True)
 
@@ -132,7 +141,8 @@ class RangePlanner:
         if self.sample.blank_members and not cursor.blanks_done:
             return KeyRange(blank_nodes=True), float(self.sample.blank_members)
         bounds = self.sample.bounds
-        start = 0 if cursor.low is None else bisect.bisect_right(bounds, cursor.low)
+        # the slice [bounds[start], bounds[start + step]) holds ``step`` sampled members
+        start = 0 if cursor.low is None else bisect.bisect_left(bounds, cursor.low)
         per_member = cursor.rows / cursor.members if cursor.members else 1.0
         limit = (
             self.target_rows
@@ -143,7 +153,7 @@ class RangePlanner:
         step = max(1, int(wanted / max(self.sample.weight, 1e-9)))
         end = start + step
         high = bounds[end] if end < len(bounds) else None
-        covered = (min(end, len(bounds)) - start + 1) * self.sample.weight
+        covered = max(1, min(end, len(bounds)) - start) * self.sample.weight
         return KeyRange(low=cursor.low, high=high), covered
 
     def narrower(self, key_range: KeyRange) -> KeyRange | None:

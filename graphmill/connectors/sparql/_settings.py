@@ -94,7 +94,7 @@ def _from_env(name: str | None, key: str) -> str | None:
     value = os.environ.get(name)
     if value is None:
         raise AuthenticationError(
-            f"the environment variable {name} named by {key} is not set",
+            f"the environment variable {name} is not set",
             key_path=f"source.{key}",
             hint=f"export {name} before running graphmill",
         )

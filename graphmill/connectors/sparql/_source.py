@@ -65,6 +65,7 @@ class SparqlEndpointSource(GraphSource):
         self.known_cap: int | None = None
         self._samples: dict[str, KeySample] = {}
         self._lock = threading.Lock()
+        self._failure: GraphmillError | None = None
 
     def plan(self) -> list[WorkUnit]:
         return plan_units(self.spec)
@@ -93,12 +94,16 @@ class SparqlEndpointSource(GraphSource):
                 f"the staged pages of {unit.unit_id} were read with another paging strategy",
                 hint="delete the '.staging' folder beside the snapshot and pull again",
             )
-        if self.paging == "single-stream":
-            yield from self._read_whole(unit, cursor)
-        elif self.paging == "offset":
-            yield from self._read_offsets(unit, cursor)
-        else:
-            yield from self._read_ranges(unit, cursor)
+        if self._failure is not None:
+            raise self._failure  # the server already failed: do not ask it again per unit
+        reader = {"single-stream": self._read_whole, "offset": self._read_offsets}.get(
+            self.paging, self._read_ranges
+        )
+        try:
+            yield from reader(unit, cursor)
+        except GraphmillError as exc:
+            self._failure = exc
+            raise
 
     def _where(self, unit: WorkUnit) -> str:
         return f"{self.url} ({unit.unit_id})"
@@ -222,12 +227,7 @@ class SparqlEndpointSource(GraphSource):
                     raise self._capped_error(unit, terms.num_rows)
                 key_range, members = smaller, members / 2
                 terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
-            if key_range.blank_nodes:
-                state.blanks_done = True
-            else:
-                state.low, state.finished = key_range.high, key_range.high is None
-            state.rows += terms.num_rows
-            state.members += members
+            state.advance(key_range, terms.num_rows, members)
             page = self._page(unit, terms, state.encode())
             if page is not None:
                 yield page

@@ -1,0 +1,61 @@
+"""HTTP basic authentication against Fuseki: credentials only from the environment, never in
+the snapshot, its provenance, the staging folder, or what the command prints."""
+
+from __future__ import annotations
+
+import pytest
+from sparql_helpers import endpoint, small_spec_doc, write_spec
+
+from graphmill.cli import main
+from graphmill.errors import AuthenticationError
+from graphmill.snapshot import Snapshot
+
+pytestmark = pytest.mark.servers
+
+
+def _run(tmp_path, server, capsys, monkeypatch, password):
+    user, _ = server.auth
+    monkeypatch.setenv("GM_SPARQL_USER", user)
+    if password is None:
+        monkeypatch.delenv("GM_SPARQL_PASSWORD", raising=False)
+    else:
+        monkeypatch.setenv("GM_SPARQL_PASSWORD", password)
+    source = endpoint(
+        server.query_url,
+        username_env="GM_SPARQL_USER",
+        password_env="GM_SPARQL_PASSWORD",
+        retries={"attempts": 3},
+    )
+    spec = write_spec(tmp_path / "spec.yaml", small_spec_doc(source, tmp_path))
+    code = main(["pull", str(spec), "--no-progress", "-v"])
+    captured = capsys.readouterr()
+    return code, captured.out + captured.err
+
+
+def test_the_right_password_works_and_is_written_nowhere(
+    tmp_path, fuseki_auth_server, capsys, monkeypatch
+):
+    _, password = fuseki_auth_server.auth
+    code, output = _run(tmp_path, fuseki_auth_server, capsys, monkeypatch, password)
+    assert code == 0, output
+    assert password not in output
+    for path in tmp_path.rglob("*"):
+        if path.is_file() and path.name != "spec.yaml":
+            assert password.encode() not in path.read_bytes(), path
+    provenance = Snapshot.open(tmp_path / "snapshot").provenance
+    assert provenance["kind"] == "sparql-endpoint"
+    assert provenance["location"] == fuseki_auth_server.query_url
+    assert provenance["details"]["basic_auth"] is True and provenance["queries"]
+
+
+@pytest.mark.parametrize("password", ["not-the-password", None], ids=["wrong", "unset"])
+def test_a_refused_password_is_exit_4(tmp_path, fuseki_auth_server, capsys, monkeypatch, password):
+    code, output = _run(tmp_path, fuseki_auth_server, capsys, monkeypatch, password)
+    assert code == AuthenticationError.exit_code == 4
+    lines = [line for line in output.splitlines() if line.strip()]
+    assert len(lines) == 1 and "Traceback" not in output
+    assert ("GM_SPARQL_PASSWORD is not set" if password is None else "HTTP 401") in lines[0]
+    assert fuseki_auth_server.auth[1] not in output
+    if password:
+        assert password not in output and fuseki_auth_server.query_url in lines[0]
+    assert not (tmp_path / "snapshot").exists()

@@ -1,0 +1,144 @@
+"""Paging on real servers: every strategy gives the same snapshot; truncated answers are
+caught; a dropped connection is retried or resumed to the identical snapshot."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from urllib.parse import urlsplit
+
+import pytest
+import sparql_cases as cases
+from sparql_fakes import CappingProxy, CuttingRelay
+from sparql_helpers import endpoint, pull_spec, snapshot_files
+
+from graphmill.errors import MalformedResponseError, SourceUnavailableError
+from graphmill.snapshot import Snapshot
+
+pytestmark = pytest.mark.servers
+P = cases.PAGING_NS
+THINGS, BLANKS = 700, 40  # paging_ntriples() defaults
+
+
+def _doc(source: dict, out: Path) -> dict:
+    return {
+        "spec_version": 1,
+        "source": source,
+        "rdf": {"prefixes": {"ex": P}},
+        "vertex_types": {
+            "thing": {
+                "match": "ex:Thing",
+                "properties": {
+                    "label": {"from": "ex:label", "multi": True},
+                    "size": {"from": "ex:size"},
+                },
+            }
+        },
+        "relations": [{"from": "thing", "name": "linked", "to": "thing", "match": "ex:linked"}],
+        "output": {"bundle": str(out / "bundle"), "snapshot": str(out / "snapshot")},
+    }
+
+
+def _without_blanks(root: Path) -> dict[str, list[dict]]:
+    snap = Snapshot.open(root)
+    things = [r for r in snap.vertices("thing").to_pylist() if not r["vertex_id"].startswith("_:")]
+    edges = [
+        e
+        for e in snap.edges(snap.relations[0]).to_pylist()
+        if not (e["source_id"].startswith("_:") or e["target_id"].startswith("_:"))
+    ]
+    return {"things": things, "edges": edges}
+
+
+@pytest.fixture(scope="module")
+def reference(case_oxigraph, tmp_path_factory) -> Path:
+    """The paging dataset pulled from Oxigraph in one unpaged query per unit."""
+    out = tmp_path_factory.mktemp("reference")
+    pull_spec(_doc(endpoint(case_oxigraph.query_url, paging="single-stream"), out))
+    return out / "snapshot"
+
+
+@pytest.mark.parametrize(
+    ("paging", "page_size"),
+    [("key-range", 60), ("key-range", 20), ("offset", 250), ("single-stream", 10)],
+)
+def test_strategies_agree_on_one_server(case_server, tmp_path, paging, page_size):
+    whole = tmp_path / "whole"
+    pull_spec(_doc(endpoint(case_server.query_url, paging="single-stream"), whole))
+    _, info = pull_spec(
+        _doc(
+            endpoint(case_server.query_url, paging=paging, page_size=page_size), tmp_path / "paged"
+        )
+    )
+    assert snapshot_files(tmp_path / "paged" / "snapshot") == snapshot_files(whole / "snapshot")
+    things = Snapshot.open(whole / "snapshot").vertices("thing")
+    assert things.num_rows == THINGS + BLANKS
+    assert sum(v.startswith("_:") for v in things["vertex_id"].to_pylist()) == BLANKS
+    if paging == "key-range":
+        assert info.pages_read > 4 * (THINGS + BLANKS) // max(page_size, 60)
+
+
+def test_servers_and_dump_agree_on_iris(case_server, case_files, tmp_path, reference):
+    pull_spec(_doc(endpoint(case_server.query_url, page_size=50), tmp_path / "s"))
+    pull_spec(_doc({"kind": "rdf-file", "paths": [str(case_files["paging"])]}, tmp_path / "d"))
+    ours = _without_blanks(tmp_path / "s" / "snapshot")
+    assert ours == _without_blanks(tmp_path / "d" / "snapshot") == _without_blanks(reference)
+    assert len(ours["things"]) == THINGS
+
+
+def test_a_capped_server_is_detected_and_paged_around(case_oxigraph, tmp_path, reference):
+    with CappingProxy(case_oxigraph.query_url, cap=1000) as proxy:
+        pull_spec(_doc(endpoint(proxy.url), tmp_path / "ranges"))
+        assert proxy.cut_results >= 1  # the label unit (1400 rows) was cut at first
+        pull_spec(_doc(endpoint(proxy.url, paging="offset", page_size=5000), tmp_path / "offset"))
+    for name in ("ranges", "offset"):
+        assert snapshot_files(tmp_path / name / "snapshot") == snapshot_files(reference)
+
+
+def test_a_capped_single_stream_stops_with_a_clear_error(case_oxigraph, tmp_path):
+    words = "exactly 1000 rows but holds more"
+    with (
+        CappingProxy(case_oxigraph.query_url, cap=1000) as proxy,
+        pytest.raises(MalformedResponseError, match=words) as e,
+    ):
+        pull_spec(_doc(endpoint(proxy.url, paging="single-stream"), tmp_path))
+    assert e.value.exit_code == 7
+    assert not (tmp_path / "snapshot").exists()
+
+
+def _through(relay: CuttingRelay, url: str) -> str:
+    parts = urlsplit(url)
+    return parts._replace(netloc=f"127.0.0.1:{relay.port}").geturl()
+
+
+def test_a_dropped_connection_is_retried(case_oxigraph, tmp_path, reference):
+    port = urlsplit(case_oxigraph.query_url).port
+    with CuttingRelay(port, after_bytes=30_000, cuts=2) as relay:
+        source = endpoint(
+            _through(relay, case_oxigraph.query_url),
+            page_size=100,
+            retries={"attempts": 4, "initial_wait_s": 0.01, "max_wait_s": 0.1},
+        )
+        pull_spec(_doc(source, tmp_path))
+    assert relay.cuts_done == 2
+    assert snapshot_files(tmp_path / "snapshot") == snapshot_files(reference)
+
+
+def test_a_pull_cut_off_resumes_to_the_identical_snapshot(case_oxigraph, tmp_path, reference):
+    port = urlsplit(case_oxigraph.query_url).port
+    full = tmp_path / "full"
+    _, whole = pull_spec(_doc(endpoint(case_oxigraph.query_url, page_size=100), full))
+    with CuttingRelay(port, after_bytes=60_000, cuts=1) as relay:
+        source = endpoint(
+            _through(relay, case_oxigraph.query_url), page_size=100, retries={"attempts": 1}
+        )
+        doc = _doc(source, tmp_path / "cut")
+        with pytest.raises(SourceUnavailableError, match="broke off") as failure:
+            pull_spec(doc)
+        assert failure.value.exit_code == 3 and relay.cuts_done == 1
+        assert not (tmp_path / "cut" / "snapshot").exists()
+        staged = list((tmp_path / "cut").glob("snapshot.staging/units/*/part-*.parquet"))
+        assert staged  # some pages were kept
+        _, resumed = pull_spec(doc)  # the relay passes everything now
+    assert resumed.units_resumed >= 1
+    assert resumed.pages_read < whole.pages_read
+    assert snapshot_files(tmp_path / "cut" / "snapshot") == snapshot_files(reference)
