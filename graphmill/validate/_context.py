@@ -13,6 +13,7 @@ import pyarrow.compute as pc
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey, RelationSpec
+from graphmill.validate.rules import PairCodes, pair_codes
 
 T = TypeVar("T")
 ID_COLUMNS = {"vertices": [VERTEX_ID], "edges": [SOURCE_ID, TARGET_ID]}
@@ -145,6 +146,14 @@ class CheckContext:
             if rel.target_type == vertex_type:
                 out.append(self.edges(rel).column(TARGET_ID))
         return out
+
+    def pair_codes(self, relation: RelationKey) -> PairCodes:
+        """The relation's endpoint codes, computed once per run and shared by the rules."""
+        edges = self.edges(relation)
+        return self.memo(
+            ("codes", relation.dotted),
+            lambda: pair_codes(edges.column(SOURCE_ID), edges.column(TARGET_ID)),
+        )
 
     def memo(self, key: tuple[Any, ...], compute: Callable[[], T]) -> T:
         """``compute()`` once per run for ``key`` (shared between rules)."""

@@ -25,6 +25,7 @@ from graphmill.spec import PipelineSpec
 from graphmill.validate import _contract_checks as contract
 from graphmill.validate import _property_checks as props
 from graphmill.validate import _structure_checks as structure
+from graphmill.validate import _vertex_checks as vertex
 from graphmill.validate._context import CheckContext, Outcome, subject_of
 from graphmill.validate._findings import (
     SEVERITIES,
@@ -144,15 +145,15 @@ def _ranges(ctx: CheckContext) -> list[Subject]:
 #: (rule id, its subjects, its check), in the catalogue's order.
 CHECKS: tuple[tuple[str, Subjects, Check], ...] = (
     ("dangling-edge", _relations, structure.check_dangling),
-    ("duplicate-vertex-id", _vertex_types, structure.check_duplicate_vertex_id),
-    ("vertex-id-in-several-types", _graph, structure.check_shared_ids),
+    ("duplicate-vertex-id", _vertex_types, vertex.check_duplicate_vertex_id),
+    ("vertex-id-in-several-types", _graph, vertex.check_shared_ids),
     ("repeated-edge", _relations, structure.check_repeated_edge),
     ("parallel-edge", _relations, structure.check_parallel_edge),
     ("self-loop", _one_type_relations, structure.check_self_loop),
     ("reciprocity", _one_type_relations, structure.check_reciprocity),
     ("one-way-edge", _undirected, structure.check_one_way_edge),
-    ("isolated-vertex", _vertex_types, structure.check_isolated_vertex),
-    ("edgeless-vertex-type", _vertex_types, structure.check_edgeless_type),
+    ("isolated-vertex", _vertex_types, vertex.check_isolated_vertex),
+    ("edgeless-vertex-type", _vertex_types, vertex.check_edgeless_type),
     ("mixed-value-kinds", _all_properties, props.check_mixed_kinds),
     ("unexpected-value-kind", _kind_known, props.check_unexpected_kind),
     ("null-rate", _not_label, props.check_null_rate),

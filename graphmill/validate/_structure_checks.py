@@ -1,4 +1,5 @@
-"""Structure checks: the pure rules of ``rules/_structure.py`` applied to snapshot tables.
+"""Edge structure checks: the pure rules of ``rules/_structure.py`` and ``rules/_pairs.py``
+applied to each relation's edge table.
 
 Each check takes the context and a subject and returns an :class:`Outcome`. Counts are
 over edge rows unless a docstring says otherwise.
@@ -11,21 +12,17 @@ import pyarrow.compute as pc
 
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.spec import RelationKey
-from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
+from graphmill.validate._context import CheckContext, Outcome, counted, sorted_sample
 from graphmill.validate.rules import (
     PairCodes,
     dangling_mask,
     distinct_pairs,
     distinct_rows,
-    duplicate_counts,
     exact_repeats,
-    isolated_mask,
-    pair_codes,
     parallel_variants,
     reciprocated_mask,
     reciprocity_counts,
     self_loop_mask,
-    shared_ids,
 )
 
 ENDPOINTS = [SOURCE_ID, TARGET_ID]
@@ -41,23 +38,7 @@ def _sum(mask: pa.Array) -> int:
 
 
 def _codes(ctx: CheckContext, rel: RelationKey) -> PairCodes:
-    """The relation's pair codes, computed once per run and shared by the rules."""
-    edges = ctx.edges(rel)
-    return ctx.memo(
-        ("codes", rel.dotted),
-        lambda: pair_codes(edges.column(SOURCE_ID), edges.column(TARGET_ID)),
-    )
-
-
-def _coded_sides(ctx: CheckContext, vertex_type: str) -> list[tuple[PairCodes, str]]:
-    """The coded endpoint columns of every relation where ``vertex_type`` stands."""
-    sides = []
-    for rel in ctx.relations:
-        if rel.source_type == vertex_type:
-            sides.append((_codes(ctx, rel), "source"))
-        if rel.target_type == vertex_type:
-            sides.append((_codes(ctx, rel), "target"))
-    return sides
+    return ctx.pair_codes(rel)
 
 
 def _distinct(ctx: CheckContext, rel: RelationKey) -> pa.Table:
@@ -95,43 +76,6 @@ def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
         "add the missing vertices or drop these edges",
         sorted_sample(records, ctx.sample_size),
         {"source_side": on_source, "target_side": on_target},
-    )
-
-
-def check_duplicate_vertex_id(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
-    """Vertex rows beyond the first for each id (count = extra copies)."""
-    name = subject["vertex_type"]
-    ids = ctx.vertices(name).column(VERTEX_ID)
-    dups = duplicate_counts(ids)
-    extra = _sum(dups.column("copies")) - dups.num_rows
-    records = pa.table({VERTEX_ID: dups.column("value"), "copies": dups.column("copies")})
-    return Outcome(
-        extra,
-        len(ids),
-        f"{counted(dups.num_rows, 'vertex id')} of {name} occur more than once "
-        f"({counted(extra, 'extra row')} of {len(ids)}); make the ids unique in the source",
-        sorted_sample(records, ctx.sample_size),
-        {"ids": dups.num_rows},
-    )
-
-
-def check_shared_ids(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
-    """IDs used by vertices of more than one type (count = such ids)."""
-    ids = {t: ctx.vertices(t).column(VERTEX_ID) for t in ctx.vertex_types}
-    shared = shared_ids(ids)
-    every = pa.chunked_array([pc.unique(c.combine_chunks()) for c in ids.values()], pa.string())
-    total = len(pc.unique(every)) if len(every) else 0
-    sample = sorted_sample(shared.select([VERTEX_ID]), ctx.sample_size)
-    picked = pa.array([r[VERTEX_ID] for r in sample], pa.string())
-    holders = {t: pc.is_in(picked, value_set=c).to_pylist() for t, c in ids.items()}
-    for i, record in enumerate(sample):
-        record["vertex_types"] = sorted(t for t, flags in holders.items() if flags[i])
-    return Outcome(
-        shared.num_rows,
-        total,
-        f"{shared.num_rows} of {total} vertex ids are used by vertices of several types; "
-        "each names a different vertex in each type, so check that this is intended",
-        sample,
     )
 
 
@@ -236,36 +180,4 @@ def check_one_way_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
         f"reverse; {then}",
         sorted_sample(one_way, ctx.sample_size),
         {"pairs": pairs, "policy": policy},
-    )
-
-
-def check_isolated_vertex(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
-    """Vertices with no edge in any relation (count = distinct ids)."""
-    name = subject["vertex_type"]
-    ids = ctx.vertices(name).column(VERTEX_ID).combine_chunks()
-    mask = isolated_mask(ids, ctx.endpoints_of(name), coded=_coded_sides(ctx, name))
-    isolated = pc.unique(ids.filter(mask))
-    total = len(pc.unique(ids))
-    return Outcome(
-        len(isolated),
-        total,
-        f"{len(isolated)} of {total} {name} vertices ({share(len(isolated), total)}) have no "
-        "edge in any declared relation",
-        sorted_sample(pa.table({VERTEX_ID: isolated}), ctx.sample_size),
-    )
-
-
-def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
-    """A vertex type that no relation with at least one edge touches (count 0 or 1)."""
-    name = subject["vertex_type"]
-    touching = [r for r in ctx.relations if name in (r.source_type, r.target_type)]
-    with_edges = [r for r in touching if ctx.edges(r).num_rows]
-    rows = ctx.vertices(name).num_rows
-    declared = ", ".join(r.dotted for r in touching) or "none"
-    return Outcome(
-        0 if with_edges else 1,
-        1,
-        f"vertex type {name} ({rows} vertices) is in no relation that has edges "
-        f"(relations declared for it: {declared})",
-        details={"relations": [r.dotted for r in touching], "vertices": rows},
     )

@@ -1,0 +1,97 @@
+"""Vertex structure checks: duplicate and shared IDs, isolated vertices, edgeless types.
+
+Each check takes the context and a subject and returns an :class:`Outcome`.
+"""
+
+from __future__ import annotations
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from graphmill.connectors.base import VERTEX_ID
+from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
+from graphmill.validate.rules import PairCodes, duplicate_counts, isolated_mask, shared_ids
+
+
+def _sum(column: pa.Array | pa.ChunkedArray) -> int:
+    return int(pc.sum(column).as_py() or 0)
+
+
+def _coded_sides(ctx: CheckContext, vertex_type: str) -> list[tuple[PairCodes, str]]:
+    """The coded endpoint columns of every relation where ``vertex_type`` stands."""
+    sides = []
+    for rel in ctx.relations:
+        if rel.source_type == vertex_type:
+            sides.append((ctx.pair_codes(rel), "source"))
+        if rel.target_type == vertex_type:
+            sides.append((ctx.pair_codes(rel), "target"))
+    return sides
+
+
+def check_duplicate_vertex_id(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Vertex rows beyond the first for each id (count = extra copies)."""
+    name = subject["vertex_type"]
+    ids = ctx.vertices(name).column(VERTEX_ID)
+    dups = duplicate_counts(ids)
+    extra = _sum(dups.column("copies")) - dups.num_rows
+    records = pa.table({VERTEX_ID: dups.column("value"), "copies": dups.column("copies")})
+    return Outcome(
+        extra,
+        len(ids),
+        f"{counted(dups.num_rows, 'vertex id')} of {name} occur more than once "
+        f"({counted(extra, 'extra row')} of {len(ids)}); make the ids unique in the source",
+        sorted_sample(records, ctx.sample_size),
+        {"ids": dups.num_rows},
+    )
+
+
+def check_shared_ids(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """IDs used by vertices of more than one type (count = such ids)."""
+    ids = {t: ctx.vertices(t).column(VERTEX_ID) for t in ctx.vertex_types}
+    shared = shared_ids(ids)
+    every = pa.chunked_array([pc.unique(c.combine_chunks()) for c in ids.values()], pa.string())
+    total = len(pc.unique(every)) if len(every) else 0
+    sample = sorted_sample(shared.select([VERTEX_ID]), ctx.sample_size)
+    picked = pa.array([r[VERTEX_ID] for r in sample], pa.string())
+    holders = {t: pc.is_in(picked, value_set=c).to_pylist() for t, c in ids.items()}
+    for i, record in enumerate(sample):
+        record["vertex_types"] = sorted(t for t, flags in holders.items() if flags[i])
+    return Outcome(
+        shared.num_rows,
+        total,
+        f"{shared.num_rows} of {total} vertex ids are used by vertices of several types; "
+        "each names a different vertex in each type, so check that this is intended",
+        sample,
+    )
+
+
+def check_isolated_vertex(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """Vertices with no edge in any relation (count = distinct ids)."""
+    name = subject["vertex_type"]
+    ids = ctx.vertices(name).column(VERTEX_ID).combine_chunks()
+    mask = isolated_mask(ids, ctx.endpoints_of(name), coded=_coded_sides(ctx, name))
+    isolated = pc.unique(ids.filter(mask))
+    total = len(pc.unique(ids))
+    return Outcome(
+        len(isolated),
+        total,
+        f"{len(isolated)} of {total} {name} vertices ({share(len(isolated), total)}) have no "
+        "edge in any declared relation",
+        sorted_sample(pa.table({VERTEX_ID: isolated}), ctx.sample_size),
+    )
+
+
+def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
+    """A vertex type that no relation with at least one edge touches (count 0 or 1)."""
+    name = subject["vertex_type"]
+    touching = [r for r in ctx.relations if name in (r.source_type, r.target_type)]
+    with_edges = [r for r in touching if ctx.edges(r).num_rows]
+    rows = ctx.vertices(name).num_rows
+    declared = ", ".join(r.dotted for r in touching) or "none"
+    return Outcome(
+        0 if with_edges else 1,
+        1,
+        f"vertex type {name} ({rows} vertices) is in no relation that has edges "
+        f"(relations declared for it: {declared})",
+        details={"relations": [r.dotted for r in touching], "vertices": rows},
+    )
