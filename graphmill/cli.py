@@ -68,6 +68,12 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(_dispatch(args))
     except GraphmillError as exc:
         return _fail(args, exc.one_line(), exc.exit_code, exc.to_dict())
+    except BrokenPipeError:  # e.g. `graphmill inspect B --json | head`: the reader left
+        import os
+
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return ExitCode.OK
     except KeyboardInterrupt:
         return _fail(args, "interrupted; run the same command again to resume", 130, {})
     except Exception as exc:  # a bug of ours: one line, and how to see more
