@@ -50,6 +50,9 @@ def testcase_name(rule: str, subject: dict[str, str]) -> str:
 def junit_xml(report: Report) -> bytes:
     """The report as JUnit XML (UTF-8, with an XML declaration)."""
     families = list(dict.fromkeys(rule.family for rule in RULES.values()))
+    by_case: dict[tuple[str, str], list[Finding]] = {}
+    for finding in report.findings:
+        by_case.setdefault((finding.rule, subject_label(finding.subject)), []).append(finding)
     root = ET.Element("testsuites", name="graphmill checks")
     total = failures = 0
     for family in families:
@@ -65,7 +68,7 @@ def junit_xml(report: Report) -> bytes:
                 classname=f"graphmill.{family}.{evaluation.rule}",
                 name=testcase_name(evaluation.rule, evaluation.subject),
             )
-            found = report.findings_for(evaluation.rule, evaluation.subject)
+            found = by_case.get((evaluation.rule, subject_label(evaluation.subject)), [])
             errors = [f for f in found if f.severity == "error"]
             if errors:
                 failed += 1

@@ -72,9 +72,16 @@ def check_mixed_kinds(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     if mix == "numeric":
         text = f"{label} holds integers and floats ({_listing(kinds)}), stored as {stored}"
     else:
+        table, name, prop = where(subject)
+        declared = ctx.property_spec(table, name, prop)
+        advice = (
+            f"fix the values that are not {declared.kind}"
+            if declared and declared.kind
+            else "fix the source values or declare the property's kind"
+        )
         text = (
             f"{label} holds values of {len(kinds)} kinds ({_listing(kinds)}), so it is "
-            f"stored as {stored}; fix the source values or declare the property's kind"
+            f"stored as {stored}; {advice}"
         )
     details = {"kinds": kinds, "stored_as": stored}
     return Outcome(count, sum(kinds.values()), text, details=details, note=mix == "numeric")

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 
+from graphmill.errors import InputError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
 from graphmill.validate import _contract_checks as contract
@@ -193,10 +194,12 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
-    ``checks.severity``. Findings and evaluations come in the catalogue's order, then in
+    ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
+    table the spec declares. Findings and evaluations come in the catalogue's order, then in
     the snapshot's order of tables and columns.
     """
     severities = resolve_severities(spec)
+    _require_declared_tables(spec, snapshot)
     ctx = CheckContext(spec, snapshot)
     findings: list[Finding] = []
     evaluated: list[Evaluation] = []
@@ -211,6 +214,23 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot) -> Report:
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
     return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
+
+
+def _require_declared_tables(spec: PipelineSpec, snapshot: Snapshot) -> None:
+    """Refuse a snapshot that lacks a vertex type or relation the spec declares: it was
+    pulled under another spec, and checking it would silently skip those tables."""
+    present = {(t["kind"], t["name"]) for t in snapshot.document["tables"]}
+    wanted = [("vertices", name) for name in spec.vertex_types]
+    wanted += [("edges", rel.key.dotted) for rel in spec.relations]
+    noun = {"vertices": "vertex table", "edges": "edge table"}
+    missing = [f"{noun[kind]} {name}" for kind, name in wanted if (kind, name) not in present]
+    if missing:
+        raise InputError(
+            f"the snapshot has no {missing[0]}, which the spec declares"
+            + (f" ({len(missing) - 1} more missing)" if len(missing) > 1 else ""),
+            file=str(snapshot.root),
+            hint="it was pulled under another spec; run 'graphmill pull' again",
+        )
 
 
 def _finding(rule_id: str, level: Severity, subject: Subject, outcome: Outcome) -> Finding:

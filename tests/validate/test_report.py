@@ -15,7 +15,7 @@ from rich.console import Console
 
 import graphmill.validate as validate
 from graphmill._schemas import load_schema, validate_document
-from graphmill.errors import SpecError
+from graphmill.errors import InputError, SpecError
 from graphmill.validate import rule_catalogue, run_checks
 from graphmill.validate._findings import Evaluation, Finding, subject_label
 from graphmill.validate._junit import junit_xml, xml_text
@@ -168,6 +168,20 @@ def test_off_rules_are_not_evaluated_and_passing_graph_passes(tmp_path):
     report = run_checks(*_messy(tmp_path, severity=off))
     assert report.findings == [] and report.evaluated == [] and report.passed
     assert report.verdict().startswith("PASSED: 0 errors")
+
+
+def test_a_snapshot_pulled_under_another_spec_is_refused_in_one_line(tmp_path):
+    _, snapshot = publish(tmp_path, vertex_types={"n": {}}, vertices={"n": {"vertex_id": ["a"]}})
+    wider = make_spec(
+        tmp_path / "other",
+        vertex_types={"n": {}, "m": {}},
+        relations=[{"from": "n", "name": "link", "to": "m"}],
+    )
+    with pytest.raises(InputError) as caught:
+        run_checks(wider, snapshot)
+    line = caught.value.one_line()
+    assert "no vertex table m, which the spec declares (1 more missing)" in line
+    assert "graphmill pull" in line and "\n" not in line
 
 
 def test_unknown_rule_id_in_overrides_is_a_spec_error_with_a_suggestion(tmp_path):
