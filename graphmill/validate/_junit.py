@@ -3,7 +3,8 @@
 
 Error findings become ``<failure>``; warnings and notes pass with their text in
 ``<system-out>``. Text is escaped by ``xml.etree``; characters that XML 1.0 cannot hold at
-all (XML 1.0, section 2.2, production [2] Char) are replaced by U+FFFD.
+all (XML 1.0, section 2.2, production [2] Char; section from memory) are replaced by
+U+FFFD.
 """
 
 from __future__ import annotations

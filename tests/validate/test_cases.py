@@ -87,3 +87,10 @@ def test_case(tmp_path: Path, case: dict[str, Any]) -> None:
         assert key not in evaluated, key
     if "passed" in case:
         assert report.passed is case["passed"]
+
+
+def test_every_rule_has_a_named_case():
+    from graphmill.validate import rule_catalogue
+
+    named = {e["rule"] for case in _load_cases() for e in case.values[0].get("expect", [])}
+    assert set(rule_catalogue()) - named == set()

@@ -131,8 +131,8 @@ def test_junit_has_one_testcase_per_evaluation_and_fails_exactly_on_errors(tmp_p
 
 
 def test_junit_replaces_characters_xml_cannot_hold(tmp_path):
-    # XML 1.0 (Fifth Edition), section 2.2, production [2] Char: no U+0000-U+0008, U+000B,
-    # U+000C, U+000E-U+001F, U+FFFE, U+FFFF, nor lone surrogates.
+    # XML 1.0 (Fifth Edition), section 2.2, production [2] Char (from memory): no
+    # U+0000-U+0008, U+000B, U+000C, U+000E-U+001F, U+FFFE, U+FFFF, nor lone surrogates.
     assert xml_text("a\x00b\x0bc\ufffed\td\n中") == "a\ufffdb\ufffdc\ufffdd\td\n中"
     finding = Finding("snapshot-note", "info", {}, 1, 1, [], "note about \x01<&>", {})
     report = Report([finding], [Evaluation("snapshot-note", {}, "info")], {"name": "x"})

@@ -113,7 +113,8 @@ def out_of_range_mask(
     values: Column, minimum: float | None, maximum: float | None
 ) -> pa.BooleanArray:
     """True where a number is below ``minimum`` or above ``maximum`` (bounds inclusive;
-    nulls and NaN are False: NaN compares false with everything, IEEE 754 section 5.11)."""
+    nulls and NaN are False: NaN compares false with everything, IEEE 754-2008
+    section 5.11, section number from memory)."""
     flat = _flat(values)
     mask = pa.array(np.zeros(len(flat), dtype=bool))
     if minimum is not None:
