@@ -10,12 +10,13 @@ one encoding between rules; the results are the same either way.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TypeAlias
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-Column = pa.Array | pa.ChunkedArray
+Column: TypeAlias = pa.Array | pa.ChunkedArray
 
 LIST_SEPARATOR = "\x1f"  # joins list elements when whole rows are compared
 NULL_ELEMENT = "\x00"  # stands for a null element inside a list

@@ -12,6 +12,7 @@ them and keeps, for each element, the row it came from.
 from __future__ import annotations
 
 from collections.abc import Mapping
+from typing import TypeAlias
 
 import numpy as np
 import pyarrow as pa
@@ -19,7 +20,7 @@ import pyarrow.compute as pc
 
 from graphmill._columns import is_multi, kind_of_type
 
-Column = pa.Array | pa.ChunkedArray
+Column: TypeAlias = pa.Array | pa.ChunkedArray
 
 NUMERIC_KINDS = frozenset({"integer", "float"})
 ILL_TYPED = "ill-typed"

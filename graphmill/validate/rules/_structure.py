@@ -11,6 +11,7 @@ hashing every row again; the result is the same.
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from typing import TypeAlias
 
 import numpy as np
 import pyarrow as pa
@@ -18,7 +19,7 @@ import pyarrow.compute as pc
 
 from graphmill.validate.rules._pairs import Column, PairCodes
 
-Side = tuple[PairCodes, str]  # coded endpoints and the side used: "source" or "target"
+Side: TypeAlias = tuple[PairCodes, str]  # coded endpoints and the side used: "source" or "target"
 
 
 def _flat(column: Column) -> pa.Array:
