@@ -8,7 +8,6 @@ that replaces ``spec.output.bundle`` only once complete. Any error leaves nothin
 
 from __future__ import annotations
 
-import re
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -22,16 +21,15 @@ from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
-from graphmill.errors import InputError, SpecError
+from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
 from graphmill.transform._edges import EdgeArrays, apply_edge_policy
 from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
+from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
 from graphmill.transform._pseudonyms import SCHEME, pseudonym_key, pseudonymizer
 from graphmill.transform._vertices import add_vertex_type
 from graphmill.transform._writer import BundleContent, write_bundle
-
-_USERINFO = re.compile(r"(?<=://)[^/@\s]*@")
 
 
 @dataclass
@@ -75,7 +73,8 @@ def build_bundle(
     started = time.perf_counter()
     progress = progress or SilentProgress()
     key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
-    _check_snapshot(spec, snapshot)
+    check_snapshot(spec, snapshot)
+    check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
     content = BundleContent()
     content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None})
@@ -86,7 +85,7 @@ def build_bundle(
         table = snapshot.vertices(name).select(columns)
         fn = pseudonymizer(name, key) if key is not None else None
         indices[name] = vi = index_vertices(name, table, pseudonymize=fn)
-        _check_unique(vi)
+        check_unique(vi)
         info.warnings += add_vertex_type(content, spec, vi)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
@@ -131,51 +130,6 @@ def build_bundle(
         write_bundle(scratch, content)
     info.seconds = time.perf_counter() - started
     return info
-
-
-def public_source(provenance: dict[str, Any]) -> dict[str, Any]:
-    """Kind, location and queries, with any ``user:password@`` removed from the location."""
-    return {
-        "kind": str(provenance.get("kind", "")),
-        "location": _USERINFO.sub("", str(provenance.get("location", ""))),
-        "queries": [str(q) for q in provenance.get("queries", [])],
-    }
-
-
-def _check_snapshot(spec: PipelineSpec, snapshot: Snapshot) -> None:
-    hint = "pull again with the current spec"
-    for name, vt in spec.vertex_types.items():
-        if name not in snapshot.vertex_types:
-            raise InputError(
-                f"the snapshot has no vertex type {name!r}", file=str(snapshot.root), hint=hint
-            )
-        have = set(snapshot.vertices(name).schema.names)
-        for prop in vt.properties:
-            if prop.name not in have:
-                raise InputError(
-                    f"the snapshot's {name!r} vertices have no property {prop.name!r}",
-                    file=str(snapshot.root),
-                    hint=hint,
-                )
-    for rel in spec.relations:
-        if rel.key not in snapshot.relations:
-            raise InputError(
-                f"the snapshot has no relation {rel.key.dotted}", file=str(snapshot.root), hint=hint
-            )
-
-
-def _check_unique(vi: VertexIndex) -> None:
-    """Pseudonyms are 128 bits: a collision is astronomically unlikely, but never silent."""
-    ids = vi.public_ids
-    if (
-        len(ids) > 1
-        and not pa.compute.all(
-            pa.compute.not_equal(ids.slice(1), ids.slice(0, len(ids) - 1))
-        ).as_py()
-    ):
-        raise InputError(
-            f"two {vi.vertex_type!r} vertices got the same pseudonym", hint="use another key"
-        )
 
 
 def _add_relation(

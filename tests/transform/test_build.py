@@ -258,7 +258,7 @@ def test_add_reverse_refuses_a_name_the_spec_already_uses(tmp_path: Path) -> Non
 
 
 def test_credentials_in_the_source_location_are_not_published() -> None:
-    from graphmill.transform._build import public_source
+    from graphmill.transform._inputs import public_source
 
     source = public_source(
         {
@@ -274,3 +274,21 @@ def test_credentials_in_the_source_location_are_not_published() -> None:
 def test_exports_are_sorted_and_resolve() -> None:
     assert graphmill.transform.__all__ == sorted(graphmill.transform.__all__)
     assert all(getattr(graphmill.transform, n) for n in graphmill.transform.__all__)
+
+
+def test_a_validation_summary_that_is_not_json_is_refused(tmp_path: Path) -> None:
+    document = spec_document(tmp_path, {"p": {}})
+    spec, snapshot = publish(document, {"p": pa.table({"vertex_id": ["a"]})})
+    with pytest.raises(InputError, match="validation summary cannot go into the manifest"):
+        build_bundle(spec, snapshot, checks_summary={"rate": float("nan")})
+    assert not spec.output.bundle.exists()
+
+
+def test_a_snapshot_pulled_under_another_spec_is_named(tmp_path: Path) -> None:
+    document = spec_document(tmp_path, {"p": {"properties": {"n": None}}})
+    _, snapshot = publish(document, {"p": pa.table({"vertex_id": ["a"], "n": ["1"]})})
+    document["vertex_types"]["p"]["properties"]["m"] = None
+    from graphmill.spec import spec_from_dict
+
+    with pytest.raises(InputError, match=r"have no property 'm'.*pull again"):
+        build_bundle(spec_from_dict(document), snapshot)
