@@ -111,8 +111,12 @@ def reciprocity_counts(
     n = codes.size
     keys = _sorted_unique(codes.keys)
     s, t = keys // n, keys % n
-    back = _contains(keys, t * n + s) & (s != t)
-    return int(back.sum()), len(keys)
+    loops = s == t
+    probes = np.sort((t * n + s)[~loops])  # a count needs no way back to each pair
+    if not len(keys) or not len(probes):
+        return 0, len(keys)
+    at = np.minimum(np.searchsorted(keys, probes), len(keys) - 1)
+    return int((keys[at] == probes).sum()), len(keys)
 
 
 def distinct_pairs(sources: Column, targets: Column, *, codes: PairCodes | None = None) -> int:
