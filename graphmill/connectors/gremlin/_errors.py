@@ -12,7 +12,7 @@ import asyncio
 import ssl
 import struct
 from collections.abc import Callable
-from typing import Any, TypeVar
+from typing import TypeVar
 
 import aiohttp
 import tenacity
@@ -55,7 +55,7 @@ def _short(text: object, limit: int = 200) -> str:
 
 def as_graphmill_error(exc: BaseException, settings: GremlinSettings) -> GraphmillError:
     """The graphmill error for a driver exception: one line, the URL, what to do."""
-    where = {"source": settings.url}
+    url = settings.url
     if isinstance(exc, GraphmillError):
         return exc
     if isinstance(exc, GremlinServerError):
@@ -64,33 +64,33 @@ def as_graphmill_error(exc: BaseException, settings: GremlinSettings) -> Graphmi
             return SourceTimeoutError(
                 "the server stopped a traversal at its evaluation timeout (status 598)",
                 hint="raise source.request_timeout_s or split the work with source.partitions",
-                **where,
+                source=url,
             )
         if code in (401, 407):
             return AuthenticationError(
                 f"the server refused the credentials (status {code})",
                 hint="check the user and password in the variables named by "
                 "source.username_env and source.password_env",
-                **where,
+                source=url,
             )
         if _lost_connection(exc):
-            return _unavailable(exc, where)
+            return _unavailable(exc, url)
         if code == 599:
             return SourceServerError(
                 f"the server cannot send a value (status 599: {_short(exc.status_message)})",
                 hint="leave the property that holds it out of the spec or convert it on the server",
-                **where,
+                source=url,
             )
         return SourceServerError(
             f"the server answered with status {code}: {_short(exc.status_message)}",
             hint="check source.traversal_source and the server's log",
-            **where,
+            source=url,
         )
     if isinstance(exc, ConfigurationError):
         return AuthenticationError(
             "the server asks for credentials and the spec names none",
             hint="set source.username_env and source.password_env",
-            **where,
+            source=url,
         )
     if isinstance(exc, aiohttp.ClientConnectorCertificateError | ssl.SSLCertVerificationError):
         detail = getattr(exc, "certificate_error", exc)
@@ -98,43 +98,43 @@ def as_graphmill_error(exc: BaseException, settings: GremlinSettings) -> Graphmi
             f"the server's TLS certificate is not trusted ({_short(detail)})",
             hint="set source.tls.ca_file to the certificate of the authority that signed it, "
             "or source.tls.verify: false for a test server",
-            **where,
+            source=url,
         )
     if isinstance(exc, aiohttp.ClientSSLError | ssl.SSLError):
         return SourceUnavailableError(
             f"the TLS handshake failed ({_short(exc)})",
             hint="check that the server speaks TLS on this port (wss://) and source.tls",
-            **where,
+            source=url,
         )
     if isinstance(exc, aiohttp.WSServerHandshakeError):
         return SourceUnavailableError(
             f"the WebSocket handshake failed (HTTP {exc.status})",
             hint="check the url's path (Gremlin Server uses /gremlin)",
-            **where,
+            source=url,
         )
     if isinstance(exc, ValueError | struct.error | UnicodeDecodeError):
         return MalformedResponseError(
             f"the server sent a value gremlinpython cannot read ({_short(exc)})",
             hint="leave the property that holds it out of the spec (for example a Java "
             "LocalDateTime), or convert it on the server",
-            **where,
+            source=url,
         )
     if isinstance(exc, asyncio.TimeoutError | TimeoutError):
         return SourceTimeoutError(
             "the server did not answer in time",
             hint="raise source.request_timeout_s or check the server's load",
-            **where,
+            source=url,
         )
-    return _unavailable(exc, where)
+    return _unavailable(exc, url)
 
 
-def _unavailable(exc: BaseException, where: dict[str, Any]) -> SourceUnavailableError:
+def _unavailable(exc: BaseException, url: str) -> SourceUnavailableError:
     detail = _short(exc) or type(exc).__name__
     return SourceUnavailableError(
         f"cannot reach the Gremlin Server or the connection was lost ({detail})",
         hint="check that the server runs and the url is right; "
         "pulling again resumes from the last checkpoint",
-        **where,
+        source=url,
     )
 
 

@@ -118,10 +118,14 @@ class GremlinSource(GraphSource):
         """One unit per vertex type and relation, split into ``partitions`` id ranges."""
         parts = self.settings.partitions
         units: list[WorkUnit] = []
-        for unit in super().plan():
-            if parts > 1:
-                self._bounds[(unit.table, unit.name)] = self._partition_bounds(unit, parts)
-            units += [WorkUnit(unit.table, unit.name, p, parts) for p in range(parts)]
+        try:
+            for unit in super().plan():
+                if parts > 1:
+                    self._bounds[(unit.table, unit.name)] = self._partition_bounds(unit, parts)
+                units += [WorkUnit(unit.table, unit.name, p, parts) for p in range(parts)]
+        except BaseException:
+            self.close()  # the stager opens the source only after planning
+            raise
         return units
 
     def _partition_bounds(self, unit: WorkUnit, parts: int) -> list[Any]:
@@ -142,7 +146,7 @@ class GremlinSource(GraphSource):
         if not _cursor.same_bounds(state, shape.scope):
             raise InputError(
                 f"the id ranges of {unit.unit_id} changed since the interrupted pull began",
-                hint="the graph changed; delete the snapshot's '.staging' folder and pull again",
+                hint=f"the graph changed: delete {self.spec.output.snapshot}.staging, pull again",
                 source=self.settings.url,
             )
         reader = _UnitReader(self, shape, state.after)
@@ -160,8 +164,8 @@ class GremlinSource(GraphSource):
         if expected != state.rows:
             raise InputError(
                 f"read {state.rows} rows of {unit.unit_id} but the server counts {expected}",
-                hint="the graph changed during the pull, or a label mixes id types; pull again "
-                "when the graph is stable",
+                hint="the graph changed during the pull, or a label mixes id types; delete "
+                f"{self.spec.output.snapshot}.staging and pull again when the graph is stable",
                 source=self.settings.url,
             )
 
@@ -192,26 +196,28 @@ class GremlinSource(GraphSource):
 
     # -- description -----------------------------------------------------------------
     def provenance(self) -> Provenance:
-        """Location without credentials; the Gremlin text of each unit's traversal."""
+        """Location without credentials; the Gremlin text of each unit's traversal. Partition
+        bounds are described, not listed: they are element ids, which a pseudonymised bundle
+        must not reveal."""
         queries: list[str] = []
-        for unit in self.plan_units():
+        for unit in GraphSource.plan(self):
             shape = self.shape(unit)
             keys = [p.source_key for p in shape.properties]
             metas = [key for _name, key in shape.meta_columns]
             traversal = _traversals.rows(shape.scope, keys, metas)
             queries.append(_traversals.render(traversal, self.settings.traversal_source))
-        details = {
+        details: dict[str, Any] = {
             "traversal_source": self.settings.traversal_source,
             "partitions": self.settings.partitions,
             "meta_properties": self.settings.meta_properties,
             "ids": "str() of the Gremlin element id",
         }
+        if self.settings.partitions > 1:
+            details["partition_bounds"] = (
+                "each unit is split at the ids found at equal-count positions of its sorted "
+                "ids; partition p reads has(T.id, gte(low_p)).has(T.id, lt(high_p))"
+            )
         return Provenance(self.kind, self.settings.location, queries, details)
-
-    def plan_units(self) -> list[WorkUnit]:
-        """The planned units, from the bounds already found (no server round trip)."""
-        parts = self.settings.partitions
-        return [WorkUnit(u.table, u.name, p, parts) for u in super().plan() for p in range(parts)]
 
     def discover(self) -> dict[str, Any]:
         """Labels with counts, edge label pairs, property keys and kinds from a sample."""
