@@ -93,6 +93,10 @@ def test_grateful_dead_counts(gremlin_server, tmp_path):
     assert songs.schema.field("performances").type == pa.int64()
     assert songs.schema.field("song_type").type == pa.string()
     assert info.pages_read > 16  # 8049 edges in pages of 500
+    report = Pipeline(spec).check()
+    assert report.passed, report.summary()
+    built = Pipeline(spec).build(report=report)
+    assert built.vertex_counts == info.vertex_counts
 
 
 def test_partitions_and_page_sizes_give_identical_tables(gremlin_server, tmp_path):
