@@ -6,16 +6,17 @@
 * TSV is parsed while it streams, in pieces cut at line boundaries, so the client holds the
   parsed Arrow columns plus one piece of text, never the whole body; JSON is parsed whole;
 * connection errors, dropped connections and HTTP 5xx are retried with exponential backoff
-  and jitter; then they become the graphmill error for the case (see :func:`_status_error`).
+  and jitter; then they become the graphmill error for the case (:mod:`._failures`).
 
 Messages name the endpoint URL (which holds no credentials: see :mod:`._settings`).
 """
 
 from __future__ import annotations
 
+import random
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from typing import Protocol
+from typing import Protocol, TypeVar
 from urllib.parse import quote
 
 import httpx
@@ -24,18 +25,17 @@ import tenacity
 
 from graphmill._version import __version__
 from graphmill.connectors.rdf._terms import read_json_results, read_tsv_results
-from graphmill.connectors.sparql._settings import EndpointSettings
-from graphmill.errors import (
-    AuthenticationError,
-    GraphmillError,
-    MalformedResponseError,
-    SourceServerError,
-    SourceTimeoutError,
-    SourceUnavailableError,
+from graphmill.connectors.sparql._failures import (
+    TransientError,
+    status_error,
+    transport_error,
 )
+from graphmill.connectors.sparql._settings import EndpointSettings
+from graphmill.errors import MalformedResponseError
 
-PIECE_BYTES = 8 << 20  # TSV text parsed at a time
+PIECE_BYTES = 2 << 20  # TSV text parsed at a time (tests lower it)
 MAX_GET_URL = 2000  # longer queries go by POST (common server and proxy URL limits)
+T = TypeVar("T")
 _ACCEPT = {"tsv": "text/tab-separated-values", "json": "application/sparql-results+json"}
 _CONTENT = {
     "tsv": ("text/tab-separated-values",),
@@ -68,14 +68,6 @@ class ServerInfo:
 
     product: str
     server_header: str
-
-
-class _TransientError(Exception):
-    """A failure worth another try; carries the error to raise when tries run out."""
-
-    def __init__(self, error: GraphmillError) -> None:
-        super().__init__(error.message)
-        self.error = error
 
 
 def identify(headers: httpx.Headers) -> ServerInfo:
@@ -140,7 +132,7 @@ class SparqlClient:
 
     # ------------------------------------------------------------------ internals
 
-    def _retrying(self, action: Callable[[], object]) -> object:  # type: ignore[misc]
+    def _retrying(self, action: Callable[[], T]) -> T:
         policy = self.settings.retries
         retrying = tenacity.Retrying(
             stop=tenacity.stop_after_attempt(policy.attempts),
@@ -149,12 +141,12 @@ class SparqlClient:
                 max=policy.max_wait_s,
                 jitter=policy.initial_wait_s,
             ),
-            retry=tenacity.retry_if_exception_type(_TransientError),
+            retry=tenacity.retry_if_exception_type(TransientError),
             reraise=True,
         )
         try:
             return retrying(action)
-        except _TransientError as exc:
+        except TransientError as exc:
             error = exc.error
             error.message += f" (after {policy.attempts} tries)"
             raise error from exc.__cause__
@@ -183,6 +175,14 @@ class SparqlClient:
             return response.headers
 
     def _send(self, query: str, sink: Collector, where: str) -> None:
+        for terms in self.stream(query, where=where):
+            sink.add(terms)
+
+    def stream(self, query: str, *, where: str) -> Iterator[pa.Table]:
+        """Run a SELECT once (no retry) and yield its term tables as they are parsed.
+
+        Raises :class:`TransientError` for what is worth another try (the caller decides).
+        """
         fmt = self.settings.results_format
         with self._exchange(query, _ACCEPT[fmt]) as response:
             kind = response.headers.get("content-type", "").split(";")[0].strip().lower()
@@ -193,12 +193,17 @@ class SparqlClient:
                     source=self.url,
                     hint="check that query_url is the SPARQL query endpoint",
                 )
-            chunks = response.iter_bytes(1 << 20)
+            chunks = response.iter_bytes()  # as they arrive
             if fmt == "tsv":
-                for terms in _tsv_pieces(chunks, where):
-                    sink.add(terms)
+                yield from _tsv_pieces(chunks, where)
             else:
-                sink.add(read_json_results(b"".join(chunks), where=where))
+                yield read_json_results(b"".join(chunks), where=where)
+
+    def wait_before(self, attempt: int) -> float:
+        """Seconds to wait before try ``attempt + 1`` (exponential, with jitter)."""
+        policy = self.settings.retries
+        exponential = policy.initial_wait_s * 2 ** max(0, attempt - 1)
+        return min(policy.max_wait_s, exponential + random.uniform(0, policy.initial_wait_s))
 
     def _exchange(self, query: str, accept: str) -> _Exchange:
         return _Exchange(self, query, accept)
@@ -222,89 +227,20 @@ class _Exchange:
                 request = self.client._request(self.query, self.accept, form=True)
                 response = http.send(request, stream=True)
         except httpx.HTTPError as exc:
-            raise _transport_error(exc, self.client.url) from exc
+            raise transport_error(exc, self.client.url) from exc
         self.client.requests += 1
         self._stream = response
         if response.status_code >= 400:
             response.read()
             response.close()
-            raise _status_error(response, self.client.url)
+            raise status_error(response, self.client.url)
         return response
 
     def __exit__(self, exc_type: object, exc: BaseException | None, tb: object) -> None:
         assert self._stream is not None
         self._stream.close()
         if isinstance(exc, httpx.HTTPError):
-            raise _transport_error(exc, self.client.url) from exc
-
-
-def _transport_error(exc: httpx.HTTPError, url: str) -> Exception:
-    if isinstance(exc, httpx.ConnectTimeout | httpx.PoolTimeout):
-        return _TransientError(
-            SourceTimeoutError(
-                "connecting to the endpoint timed out",
-                source=url,
-                hint="check that the server is up and reachable",
-            )
-        )
-    if isinstance(exc, httpx.TimeoutException):
-        return SourceTimeoutError(
-            "the endpoint did not answer within request_timeout_s",
-            source=url,
-            hint="raise source.request_timeout_s or lower source.page_size",
-        )
-    if isinstance(exc, httpx.ConnectError):
-        return _TransientError(
-            SourceUnavailableError(
-                f"cannot connect to the endpoint ({_reason(exc)})",
-                source=url,
-                hint="check that the server is running and that query_url is right",
-            )
-        )
-    if isinstance(exc, httpx.TransportError):
-        return _TransientError(
-            SourceUnavailableError(
-                f"the connection to the endpoint broke off ({_reason(exc)})",
-                source=url,
-                hint="run the pull again: it resumes after the last staged page",
-            )
-        )
-    return SourceUnavailableError(f"HTTP request failed ({_reason(exc)})", source=url)
-
-
-def _reason(exc: BaseException) -> str:
-    text = str(exc).strip() or type(exc).__name__
-    return text.splitlines()[0][:160]
-
-
-def _status_error(response: httpx.Response, url: str) -> Exception:
-    code = response.status_code
-    said = " ".join(response.text[:300].split())[:160]
-    detail = f"HTTP {code} {response.reason_phrase}" + (f": {said}" if said else "")
-    if code in (401, 403):
-        return AuthenticationError(
-            f"the endpoint refused the credentials ({detail})",
-            source=url,
-            hint="check the user name and password in the variables named by "
-            "source.username_env and source.password_env",
-        )
-    if code >= 500:
-        return _TransientError(
-            SourceServerError(
-                f"the endpoint answered {detail}",
-                source=url,
-                hint="check the server's log, or try again later",
-            )
-        )
-    if code == 404:
-        return SourceUnavailableError(
-            f"no SPARQL endpoint here ({detail})", source=url, hint="check source.query_url"
-        )
-    return SourceServerError(
-        f"the endpoint refused the query ({detail})",
-        source=url,
-        hint="check the spec's IRIs; report the query if it is valid",
-    )
+            raise transport_error(exc, self.client.url) from exc
 
 
 def _tsv_pieces(chunks: Iterator[bytes], where: str) -> Iterator[pa.Table]:

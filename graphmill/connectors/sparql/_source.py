@@ -27,12 +27,13 @@ from graphmill.connectors.sparql._settings import (
     check_query_url,
     endpoint_settings,
 )
+from graphmill.connectors.sparql._stream import StreamCursor, StreamReader
 from graphmill.errors import GraphmillError, MalformedResponseError
 from graphmill.spec import PipelineSpec
 
 #: what ``paging: auto`` picks per server, and the result cap the server is known to apply
 AUTO_PAGING: dict[str, tuple[str, int | None]] = {
-    "oxigraph": ("key-range", None),
+    "oxigraph": ("single-stream", None),
     "fuseki": ("key-range", None),
     "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
     "unknown": ("key-range", None),
@@ -136,22 +137,28 @@ class SparqlEndpointSource(GraphSource):
         )
 
     def _read_whole(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
-        """single-stream: one unpaged SELECT per unit, read as it streams, one page."""
-        if cursor is not None:
-            return  # the unit's only page is staged
-        terms = self._terms(unit, unit_query(self.spec, unit))
-        if self._truncated(unit, terms.num_rows, None):
-            raise self._capped_error(unit, terms.num_rows)
-        page = self._page(unit, terms, json.dumps({"paging": "single-stream"}))
-        if page is not None:
-            yield page
+        """single-stream: one unpaged SELECT per unit, cut into pages as it streams."""
+        assert self.client is not None
+        reader = StreamReader(
+            self.client,
+            unit_query(self.spec, unit),
+            unit_variables(self.spec, unit),
+            page_rows=self._page_rows(),
+            where=self._where(unit),
+            truncated=lambda rows: self._truncated(unit, rows, None),
+        )
+        for terms, state in reader.pages(StreamCursor.decode(cursor)):
+            page = self._page(unit, terms, state.encode())
+            if page is not None:
+                yield page
 
     def _read_offsets(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
         """offset: ORDER BY + LIMIT/OFFSET pages, cut at a vertex boundary."""
-        state = json.loads(cursor) if cursor else {"offset": 0, "limit": None}
+        state: dict[str, Any] = json.loads(cursor) if cursor else {"offset": 0, "limit": None}
         if state.get("finished"):
             return
-        offset, limit = int(state["offset"]), int(state["limit"] or self._page_rows())
+        offset = int(state["offset"])
+        limit = int(state["limit"]) if state.get("limit") else self._page_rows()
         first = unit_variables(self.spec, unit)[0]
         while True:
             query = unit_query(self.spec, unit, ordered=True, limit=limit, offset=offset)

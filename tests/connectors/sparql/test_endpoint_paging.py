@@ -3,6 +3,7 @@ caught; a dropped connection is retried or resumed to the identical snapshot."""
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 from urllib.parse import urlsplit
 
@@ -11,8 +12,11 @@ import sparql_cases as cases
 from sparql_fakes import CappingProxy, CuttingRelay
 from sparql_helpers import endpoint, pull_spec, snapshot_files
 
-from graphmill.errors import MalformedResponseError, SourceUnavailableError
+from graphmill.connectors import open_source
+from graphmill.connectors.base import WorkUnit
+from graphmill.errors import GraphmillError, MalformedResponseError, SourceUnavailableError
 from graphmill.snapshot import Snapshot
+from graphmill.spec import spec_from_dict
 
 pytestmark = pytest.mark.servers
 P = cases.PAGING_NS
@@ -110,35 +114,70 @@ def _through(relay: CuttingRelay, url: str) -> str:
     return parts._replace(netloc=f"127.0.0.1:{relay.port}").geturl()
 
 
-def test_a_dropped_connection_is_retried(case_oxigraph, tmp_path, reference):
-    port = urlsplit(case_oxigraph.query_url).port
+@pytest.mark.parametrize("paging", ["single-stream", "key-range"])
+def test_a_dropped_connection_is_retried(case_server, tmp_path, paging):
+    whole = tmp_path / "whole"
+    pull_spec(_doc(endpoint(case_server.query_url, paging="single-stream"), whole))
+    port = urlsplit(case_server.query_url).port
     with CuttingRelay(port, after_bytes=30_000, cuts=2) as relay:
         source = endpoint(
-            _through(relay, case_oxigraph.query_url),
+            _through(relay, case_server.query_url),
+            paging=paging,
             page_size=100,
             retries={"attempts": 4, "initial_wait_s": 0.01, "max_wait_s": 0.1},
         )
-        pull_spec(_doc(source, tmp_path))
+        pull_spec(_doc(source, tmp_path / "cut"))
     assert relay.cuts_done == 2
-    assert snapshot_files(tmp_path / "snapshot") == snapshot_files(reference)
+    assert snapshot_files(tmp_path / "cut" / "snapshot") == snapshot_files(whole / "snapshot")
 
 
-def test_a_pull_cut_off_resumes_to_the_identical_snapshot(case_oxigraph, tmp_path, reference):
-    port = urlsplit(case_oxigraph.query_url).port
+def _half_done_units(staging: Path) -> list[str]:
+    states = {
+        p.parent.name: json.loads(p.read_text()) for p in staging.glob("units/*/checkpoint.json")
+    }
+    return [name for name, state in states.items() if state["pages"] and not state["done"]]
+
+
+@pytest.mark.parametrize("paging", ["single-stream", "key-range"])
+def test_a_pull_cut_off_resumes_to_the_identical_snapshot(
+    case_server, tmp_path, paging, monkeypatch
+):
+    # parse the streamed answers in small pieces, so pages are staged before the cut
+    monkeypatch.setattr("graphmill.connectors.sparql._http.PIECE_BYTES", 2048)
     full = tmp_path / "full"
-    _, whole = pull_spec(_doc(endpoint(case_oxigraph.query_url, page_size=100), full))
+    _, whole = pull_spec(_doc(endpoint(case_server.query_url, paging=paging, page_size=100), full))
+    port = urlsplit(case_server.query_url).port
     with CuttingRelay(port, after_bytes=60_000, cuts=1) as relay:
         source = endpoint(
-            _through(relay, case_oxigraph.query_url), page_size=100, retries={"attempts": 1}
+            _through(relay, case_server.query_url),
+            paging=paging,
+            page_size=100,
+            retries={"attempts": 1},
         )
         doc = _doc(source, tmp_path / "cut")
         with pytest.raises(SourceUnavailableError, match="broke off") as failure:
             pull_spec(doc)
         assert failure.value.exit_code == 3 and relay.cuts_done == 1
         assert not (tmp_path / "cut" / "snapshot").exists()
-        staged = list((tmp_path / "cut").glob("snapshot.staging/units/*/part-*.parquet"))
-        assert staged  # some pages were kept
+        assert _half_done_units(tmp_path / "cut" / "snapshot.staging")  # stopped mid-unit
         _, resumed = pull_spec(doc)  # the relay passes everything now
     assert resumed.units_resumed >= 1
     assert resumed.pages_read < whole.pages_read
-    assert snapshot_files(tmp_path / "cut" / "snapshot") == snapshot_files(reference)
+    assert snapshot_files(tmp_path / "cut" / "snapshot") == snapshot_files(full / "snapshot")
+
+
+def test_a_stream_in_another_order_is_not_resumed(case_oxigraph, tmp_path):
+    spec = spec_from_dict(
+        _doc(endpoint(case_oxigraph.query_url, paging="single-stream", page_size=100), tmp_path)
+    )
+    unit = WorkUnit("vertices", "thing", facet="label")
+    with open_source(spec) as source:
+        pages = list(source.read(unit))
+        assert len(pages) > 3
+        again = list(source.read(unit, pages[1].cursor))  # resuming as the stager would
+        assert sum(p.batch.num_rows for p in pages[2:]) == sum(p.batch.num_rows for p in again)
+        state = json.loads(pages[1].cursor)
+        forged = json.dumps({**state, "digest": "0" * 64})
+        with pytest.raises(GraphmillError, match="cannot resume") as info:
+            list(source.read(unit, forged))
+    assert "key-range" in info.value.one_line()

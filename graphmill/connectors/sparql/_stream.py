@@ -1,0 +1,159 @@
+"""single-stream: one unpaged SELECT per unit, cut into pages as it streams.
+
+Pages are cut at ``page_size`` rows, moved forward to the next change of the unit's first
+variable, so the rows of one vertex (or one edge source), when the server sends them
+together, share a page. The cursor holds the number of rows staged and a SHA-256 digest of
+them in answer order. To resume -- after a dropped connection within the pull, or in the
+next run -- the same SELECT is sent again, the staged rows are skipped while their digest is
+recomputed, and reading goes on only if the digests agree: SPARQL promises no order for an
+unordered SELECT, so a server that answers in another order is caught, not trusted.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from graphmill.connectors.sparql._failures import TransientError
+from graphmill.connectors.sparql._http import SparqlClient
+from graphmill.errors import GraphmillError
+
+
+@dataclass
+class StreamCursor:
+    rows: int = 0
+    digest: str = hashlib.sha256().hexdigest()
+    finished: bool = False
+
+    def encode(self) -> str:
+        data = {"paging": "single-stream", "rows": self.rows, "digest": self.digest}
+        return json.dumps({**data, "finished": self.finished}, sort_keys=True)
+
+    @classmethod
+    def decode(cls, text: str | None) -> StreamCursor:
+        if text is None:
+            return cls()
+        data = json.loads(text)
+        return cls(int(data["rows"]), str(data["digest"]), bool(data.get("finished")))
+
+
+def _feed(digest: hashlib._Hash, terms: pa.Table, variables: tuple[str, ...]) -> None:
+    """Add rows to the running digest: every variable's text, kind, datatype and language."""
+    if not terms.num_rows:
+        return
+    columns = []
+    for name in variables:
+        for suffix in ("", "_kind", "_datatype", "_lang"):
+            columns.append(pc.fill_null(terms.column(name + suffix), "\x00"))
+    rows = pc.binary_join_element_wise(*columns, "\x1f").combine_chunks()
+    offsets = pa.array([0, len(rows)], pa.int32())
+    joined = pc.binary_join(pa.ListArray.from_arrays(offsets, rows), "\x1e")[0].as_py()
+    digest.update(joined.encode("utf-8") + b"\x1e")
+
+
+def _boundary(keys: pa.Array, start: int) -> int | None:
+    """The first index >= ``start`` (>= 1) where the key differs from the one before."""
+    if len(keys) <= start:
+        return None
+    changed = pc.not_equal(keys.slice(start), keys.slice(start - 1, len(keys) - start))
+    hits = pc.indices_nonzero(pc.fill_null(changed, True))
+    return start + hits[0].as_py() if len(hits) else None
+
+
+class StreamReader:
+    """Reads one unit as a single streamed SELECT; yields (term table, cursor) per page."""
+
+    def __init__(
+        self,
+        client: SparqlClient,
+        query: str,
+        variables: tuple[str, ...],
+        *,
+        page_rows: int,
+        where: str,
+        truncated: Callable[[int], bool],
+    ) -> None:
+        self.client, self.query, self.variables = client, query, variables
+        self.page_rows = max(1, page_rows)
+        self.where = where
+        self.truncated = truncated
+
+    def pages(self, cursor: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor]]:
+        state = StreamCursor(cursor.rows, cursor.digest, cursor.finished)
+        attempt = 1
+        while not state.finished:
+            try:
+                yield from self._one_pass(state)
+            except TransientError as exc:
+                if attempt >= self.client.settings.retries.attempts:
+                    exc.error.message += f" (after {attempt} tries)"
+                    raise exc.error from exc
+                time.sleep(self.client.wait_before(attempt))
+                attempt += 1
+
+    def _one_pass(self, state: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor]]:
+        """One request: skip and check the staged rows, then yield pages; updates ``state``."""
+        running = hashlib.sha256()
+        to_skip = state.rows
+        pending: list[pa.Table] = []
+        pending_rows = 0
+        for terms in self.client.stream(self.query, where=self.where):
+            if to_skip:
+                skipped = terms.slice(0, to_skip)
+                _feed(running, skipped, self.variables)
+                to_skip -= skipped.num_rows
+                terms = terms.slice(skipped.num_rows)
+                if to_skip == 0 and running.hexdigest() != state.digest:
+                    raise self._reordered()
+            if terms.num_rows:
+                pending.append(terms)
+                pending_rows += terms.num_rows
+            while pending_rows >= self.page_rows:
+                table = pa.concat_tables(pending) if len(pending) > 1 else pending[0]
+                keys = table.column(self.variables[0]).combine_chunks()
+                cut = _boundary(keys, self.page_rows)
+                if cut is None:
+                    break  # the page's last key goes on: wait for more rows
+                page, rest = table.slice(0, cut), table.slice(cut)
+                pending, pending_rows = [rest], rest.num_rows
+                _feed(running, page, self.variables)
+                state.rows += page.num_rows
+                state.digest = running.hexdigest()
+                yield page, StreamCursor(state.rows, state.digest)
+        if to_skip:
+            raise self._reordered()
+        last = pa.concat_tables(pending) if pending else None
+        if last is not None and last.num_rows:
+            _feed(running, last, self.variables)
+            state.rows += last.num_rows
+            state.digest = running.hexdigest()
+        if self.truncated(state.rows):
+            raise self._capped(state.rows)
+        state.finished = True
+        if last is not None and last.num_rows:
+            yield last, StreamCursor(state.rows, state.digest, finished=True)
+
+    def _reordered(self) -> GraphmillError:
+        return GraphmillError(
+            "cannot resume: the endpoint no longer returns the rows staged so far first "
+            "(an unordered SELECT has no promised order, or the data changed)",
+            source=self.where,
+            hint="delete the '.staging' folder beside the snapshot and pull again, or use "
+            "source.paging: key-range, which does not rely on result order",
+        )
+
+    def _capped(self, rows: int) -> GraphmillError:
+        from graphmill.errors import MalformedResponseError
+
+        return MalformedResponseError(
+            f"the endpoint returned exactly {rows} rows but holds more: it caps results "
+            "(e.g. Virtuoso's ResultSetMaxRows)",
+            source=self.where,
+            hint="raise the server's result limit, or use source.paging: key-range",
+        )
