@@ -18,12 +18,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
-import pyarrow as pa
-
 from graphmill.connectors.base import (
-    SOURCE_ID,
-    TARGET_ID,
-    VERTEX_ID,
     GraphSource,
     Page,
     Provenance,
@@ -31,11 +26,11 @@ from graphmill.connectors.base import (
     WorkUnit,
 )
 from graphmill.connectors.gremlin import _cursor, _discovery, _traversals
-from graphmill.connectors.gremlin._client import Channel, ChannelPool
+from graphmill.connectors.gremlin._client import ChannelPool
 from graphmill.connectors.gremlin._errors import call_with_retries
+from graphmill.connectors.gremlin._pages import StreamPager, rows_to_batch
 from graphmill.connectors.gremlin._settings import GremlinSettings
 from graphmill.connectors.gremlin._traversals import Scope
-from graphmill.connectors.gremlin._values import id_strings, meta_json, property_array
 from graphmill.errors import InputError
 from graphmill.spec import PipelineSpec, PropertySpec
 
@@ -109,8 +104,11 @@ class GremlinSource(GraphSource):
                 if prop.name.endswith(META_SUFFIX) and owner is not None and owner is not prop:
                     meta.append((prop.name, owner.source_key))
                     plain.remove(prop)
-        bounds = self._bounds.get((unit.table, unit.name))
-        if bounds is not None and unit.partitions > 1:
+        if unit.partitions > 1:
+            key = (unit.table, unit.name)
+            if key not in self._bounds:  # read() without plan(): find the same bounds
+                self._bounds[key] = self._partition_bounds(unit, unit.partitions)
+            bounds = self._bounds[key]
             scope = scope.with_bounds(bounds[unit.partition], bounds[unit.partition + 1])
         return _UnitShape(scope, tuple(plain), tuple(meta))
 
@@ -149,13 +147,25 @@ class GremlinSource(GraphSource):
                 hint=f"the graph changed: delete {self.spec.output.snapshot}.staging, pull again",
                 source=self.settings.url,
             )
-        reader = _UnitReader(self, shape, state.after)
+        keys = [p.source_key for p in shape.properties]
+        metas = [key for _name, key in shape.meta_columns]
+
+        def traversal(after: Any) -> Any:
+            return _traversals.rows(shape.scope, keys, metas, after=after).bytecode
+
+        reader = StreamPager(self.pool, traversal, self.settings.page_size, state.after)
         try:
             while True:
                 rows = call_with_retries(self.settings, reader.next_rows)
                 if not rows:
                     break
-                batch, kinds = self._batch(unit, shape, rows)
+                batch, kinds = rows_to_batch(
+                    rows,
+                    f"{unit.table} {unit.name}",
+                    shape.scope.edges,
+                    shape.properties,
+                    [name for name, _key in shape.meta_columns],
+                )
                 state = state.advanced(rows[-1][0], len(rows))
                 yield Page(batch, cursor=_cursor.encode(state), value_kinds=kinds or None)
         finally:
@@ -168,31 +178,6 @@ class GremlinSource(GraphSource):
                 f"{self.spec.output.snapshot}.staging and pull again when the graph is stable",
                 source=self.settings.url,
             )
-
-    def _batch(
-        self, unit: WorkUnit, shape: _UnitShape, rows: list[list[Any]]
-    ) -> tuple[pa.RecordBatch, dict[str, dict[str, int]]]:
-        columns = list(zip(*rows, strict=True))
-        what = f"{unit.table} {unit.name}"
-        arrays: dict[str, pa.Array] = {}
-        if shape.scope.edges:
-            arrays[SOURCE_ID] = id_strings(columns[1], what=f"{what} source vertex")
-            arrays[TARGET_ID] = id_strings(columns[2], what=f"{what} target vertex")
-            id_strings(columns[0], what=what)  # edge ids: checked for one type, not kept
-            first = 3
-        else:
-            arrays[VERTEX_ID] = id_strings(columns[0], what=what)
-            first = 1
-        kinds: dict[str, dict[str, int]] = {}
-        for n, prop in enumerate(shape.properties):
-            array, found = property_array(columns[first + n], multi=prop.multi)
-            arrays[prop.name] = array
-            if found:
-                kinds[prop.name] = found
-        first += len(shape.properties)
-        for n, (name, _key) in enumerate(shape.meta_columns):
-            arrays[name] = meta_json(columns[first + n])
-        return pa.RecordBatch.from_pydict(arrays), kinds
 
     # -- description -----------------------------------------------------------------
     def provenance(self) -> Provenance:
@@ -222,57 +207,3 @@ class GremlinSource(GraphSource):
     def discover(self) -> dict[str, Any]:
         """Labels with counts, edge label pairs, property keys and kinds from a sample."""
         return _discovery.discover(self.pool, self.settings.schema_sample)
-
-
-class _UnitReader:
-    """One unit's open stream; after a failure it reopens after the last id it returned."""
-
-    def __init__(self, source: GremlinSource, shape: _UnitShape, after: Any) -> None:
-        self.source, self.shape, self.after = source, shape, after
-        self.page_size = source.settings.page_size
-        self._channel: Channel | None = None
-        self._batches: Iterator[list[Any]] | None = None
-        self._buffer: list[Any] = []
-        self._ended = False
-
-    def _open(self) -> None:
-        keys = [p.source_key for p in self.shape.properties]
-        metas = [key for _name, key in self.shape.meta_columns]
-        traversal = _traversals.rows(self.shape.scope, keys, metas, after=self.after)
-        channel = self.source.pool.take()
-        self._channel = channel
-        self._batches = channel.stream(traversal.bytecode)
-
-    def next_rows(self) -> list[Any]:
-        """Up to ``page_size`` rows after ``self.after``; [] at the end. On any error the
-        stream is dropped, so a retry starts afresh after the last returned id."""
-        try:
-            while len(self._buffer) < self.page_size and not self._ended:
-                if self._batches is None:
-                    self._open()
-                assert self._batches is not None
-                batch = next(self._batches, None)
-                if batch is None:
-                    self._ended = True
-                    self._release(broken=False)
-                else:
-                    self._buffer.extend(batch)
-        except BaseException:
-            self._buffer = []
-            self._release(broken=True)
-            raise
-        rows, self._buffer = self._buffer[: self.page_size], self._buffer[self.page_size :]
-        if rows:
-            self.after = rows[-1][0]
-        return rows
-
-    def _release(self, *, broken: bool) -> None:
-        channel, self._channel, self._batches = self._channel, None, None
-        if channel is not None:
-            channel.broken = channel.broken or broken
-            self.source.pool.give_back(channel)
-
-    def close(self) -> None:
-        if self._batches is not None:
-            self._batches.close()  # type: ignore[attr-defined]
-        self._release(broken=True)

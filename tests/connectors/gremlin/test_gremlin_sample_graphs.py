@@ -129,3 +129,20 @@ def test_modern_graph_checks_and_builds(gremlin_server, tmp_path):
     assert result.build is not None
     assert result.build.vertex_counts == {"person": 4, "software": 2}
     assert (spec.output.bundle / "manifest.json").is_file()
+
+
+def test_partitions_read_without_planning_still_split_the_label(gremlin_server, tmp_path):
+    from graphmill.connectors.base import WorkUnit
+
+    spec = gremlin_spec(
+        tmp_path, gremlin_server.url, DEAD_TYPES, DEAD_RELATIONS, traversal_source="g_dead"
+    )
+    with open_source(spec) as source:
+        ids = [
+            vid
+            for part in range(3)
+            for page in source.read(WorkUnit("vertices", "song", part, 3))
+            for vid in page.batch.column("vertex_id").to_pylist()
+        ]
+    songs = gremlin_server.submit("g_dead.V().hasLabel('song').count()")[0]  # server's count
+    assert len(ids) == len(set(ids)) == songs

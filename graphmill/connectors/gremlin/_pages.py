@@ -1,0 +1,102 @@
+"""Pages of the gremlin source: a stream cut into pages, and rows into Arrow batches."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Sequence
+from typing import Any
+
+import pyarrow as pa
+from gremlin_python.process.traversal import Bytecode
+
+from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.connectors.gremlin._client import Channel, ChannelPool
+from graphmill.connectors.gremlin._values import id_strings, meta_json, property_array
+from graphmill.spec import PropertySpec
+
+
+def rows_to_batch(
+    rows: list[list[Any]],
+    what: str,
+    edges: bool,
+    properties: Sequence[PropertySpec],
+    meta_columns: Sequence[str],
+) -> tuple[pa.RecordBatch, dict[str, dict[str, int]]]:
+    """A page in the snapshot's column convention from rows in the layout of
+    :func:`._traversals.rows`, and the kind counts of columns that mix kinds."""
+    columns = list(zip(*rows, strict=True))
+    arrays: dict[str, pa.Array] = {}
+    if edges:
+        arrays[SOURCE_ID] = id_strings(columns[1], what=f"{what} source vertex")
+        arrays[TARGET_ID] = id_strings(columns[2], what=f"{what} target vertex")
+        id_strings(columns[0], what=what)  # edge ids: checked for one type, not kept
+        first = 3
+    else:
+        arrays[VERTEX_ID] = id_strings(columns[0], what=what)
+        first = 1
+    kinds: dict[str, dict[str, int]] = {}
+    for n, prop in enumerate(properties):
+        array, found = property_array(columns[first + n], multi=prop.multi)
+        arrays[prop.name] = array
+        if found:
+            kinds[prop.name] = found
+    first += len(properties)
+    for n, name in enumerate(meta_columns):
+        arrays[name] = meta_json(columns[first + n])
+    return pa.RecordBatch.from_pydict(arrays), kinds
+
+
+class StreamPager:
+    """One unit's open stream, cut into pages; after a failure it reopens after the last
+    id it returned (``traversal(after)`` builds the request)."""
+
+    def __init__(
+        self,
+        pool: ChannelPool,
+        traversal: Callable[[Any], Bytecode],
+        page_size: int,
+        after: Any,
+    ) -> None:
+        self.pool, self.traversal, self.page_size, self.after = pool, traversal, page_size, after
+        self._channel: Channel | None = None
+        self._batches: Iterator[list[Any]] | None = None
+        self._buffer: list[Any] = []
+        self._ended = False
+
+    def _open(self) -> None:
+        channel = self.pool.take()
+        self._channel = channel
+        self._batches = channel.stream(self.traversal(self.after))
+
+    def next_rows(self) -> list[Any]:
+        """Up to ``page_size`` rows after ``self.after``; [] at the end. On any error the
+        stream is dropped, so a retry starts afresh after the last returned id."""
+        try:
+            while len(self._buffer) < self.page_size and not self._ended:
+                if self._batches is None:
+                    self._open()
+                assert self._batches is not None
+                batch = next(self._batches, None)
+                if batch is None:
+                    self._ended = True
+                    self._release(broken=False)
+                else:
+                    self._buffer.extend(batch)
+        except BaseException:
+            self._buffer = []
+            self._release(broken=True)
+            raise
+        rows, self._buffer = self._buffer[: self.page_size], self._buffer[self.page_size :]
+        if rows:
+            self.after = rows[-1][0]
+        return rows
+
+    def _release(self, *, broken: bool) -> None:
+        channel, self._channel, self._batches = self._channel, None, None
+        if channel is not None:
+            channel.broken = channel.broken or broken
+            self.pool.give_back(channel)
+
+    def close(self) -> None:
+        if self._batches is not None:
+            self._batches.close()  # type: ignore[attr-defined]
+        self._release(broken=True)
