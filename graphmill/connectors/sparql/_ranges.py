@@ -21,7 +21,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from graphmill.connectors.rdf._queries import KeyRange
-from graphmill.errors import GraphmillError
+from graphmill.errors import SourceUnavailableError
 
 SAMPLE_CAP = 4096
 _BOUND = r"^(?P<bound>[\x21\x23-\x5b\x5d-\x7e]*)"  # printable ASCII without " and \
@@ -118,7 +118,7 @@ class RangeCursor:
             data.pop("paging")
             return cls(**data)
         except (ValueError, KeyError, TypeError) as exc:
-            raise GraphmillError(
+            raise SourceUnavailableError(
                 f"cannot resume from the staged cursor {text[:80]!r}",
                 hint="delete the '.staging' folder beside the snapshot and pull again",
             ) from exc

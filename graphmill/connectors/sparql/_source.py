@@ -90,15 +90,12 @@ class SparqlEndpointSource(GraphSource):
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if self.client is None:
             raise GraphmillError("the source is not open", hint="use it in a 'with' block")
-        if cursor is not None and json.loads(cursor).get("paging") != self.paging:
-            raise GraphmillError(
-                f"the staged pages of {unit.unit_id} were read with another paging strategy",
-                hint="delete the '.staging' folder beside the snapshot and pull again",
-            )
         if self._failure is not None:
             raise self._failure  # the server already failed: do not ask it again per unit
+        # a staged unit goes on with the strategy it was started with (auto may differ now)
+        paging = str(json.loads(cursor)["paging"]) if cursor is not None else self.paging
         reader = {"single-stream": self._read_whole, "offset": self._read_offsets}.get(
-            self.paging, self._read_ranges
+            paging, self._read_ranges
         )
         try:
             yield from reader(unit, cursor)

@@ -22,7 +22,7 @@ import pyarrow.compute as pc
 
 from graphmill.connectors.sparql._failures import TransientError
 from graphmill.connectors.sparql._http import SparqlClient
-from graphmill.errors import GraphmillError
+from graphmill.errors import GraphmillError, MalformedResponseError, SourceUnavailableError
 
 
 @dataclass
@@ -140,7 +140,7 @@ class StreamReader:
             yield last, StreamCursor(state.rows, state.digest, finished=True)
 
     def _reordered(self) -> GraphmillError:
-        return GraphmillError(
+        return SourceUnavailableError(
             "cannot resume: the endpoint no longer returns the rows staged so far first "
             "(an unordered SELECT has no promised order, or the data changed)",
             source=self.where,
@@ -149,8 +149,6 @@ class StreamReader:
         )
 
     def _capped(self, rows: int) -> GraphmillError:
-        from graphmill.errors import MalformedResponseError
-
         return MalformedResponseError(
             f"the endpoint returned exactly {rows} rows but holds more: it caps results "
             "(e.g. Virtuoso's ResultSetMaxRows)",

@@ -180,4 +180,21 @@ def test_a_stream_in_another_order_is_not_resumed(case_oxigraph, tmp_path):
         forged = json.dumps({**state, "digest": "0" * 64})
         with pytest.raises(GraphmillError, match="cannot resume") as info:
             list(source.read(unit, forged))
-    assert "key-range" in info.value.one_line()
+    assert "key-range" in info.value.one_line() and info.value.exit_code == 3
+
+
+def test_a_unit_goes_on_with_the_strategy_it_was_started_with(case_oxigraph, tmp_path):
+    def spec(**options):
+        return spec_from_dict(
+            _doc(endpoint(case_oxigraph.query_url, page_size=100, **options), tmp_path)
+        )
+
+    unit = WorkUnit("edges", "thing.linked.thing")
+    with open_source(spec(paging="key-range")) as source:
+        pages = list(source.read(unit))
+    assert len(pages) > 3
+    with open_source(spec()) as source:
+        assert source.paging == "single-stream"  # what auto picks on Oxigraph
+        rest = list(source.read(unit, pages[1].cursor))
+    assert sum(p.batch.num_rows for p in rest) == sum(p.batch.num_rows for p in pages[2:])
+    assert all(json.loads(p.cursor)["paging"] == "key-range" for p in rest)
