@@ -5,24 +5,27 @@ sources (:mod:`graphmill.connectors.rdf`), so an endpoint holding the same data 
 gives a byte-identical snapshot. Paging strategies (``source.paging``; ``auto`` picks per
 server, see ``AUTO_PAGING``):
 
-* ``single-stream`` -- ``auto`` on Oxigraph. One unpaged SELECT per unit, cut into pages of
-  ``page_size`` rows as it streams (at a change of subject); the cursor counts the staged rows
-  and holds their digest. Resuming sends the SELECT again, skips the staged rows and checks
-  their digest, so an answer in another order is refused rather than trusted.
-* ``key-range`` -- ``auto`` on Fuseki, Virtuoso and unknown servers. Each vertex type's
-  members are streamed once and sampled; a unit that fits a page is one unfiltered SELECT,
-  a bigger one is read in slices ``FILTER(STR(?s) >= low && STR(?s) < high)`` of about
-  ``page_size`` rows, one page per slice, blank-node subjects as a slice of their own. The
-  cursor is the next slice's low bound: no result order is assumed anywhere.
+* ``single-stream`` -- ``auto`` on Oxigraph and Fuseki, which both stream their answers.
+  One unpaged SELECT per unit, cut into pages of ``page_size`` rows as it streams (at a
+  change of subject); the cursor counts the staged rows and holds their digest. Resuming
+  sends the SELECT again, skips the staged rows and checks their digest, so an answer in
+  another order is refused (exit 3, "use key-range") rather than trusted.
+* ``key-range`` -- ``auto`` on Virtuoso and unknown servers. Each vertex type's members are
+  streamed once and sampled; a unit that fits a page is one unfiltered SELECT, a bigger one
+  is read in slices ``FILTER(STR(?s) >= low && STR(?s) < high)`` of about ``page_size``
+  rows, one page per slice, blank-node subjects as a slice of their own. The cursor is the
+  next slice's low bound: no result order is assumed anywhere, and a slice cut short by a
+  server's result cap is split.
 * ``offset`` -- ``ORDER BY`` + ``LIMIT``/``OFFSET`` pages cut at subject boundaries.
 
-Why (figures from ``bench/bench_sparql.py``, about 1M triples, this project's machine):
-an ordered 100k-row page costs about 2 minutes on Oxigraph at any offset and about 5 s on
-Fuseki; unordered pages are cheap but SPARQL promises them no stable order. On Oxigraph a
-key-range slice costs a scan of all the type's members (``STR()`` is dear there: a 10k-row
-slice of a 66k-member facet took 0.35 s, the whole facet 0.5 s), so many small slices grow
-quadratically, while its streamed answers come in a stable index order. Fuseki's slices
-are cheap.
+Why (``bench/bench_sparql.py``, about 1M triples, on this project's 2-core machine): an
+ordered 100k-row page cost 86-122 s on Oxigraph at any offset, 2.5-5 s on Fuseki; unordered
+pages are cheap (under 1 s) but SPARQL promises them no stable order. On Oxigraph a key-range
+slice costs a scan of all the type's members (``STR()`` is dear there: a 10k-row slice of a
+66k-member facet took 0.35 s, the whole facet 0.5 s), so 10k-row slices grew 27x from 100k
+to 1M triples; single-stream grew 10x (Oxigraph) and 4x (Fuseki), at 0.8x and 0.7x the
+speed of one bare streamed ``SELECT ?s ?p ?o``; the client's Arrow memory stayed within the
+parse piece (2 MiB of text) and one page (about 25 MiB at 10k-row pages).
 
 Every strategy checks for silently truncated answers: a result whose size is a known cap or
 a round number of at least 1000 is probed with ``OFFSET n LIMIT 1``; a cut key-range slice

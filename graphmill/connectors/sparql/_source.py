@@ -34,7 +34,7 @@ from graphmill.spec import PipelineSpec
 #: what ``paging: auto`` picks per server, and the result cap the server is known to apply
 AUTO_PAGING: dict[str, tuple[str, int | None]] = {
     "oxigraph": ("single-stream", None),
-    "fuseki": ("key-range", None),
+    "fuseki": ("single-stream", None),
     "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
     "unknown": ("key-range", None),
 }

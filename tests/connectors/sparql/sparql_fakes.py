@@ -12,6 +12,7 @@
 from __future__ import annotations
 
 import contextlib
+import json
 import socket
 import threading
 import time
@@ -234,3 +235,66 @@ class CuttingRelay:
                     sock.shutdown(socket.SHUT_RDWR)
                 with contextlib.suppress(OSError):
                     sock.close()
+
+
+class RecordingEndpoint(_Server):
+    """Answers every SELECT with an empty result (TSV, or JSON if asked) and
+    records each request as (method, content type, Accept, query). With ``refuse_direct_post``
+    it answers 415 to ``application/sparql-query`` bodies; with ``tls`` = (cert, key) it
+    speaks HTTPS."""
+
+    def __init__(self, *, refuse_direct_post: bool = False, tls: tuple[str, str] | None = None):
+        self.requests: list[tuple[str, str, str, str]] = []
+        self.scheme = "https" if tls else "http"
+        outer = self
+
+        class Handler(BaseHTTPRequestHandler):
+            def log_message(self, *args: object) -> None:
+                return None
+
+            def do_GET(self) -> None:
+                self._serve()
+
+            def do_POST(self) -> None:
+                self._serve()
+
+            def _serve(self) -> None:
+                content_type = self.headers.get("Content-Type", "")
+                query = _query_of(self)
+                outer.requests.append(
+                    (self.command, content_type, self.headers.get("Accept", ""), query)
+                )
+                if refuse_direct_post and content_type.startswith("application/sparql-query"):
+                    body, status, kind = b"use a form", 415, "text/plain"
+                elif query.lstrip().upper().startswith("ASK"):
+                    body, status, kind = ASK_TRUE, 200, "application/sparql-results+json"
+                else:
+                    head = query.split("WHERE", 1)[0].split()
+                    names = [w for w in head if w.startswith("?")]
+                    body, status, kind = ("\t".join(names) + "\n").encode(), 200, TSV_TYPE
+                    if "json" in self.headers.get("Accept", ""):
+                        doc = {
+                            "head": {"vars": [n[1:] for n in names]},
+                            "results": {"bindings": []},
+                        }
+                        body, kind = json.dumps(doc).encode(), "application/sparql-results+json"
+                self.send_response(status)
+                self.send_header("Content-Type", kind)
+                self.send_header("Content-Length", str(len(body)))
+                self.end_headers()
+                self.wfile.write(body)
+
+        super().__init__(Handler)
+        if tls:
+            import ssl
+
+            context = ssl.SSLContext(ssl.PROTOCOL_TLS_SERVER)
+            context.load_cert_chain(*tls)
+            self.httpd.socket = context.wrap_socket(self.httpd.socket, server_side=True)
+
+    @property
+    def url(self) -> str:
+        return f"{self.scheme}://{HOST}:{self.port}/sparql"
+
+
+TSV_TYPE = "text/tab-separated-values; charset=utf-8"
