@@ -19,13 +19,13 @@ server, see ``AUTO_PAGING``):
 * ``offset`` -- ``ORDER BY`` + ``LIMIT``/``OFFSET`` pages cut at subject boundaries.
 
 Why (``bench/bench_sparql.py``, about 1M triples, on this project's 2-core machine): an
-ordered 100k-row page cost 86-122 s on Oxigraph at any offset, 2.5-5 s on Fuseki; unordered
+ordered 100k-row page cost 79-122 s on Oxigraph at any offset, 2.5-5 s on Fuseki; unordered
 pages are cheap (under 1 s) but SPARQL promises them no stable order. On Oxigraph a key-range
 slice costs a scan of all the type's members (``STR()`` is dear there: a 10k-row slice of a
-66k-member facet took 0.35 s, the whole facet 0.5 s), so 10k-row slices grew 27x from 100k
-to 1M triples; single-stream grew 10x (Oxigraph) and 4x (Fuseki), at 0.8x and 0.7x the
-speed of one bare streamed ``SELECT ?s ?p ?o``; the client's Arrow memory stayed within the
-parse piece (2 MiB of text) and one page (about 25 MiB at 10k-row pages).
+66k-member facet took 0.35 s, the whole facet 0.5 s), so with 10k-row slices the time grew
+28x from 100k to 1M triples; single-stream grew 10x (Oxigraph) and 4.7x (Fuseki), at 0.8-0.9x
+the speed of one bare streamed ``SELECT ?s ?p ?o``, and the client's Arrow memory stayed
+within the parse piece (2 MiB of text) and one page (about 25 MiB with 10k-row pages).
 
 Every strategy checks for silently truncated answers: a result whose size is a known cap or
 a round number of at least 1000 is probed with ``OFFSET n LIMIT 1``; a cut key-range slice

@@ -137,3 +137,14 @@ def _terms(node: object):
             stack.extend(item.values())
         elif isinstance(item, (list, tuple, set)):
             stack.extend(item)
+
+
+def test_the_registry_finds_the_source_and_its_capabilities():
+    import graphmill.connectors.sparql as package
+    from graphmill.connectors import source_class
+
+    assert source_class("sparql-endpoint") is SparqlEndpointSource
+    assert package.__all__ == sorted(package.__all__)
+    caps = SparqlEndpointSource.capabilities
+    assert caps.can_resume and not caps.knows_schema and caps.max_concurrency in (1, 2)
+    assert set(package.AUTO_PAGING) == {"oxigraph", "fuseki", "virtuoso", "unknown"}
