@@ -189,9 +189,12 @@ def pull(
                 for unit in units:
                     run(unit)
             else:
-                with ThreadPoolExecutor(max_workers=workers) as pool:
+                pool = ThreadPoolExecutor(max_workers=workers)
+                try:
                     for future in [pool.submit(run, unit) for unit in units]:
                         future.result()
+                finally:  # after a failure, units not yet started are not started
+                    pool.shutdown(wait=True, cancel_futures=True)
             provenance = source.provenance().to_dict()
             discovery = source.discover()
     except BaseException as exc:
