@@ -14,14 +14,16 @@ EX = "http://e.test/"
 FAST_RETRIES = {"attempts": 2, "initial_wait_s": 0.01, "max_wait_s": 0.05}
 
 
-def small_spec_doc(source: dict[str, Any], out: Path, **rdf: Any) -> dict[str, Any]:
+def small_spec_doc(
+    source: dict[str, Any], out: Path, *, namespace: str = EX, **rdf: Any
+) -> dict[str, Any]:
     """A spec with one vertex type (``ex:Thing``, properties ``label`` and ``size``) and one
-    relation ``thing.linked.thing``."""
+    relation ``thing.linked.thing``; ``ex:`` stands for ``namespace``."""
     return {
         "spec_version": 1,
         "name": "small",
         "source": source,
-        "rdf": {"prefixes": {"ex": EX}, **rdf},
+        "rdf": {"prefixes": {"ex": namespace}, **rdf},
         "vertex_types": {
             "thing": {
                 "match": "ex:Thing",

@@ -10,7 +10,7 @@ from urllib.parse import urlsplit
 import pytest
 import sparql_cases as cases
 from sparql_fakes import CappingProxy, CuttingRelay
-from sparql_helpers import endpoint, pull_spec, snapshot_files
+from sparql_helpers import endpoint, pull_spec, small_spec_doc, snapshot_files
 
 from graphmill.connectors import open_source
 from graphmill.connectors.base import WorkUnit
@@ -24,22 +24,7 @@ THINGS, BLANKS = 700, 40  # paging_ntriples() defaults
 
 
 def _doc(source: dict, out: Path) -> dict:
-    return {
-        "spec_version": 1,
-        "source": source,
-        "rdf": {"prefixes": {"ex": P}},
-        "vertex_types": {
-            "thing": {
-                "match": "ex:Thing",
-                "properties": {
-                    "label": {"from": "ex:label", "multi": True},
-                    "size": {"from": "ex:size"},
-                },
-            }
-        },
-        "relations": [{"from": "thing", "name": "linked", "to": "thing", "match": "ex:linked"}],
-        "output": {"bundle": str(out / "bundle"), "snapshot": str(out / "snapshot")},
-    }
+    return small_spec_doc(source, out, namespace=P)
 
 
 def _without_blanks(root: Path) -> dict[str, list[dict]]:
