@@ -46,6 +46,7 @@ from graphmill.connectors.base import (
     WorkUnit,
 )
 from graphmill.errors import BundleIntegrityError, InputError, SourceUnavailableError
+from graphmill.privacy import personal_data_warnings
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 
 SNAPSHOT_FORMAT = 1
@@ -372,6 +373,9 @@ def publish_snapshot(
                 )
             rel_path = f"vertices/{name}.parquet"
             write_parquet(table, scratch / rel_path)
+            warnings += personal_data_warnings(
+                name, table, {p.name: p.source_key for p in vt.properties}
+            )
             vertex_counts[name] = table.num_rows
             tables.append(_table_entry("vertices", name, rel_path, scratch, table, kinds))
         for rel in spec.relations:
@@ -382,6 +386,9 @@ def publish_snapshot(
             )
             rel_path = f"edges/{dotted}.parquet"
             write_parquet(table, scratch / rel_path)
+            warnings += personal_data_warnings(
+                dotted, table, {p.name: p.source_key for p in rel.properties}
+            )
             edge_counts[dotted] = table.num_rows
             tables.append(_table_entry("edges", dotted, rel_path, scratch, table, kinds))
         document = {
