@@ -22,6 +22,23 @@ from urllib.parse import parse_qs, urlsplit
 
 import httpx
 
+
+class _QuietHandler(BaseHTTPRequestHandler):
+    """Serves GET and POST alike through ``_serve``, and logs nothing."""
+
+    def log_message(self, *args: object) -> None:
+        return None
+
+    def do_GET(self) -> None:
+        self._serve()
+
+    def do_POST(self) -> None:
+        self._serve()
+
+    def _serve(self) -> None:
+        raise NotImplementedError
+
+
 HOST = "127.0.0.1"
 ASK_TRUE = b'{"head": {}, "boolean": true}'
 
@@ -65,10 +82,7 @@ class FaultyEndpoint(_Server):
         self.selects = 0
         outer = self
 
-        class Handler(BaseHTTPRequestHandler):
-            def log_message(self, *args: object) -> None:
-                return None
-
+        class Handler(_QuietHandler):
             def _answer(self, status: int, content_type: str, body: bytes) -> None:
                 self.send_response(status)
                 self.send_header("Content-Type", content_type)
@@ -77,12 +91,6 @@ class FaultyEndpoint(_Server):
                     self.send_header("WWW-Authenticate", 'Basic realm="test"')
                 self.end_headers()
                 self.wfile.write(body)
-
-            def do_GET(self) -> None:
-                self._serve()
-
-            def do_POST(self) -> None:
-                self._serve()
 
             def _serve(self) -> None:
                 query = _query_of(self)
@@ -121,16 +129,7 @@ class CappingProxy(_Server):
         self.cut_results = 0
         outer = self
 
-        class Handler(BaseHTTPRequestHandler):
-            def log_message(self, *args: object) -> None:
-                return None
-
-            def do_GET(self) -> None:
-                self._serve()
-
-            def do_POST(self) -> None:
-                self._serve()
-
+        class Handler(_QuietHandler):
             def _serve(self) -> None:
                 query = _query_of(self)
                 accept = self.headers.get("Accept", "text/tab-separated-values")
@@ -248,16 +247,7 @@ class RecordingEndpoint(_Server):
         self.scheme = "https" if tls else "http"
         outer = self
 
-        class Handler(BaseHTTPRequestHandler):
-            def log_message(self, *args: object) -> None:
-                return None
-
-            def do_GET(self) -> None:
-                self._serve()
-
-            def do_POST(self) -> None:
-                self._serve()
-
+        class Handler(_QuietHandler):
             def _serve(self) -> None:
                 content_type = self.headers.get("Content-Type", "")
                 query = _query_of(self)
