@@ -29,6 +29,7 @@ from gremlin_python.driver.request import RequestMessage
 from gremlin_python.driver.resultset import ResultSet
 from gremlin_python.process.traversal import Bytecode, Traverser
 
+from graphmill.connectors.gremlin._binary import PageReader
 from graphmill.connectors.gremlin._errors import call_with_retries
 from graphmill.connectors.gremlin._settings import MAX_FRAME_BYTES, GremlinSettings
 
@@ -76,7 +77,7 @@ class Channel:
         self._transport = transport  # set first, so close() releases a half-open one
         transport.connect(self.settings.url, {useragent.userAgentHeader: useragent.userAgent})
         protocol = GremlinServerWSProtocol(
-            serializer.GraphBinarySerializersV1(),
+            serializer.GraphBinarySerializersV1(reader=PageReader()),
             username=self._username,
             password=self._password,
             max_content_length=MAX_FRAME_BYTES,
