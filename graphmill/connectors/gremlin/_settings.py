@@ -29,7 +29,7 @@ class GremlinSettings:
     partitions: int = 1
     concurrency: int = 2
     request_timeout_s: float = 120.0
-    batch_size: int = 1000
+    batch_size: int = 10000
     meta_properties: str = "drop"
     schema_sample: int = 1000
     attempts: int = 6
@@ -71,7 +71,7 @@ class GremlinSettings:
             partitions=src.get("partitions", 1),
             concurrency=src.get("concurrency", 2),
             request_timeout_s=float(src.get("request_timeout_s", 120)),
-            batch_size=src.get("batch_size", 1000),
+            batch_size=src.get("batch_size", 10000),
             meta_properties=src.get("meta_properties", "drop"),
             schema_sample=src.get("schema_sample", 1000),
             attempts=retries.get("attempts", 6),
