@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 
 import pyarrow as pa
@@ -109,15 +110,11 @@ def test_parquet_and_csv_give_identical_snapshots(tmp_path, write):
         table = table.cast(pa.schema([(f.name, pa.string()) for f in table.schema]))
         pq.write_table(table, tmp_path / f"{name}.parquet")
     spec_pq = spec_for(tmp_path, people="people.parquet", links="links.parquet")
-    spec_pq = spec_pq.__class__(
-        **{
-            **spec_pq.__dict__,
-            "output": spec_pq.output.__class__(
-                snapshot=tmp_path / "pq.snapshot",
-                bundle=tmp_path / "pq",
-                report=tmp_path / "r.json",
-            ),
-        }
+    spec_pq = dataclasses.replace(
+        spec_pq,
+        output=dataclasses.replace(
+            spec_pq.output, snapshot=tmp_path / "pq.snapshot", bundle=tmp_path / "pq"
+        ),
     )
     pull(spec_pq, open_source(spec_pq))
     a, b = Snapshot.open(spec_csv.output.snapshot), Snapshot.open(tmp_path / "pq.snapshot")
