@@ -65,9 +65,10 @@ class Pipeline:
     def from_file(cls, path: str | Path, *, progress: Progress | None = None) -> Pipeline:
         return cls(load_spec(path), progress=progress)
 
-    def pull(self) -> PullInfo:
-        """Extract the source into the staged snapshot (resuming an interrupted pull)."""
-        return _pull(self.spec, open_source(self.spec), progress=self.progress)
+    def pull(self, *, fresh: bool = False) -> PullInfo:
+        """Extract the source into the staged snapshot, resuming an interrupted pull unit by
+        unit where the unit's input is unchanged; ``fresh`` discards everything staged."""
+        return _pull(self.spec, open_source(self.spec), progress=self.progress, fresh=fresh)
 
     def snapshot(self) -> Snapshot:
         return Snapshot.open(self.spec.output.snapshot)
@@ -99,10 +100,11 @@ class Pipeline:
             self.spec, snapshot, checks_summary=report.summary(), progress=self.progress
         )
 
-    def run(self, *, even_if_failing: bool = False) -> RunResult:
-        """Pull, check and, if the checks pass (or ``even_if_failing``), build."""
+    def run(self, *, even_if_failing: bool = False, fresh: bool = False) -> RunResult:
+        """Pull (from scratch with ``fresh``), check and, if the checks pass (or
+        ``even_if_failing``), build."""
         started = time.perf_counter()
-        pulled = self.pull()
+        pulled = self.pull(fresh=fresh)
         report = self.check()
         built = None
         if report.passed or even_if_failing:
@@ -114,8 +116,8 @@ def _pipeline(spec: PipelineSpec | str | Path) -> Pipeline:
     return Pipeline(spec) if isinstance(spec, PipelineSpec) else Pipeline.from_file(spec)
 
 
-def pull(spec: PipelineSpec | str | Path) -> PullInfo:
-    return _pipeline(spec).pull()
+def pull(spec: PipelineSpec | str | Path, *, fresh: bool = False) -> PullInfo:
+    return _pipeline(spec).pull(fresh=fresh)
 
 
 def check(spec: PipelineSpec | str | Path) -> Report:
@@ -126,5 +128,7 @@ def build(spec: PipelineSpec | str | Path, *, even_if_failing: bool = False) -> 
     return _pipeline(spec).build(even_if_failing=even_if_failing)
 
 
-def run(spec: PipelineSpec | str | Path, *, even_if_failing: bool = False) -> RunResult:
-    return _pipeline(spec).run(even_if_failing=even_if_failing)
+def run(
+    spec: PipelineSpec | str | Path, *, even_if_failing: bool = False, fresh: bool = False
+) -> RunResult:
+    return _pipeline(spec).run(even_if_failing=even_if_failing, fresh=fresh)

@@ -2,7 +2,12 @@
 
 Pulling writes pages into a staging folder beside the snapshot (``<snapshot>.staging``), one
 Parquet part per page with a checkpoint per work unit, so an interrupted pull resumes where it
-stopped. Finishing merges the parts of each table, unifies their types, sorts rows into a
+stopped. Each checkpoint holds the unit's input fingerprint (see
+:meth:`~graphmill.connectors.base.GraphSource.fingerprint`): a resumed pull whose fingerprint
+differs discards what that unit staged and reads it again, and says so in the pull's
+warnings; ``fresh=True`` discards every staged unit. The snapshot's provenance lists the
+fingerprints it was pulled under (``source.inputs``, without modification times).
+Finishing merges the parts of each table, unifies their types, sorts rows into a
 canonical order (by IDs, then by the other columns) and publishes the snapshot atomically.
 The same graph therefore gives the same snapshot whatever the paging, partitioning, order of
 extraction or number of interruptions.
@@ -12,6 +17,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import logging
 import shutil
 from collections.abc import Callable, Iterable
 from concurrent.futures import ThreadPoolExecutor
@@ -37,6 +43,7 @@ from graphmill._columns import (
 )
 from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
+from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -49,6 +56,7 @@ from graphmill.errors import BundleIntegrityError, InputError, SourceUnavailable
 from graphmill.privacy import personal_data_warnings
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 
+_log = logging.getLogger("graphmill")
 SNAPSHOT_FORMAT = 1
 SNAPSHOT_FILE = "snapshot.json"
 PARQUET_OPTIONS: dict[str, Any] = {"compression": "zstd", "row_group_size": 1 << 20}
@@ -66,6 +74,7 @@ class PullInfo:
     pages_read: int
     seconds: float = 0.0
     warnings: list[str] = field(default_factory=list)
+    restarted: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -77,6 +86,7 @@ class PullInfo:
             "pages_read": self.pages_read,
             "seconds": round(self.seconds, 3),
             "warnings": self.warnings,
+            "restarted": self.restarted,
         }
 
 
@@ -91,20 +101,23 @@ def _spec_fingerprint(spec: PipelineSpec) -> str:
 class Stager:
     """Writes pages of work units into ``<snapshot>.staging`` with a checkpoint per unit."""
 
-    def __init__(self, spec: PipelineSpec, source: GraphSource) -> None:
+    def __init__(self, spec: PipelineSpec, source: GraphSource, *, fresh: bool = False) -> None:
         self.spec = spec
         self.source = source
+        self.fresh = fresh
         self.root = Path(f"{spec.output.snapshot}.staging")
         self.pages_read = 0
         self.units_resumed = 0
+        self.inputs: dict[str, Any] = {}  # unit id -> input fingerprint
+        self.restarted: dict[str, str] = {}  # unit id -> why its staged pages were dropped
 
     def prepare(self) -> None:
         fingerprint = _spec_fingerprint(self.spec)
         marker = self.root / "fingerprint"
         if self.root.exists() and (
-            not marker.exists() or marker.read_text().strip() != fingerprint
+            self.fresh or not marker.exists() or marker.read_text().strip() != fingerprint
         ):
-            shutil.rmtree(self.root)  # staged under another spec: start afresh
+            shutil.rmtree(self.root)  # asked to, or staged under another spec: start afresh
         self.root.mkdir(parents=True, exist_ok=True)
         if not marker.exists():
             write_bytes_atomic(marker, fingerprint.encode())
@@ -124,12 +137,21 @@ class Stager:
     def stage(self, unit: WorkUnit, progress_task: Any) -> None:
         directory = self.unit_dir(unit)
         directory.mkdir(parents=True, exist_ok=True)
+        fingerprint = self.source.fingerprint(unit)
+        self.inputs[unit.unit_id] = fingerprint
         state = self._checkpoint(unit)
+        start = {"pages": 0, "cursor": None, "done": False, "fingerprint": fingerprint}
+        if state["done"] or state["pages"]:
+            changed = changes(state.get("fingerprint"), fingerprint)
+            if changed:
+                self.restarted[unit.unit_id] = "; ".join(changed)
+                _log.info("%s: input changed, staged pages dropped", unit.unit_id)
+                state = start
         if state["done"]:
             self.units_resumed += 1
             return
         if not self.source.capabilities.can_resume:
-            state = {"pages": 0, "cursor": None, "done": False}
+            state = start
         elif state["pages"]:
             self.units_resumed += 1
         # Parts beyond the checkpoint were written by a run that stopped before saving it.
@@ -138,7 +160,12 @@ class Stager:
                 part.unlink()
         for page in self.source.read(unit, state["cursor"]):
             self._write_part(directory / f"part-{state['pages']:06d}.parquet", page)
-            state = {"pages": state["pages"] + 1, "cursor": page.cursor, "done": False}
+            state = {
+                "pages": state["pages"] + 1,
+                "cursor": page.cursor,
+                "done": False,
+                "fingerprint": fingerprint,
+            }
             self._save_checkpoint(unit, state)
             self.pages_read += 1
             progress_task.advance(page.batch.num_rows)
@@ -169,13 +196,18 @@ def pull(
     source: GraphSource,
     *,
     progress: Progress | None = None,
+    fresh: bool = False,
 ) -> PullInfo:
-    """Extract every work unit of ``source`` into the spec's snapshot folder."""
+    """Extract every work unit of ``source`` into the spec's snapshot folder.
+
+    Resumes what an interrupted pull staged, unit by unit, unless ``fresh`` or the unit's
+    input fingerprint changed (then the unit is read again and the pull's warnings say so).
+    """
     import time
 
     started = time.perf_counter()
     progress = progress or SilentProgress()
-    stager = Stager(spec, source)
+    stager = Stager(spec, source, fresh=fresh)
     created = _first_missing_ancestor(stager.root)
     stager.prepare()
     try:
@@ -198,6 +230,8 @@ def pull(
                     pool.shutdown(wait=True, cancel_futures=True)
             provenance = source.provenance().to_dict()
             discovery = source.discover()
+        inputs = {u.unit_id: publishable(stager.inputs.get(u.unit_id)) for u in units}
+        provenance["inputs"] = {k: v for k, v in inputs.items() if v is not None}
     except BaseException as exc:
         # Keep staged pages for a resume, unless they are useless: bad input, or nothing staged.
         bad_input = getattr(exc, "exit_code", None) == 2
@@ -210,6 +244,11 @@ def pull(
     info.units_total = len(units)
     info.units_resumed = stager.units_resumed
     info.pages_read = stager.pages_read
+    info.restarted = sorted(stager.restarted)
+    info.warnings = [
+        f"{unit_id}: restarted, its input changed since it was staged ({why})"
+        for unit_id, why in sorted(stager.restarted.items())
+    ] + info.warnings
     info.seconds = time.perf_counter() - started
     return info
 

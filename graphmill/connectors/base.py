@@ -21,6 +21,10 @@ per row, in any order, a vertex on several rows when it has several values). The
 joins them into one row per vertex: values of a ``multi`` property become a sorted list; of a
 single-valued one, the smallest value is kept and the number of vertices that had more is
 recorded as a snapshot warning. Vertices without membership rows are not created.
+
+**Fingerprints**: :meth:`GraphSource.fingerprint` describes what a unit reads (files: size,
+modification time, sha256; servers: counts and key digests). The stager records it in the
+unit's checkpoint; a resumed pull whose fingerprint differs restarts that unit.
 """
 
 from __future__ import annotations
@@ -116,6 +120,16 @@ class GraphSource(ABC):
     @abstractmethod
     def provenance(self) -> Provenance:
         """A publishable description of the source and the queries it ran."""
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any] | None:
+        """What ``unit`` reads, as a small JSON-able dict, or None if the source cannot tell.
+
+        Called (after :meth:`open`) before a unit is staged and again when a pull resumes: a
+        different answer means the input changed, and the staged pages of the unit are
+        discarded. It must be cheap next to reading the unit, and equal for unchanged input
+        (see :mod:`graphmill.connectors._fingerprints`).
+        """
+        return None
 
     def discover(self) -> dict[str, Any] | None:
         """Optional schema discovery (labels, keys, observed value types)."""

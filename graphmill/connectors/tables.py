@@ -22,6 +22,7 @@ import pyarrow.parquet as pq
 
 from graphmill._columns import value_kinds_of
 from graphmill.connectors import _lexical
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -57,6 +58,7 @@ class TableFilesSource(GraphSource):
                     f"vertex type {entry['type']!r} is not declared under vertex_types",
                     key_path=f"source.vertex_files[{i}].type",
                 )
+        self._prints = FileFingerprints()
 
     def _relation_by_reference(self, ref: str, key_path: str) -> RelationSpec:
         found = [r for r in self.spec.relations if ref in (r.key.name, r.key.dotted)]
@@ -72,6 +74,26 @@ class TableFilesSource(GraphSource):
     def provenance(self) -> Provenance:
         paths = [e["path"] for e in self.vertex_files + self.edge_files]
         return Provenance(kind=self.kind, location=", ".join(paths))
+
+    # -- input fingerprints (resume checks) ------------------------------------------------
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every file the unit reads."""
+        if unit.table == "vertices":
+            entries = [
+                e
+                for e in self.vertex_files
+                if "type_column" in e or e.get("type", unit.name) == unit.name
+            ]
+        else:
+            entries = [
+                e
+                for e in self.edge_files
+                if "relation" not in e
+                or self._relation_by_reference(e["relation"], "").key.dotted == unit.name
+            ]
+        return self._prints.of_files(
+            (self.spec.resolve_path(e["path"]), e["path"]) for e in entries
+        )
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if unit.table == "vertices":

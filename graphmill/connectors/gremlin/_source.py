@@ -18,6 +18,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
+from graphmill.connectors._fingerprints import key_digest
 from graphmill.connectors.base import (
     GraphSource,
     Page,
@@ -178,6 +179,19 @@ class GremlinSource(GraphSource):
                 f"{self.spec.output.snapshot}.staging and pull again when the graph is stable",
                 source=self.settings.url,
             )
+
+    # -- input fingerprints (resume checks) ---------------------------------------------
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """The unit's element count and digests of its smallest and largest ids: three
+        streaming server-side aggregates (no sort). A change of property values alone,
+        with the same elements, is not seen."""
+        scope = self.shape(unit).scope
+        count = int(self.pool.fetch(_traversals.count(scope).bytecode)[0])
+        ends = []
+        for which in ("min", "max"):
+            found = self.pool.fetch(_traversals.id_extreme(scope, which).bytecode)
+            ends.append(key_digest(found[0]) if found and found[0] is not None else None)
+        return {"count": count, "first": ends[0], "last": ends[1]}
 
     # -- description -----------------------------------------------------------------
     def provenance(self) -> Provenance:

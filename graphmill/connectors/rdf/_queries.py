@@ -193,3 +193,16 @@ def unit_query(
                 raise InputError(f"{word} must be a whole number >= 0, not {number!r}")
             text += f" {word} {number}"
     return text
+
+
+def fingerprint_query(spec: PipelineSpec, unit: WorkUnit) -> str:
+    """One aggregate row telling whether ``unit``'s answer changed: ``?n`` its row count,
+    ``?lo`` and ``?hi`` the smallest and largest IRI of its first variable (a blank node
+    counts as ``""``, its label being the server's own)."""
+    inner = unit_query(spec, unit).replace("\n", "\n  ")
+    first = unit_variables(spec, unit)[0]
+    return (
+        "SELECT (COUNT(*) AS ?n) (MIN(?key) AS ?lo) (MAX(?key) AS ?hi) WHERE {\n"
+        f"  {{ {inner} }}\n"
+        f'  BIND(IF(isIRI(?{first}), STR(?{first}), "") AS ?key)\n}}'
+    )

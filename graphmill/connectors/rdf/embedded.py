@@ -9,6 +9,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import Any, ClassVar
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._files import file_details, oxigraph, quads, spec_inputs
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
@@ -64,6 +65,11 @@ class EmbeddedStoreSource(GraphSource):
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         yield from unit_pages(self.rdf, unit, self.query_terms(unit), page_rows=self.page_rows)
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every dump (each unit reads them all)."""
+        prints = self.__dict__.setdefault("_prints", FileFingerprints())
+        return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)
