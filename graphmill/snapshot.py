@@ -45,6 +45,7 @@ from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
 from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
+    RAW_PREFIX,
     SOURCE_ID,
     TARGET_ID,
     VERTEX_ID,
@@ -59,6 +60,7 @@ from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 _log = logging.getLogger("graphmill")
 SNAPSHOT_FORMAT = 1
 SNAPSHOT_FILE = "snapshot.json"
+KEYS_KEPT = 500  # source keys recorded per table, for did-you-mean suggestions
 PARQUET_OPTIONS: dict[str, Any] = {"compression": "zstd", "row_group_size": 1 << 20}
 
 
@@ -178,6 +180,9 @@ class Stager:
             name: kinds.get(name) or value_kinds_of(batch.column(i))
             for i, name in enumerate(batch.schema.names)
         }
+        for name, raw in (page.raw or {}).items():  # ill-typed values' text, when there are any
+            if raw.null_count < len(raw):
+                batch = batch.append_column(RAW_PREFIX + name, raw.cast(pa.string()))
         schema = batch.schema.with_metadata({VALUE_KINDS_KEY: encode_kinds(profile)})
         table = pa.Table.from_batches([batch.replace_schema_metadata(schema.metadata)], schema)
         scratch = path.with_suffix(".writing")
@@ -230,6 +235,7 @@ def pull(
                     pool.shutdown(wait=True, cancel_futures=True)
             provenance = source.provenance().to_dict()
             discovery = source.discover()
+            keys = _keys_where_absent(spec, source, stager, units)
         inputs = {u.unit_id: publishable(stager.inputs.get(u.unit_id)) for u in units}
         provenance["inputs"] = {k: v for k, v in inputs.items() if v is not None}
     except BaseException as exc:
@@ -239,7 +245,7 @@ def pull(
             shutil.rmtree(stager.root, ignore_errors=True)
             _remove_empty(created)
         raise
-    info = publish_snapshot(spec, stager, units, provenance, discovery)
+    info = publish_snapshot(spec, stager, units, provenance, discovery, keys)
     shutil.rmtree(stager.root, ignore_errors=True)
     info.units_total = len(units)
     info.units_resumed = stager.units_resumed
@@ -251,6 +257,31 @@ def pull(
     ] + info.warnings
     info.seconds = time.perf_counter() - started
     return info
+
+
+def _keys_where_absent(
+    spec: PipelineSpec, source: GraphSource, stager: Stager, units: list[WorkUnit]
+) -> dict[tuple[str, str], list[str]]:
+    """For each table with rows where a declared property has no value at all (not even an
+    ill-typed one), the property keys the source holds there (for a did-you-mean)."""
+    out: dict[tuple[str, str], list[str]] = {}
+    tables = [("vertices", n, vt.properties) for n, vt in spec.vertex_types.items()]
+    tables += [("edges", r.key.dotted, r.properties) for r in spec.relations]
+    for table, name, props in tables:
+        mine = [u for u in units if u.table == table and u.name == name]
+        profiles: dict[str, int] = {p.name: 0 for p in props}
+        rows = 0
+        for path in stager.parts(mine):
+            meta = pq.read_metadata(path)
+            rows += meta.num_rows
+            kinds = decode_kinds(meta.schema.to_arrow_schema().metadata)
+            for prop in profiles:
+                profiles[prop] += sum(kinds.get(prop, {}).values())
+        if rows and any(n == 0 for n in profiles.values()):
+            keys = source.property_keys(mine[0]) if mine else None
+            if keys is not None:
+                out[(table, name)] = sorted(keys)[:KEYS_KEPT]
+    return out
 
 
 def _first_missing_ancestor(path: Path) -> Path | None:
@@ -388,6 +419,7 @@ def publish_snapshot(
     units: list[WorkUnit],
     provenance: dict[str, Any],
     discovery: dict[str, Any] | None,
+    source_keys: dict[tuple[str, str], list[str]] | None = None,
 ) -> PullInfo:
     tables: list[dict[str, Any]] = []
     warnings: list[str] = []
@@ -416,7 +448,9 @@ def publish_snapshot(
                 name, table, {p.name: p.source_key for p in vt.properties}
             )
             vertex_counts[name] = table.num_rows
-            tables.append(_table_entry("vertices", name, rel_path, scratch, table, kinds))
+            entry = _table_entry("vertices", name, rel_path, scratch, table, kinds)
+            _add_gate_facts(entry, stager.parts(mine), [VERTEX_ID], scratch, source_keys)
+            tables.append(entry)
         for rel in spec.relations:
             dotted = rel.key.dotted
             mine = [u for u in units if u.table == "edges" and u.name == dotted]
@@ -429,7 +463,9 @@ def publish_snapshot(
                 dotted, table, {p.name: p.source_key for p in rel.properties}
             )
             edge_counts[dotted] = table.num_rows
-            tables.append(_table_entry("edges", dotted, rel_path, scratch, table, kinds))
+            entry = _table_entry("edges", dotted, rel_path, scratch, table, kinds)
+            _add_gate_facts(entry, stager.parts(mine), [SOURCE_ID, TARGET_ID], scratch, source_keys)
+            tables.append(entry)
         document = {
             "snapshot_format": SNAPSHOT_FORMAT,
             "graphmill_version": __version__,
@@ -469,6 +505,58 @@ def _table_entry(
     }
 
 
+def ill_typed_table(paths: list[Path], id_columns: list[str]) -> pa.Table:
+    """Every ill-typed value kept by the staged parts: the ID columns, ``property`` and
+    ``raw`` (the source's text), one row per distinct value, in canonical order."""
+    pieces = []
+    for path in paths:
+        names = pq.read_schema(path).names
+        for column in (n for n in names if n.startswith(RAW_PREFIX)):
+            part = pq.read_table(path, columns=[*id_columns, column])
+            part = part.filter(pc.is_valid(part.column(column)))
+            prop = pa.array([column[len(RAW_PREFIX) :]] * part.num_rows, pa.string())
+            pieces.append(
+                pa.table(
+                    {
+                        **{c: part.column(c).cast(pa.string()) for c in id_columns},
+                        "property": prop,
+                        "raw": part.column(column),
+                    }
+                )
+            )
+    schema = pa.schema([*(pa.field(c, pa.string()) for c in id_columns)])
+    schema = schema.append(pa.field("property", pa.string())).append(pa.field("raw", pa.string()))
+    if not pieces:
+        return schema.empty_table()
+    table = pa.concat_tables([p.cast(schema) for p in pieces])
+    table = table.group_by(schema.names, use_threads=False).aggregate([]).select(schema.names)
+    order = ["property", *id_columns, "raw"]
+    return table.sort_by([(n, "ascending") for n in order]).combine_chunks()
+
+
+def _add_gate_facts(
+    entry: dict[str, Any],
+    parts: list[Path],
+    id_columns: list[str],
+    root: Path,
+    source_keys: dict[tuple[str, str], list[str]] | None,
+) -> None:
+    """Add to a table entry its ill-typed values (a file beside the table, when there are
+    any) and the source's property keys (when the pull asked for them)."""
+    raw = ill_typed_table(parts, id_columns)
+    if raw.num_rows:
+        rel_path = f"ill_typed/{entry['kind']}/{entry['name']}.parquet"
+        write_parquet(raw, root / rel_path)
+        entry["ill_typed"] = {
+            "file": rel_path,
+            "rows": raw.num_rows,
+            "sha256": sha256_file(root / rel_path),
+        }
+    keys = (source_keys or {}).get((entry["kind"], entry["name"]))
+    if keys is not None:
+        entry["source_keys"] = keys
+
+
 # --------------------------------------------------------------------------- reading
 
 
@@ -490,9 +578,15 @@ class Snapshot:
             )
         document = json.loads(manifest.read_text())
         if verify:
-            for entry in document["tables"]:
-                path = root / entry["file"]
-                if not path.exists() or sha256_file(path) != entry["sha256"]:
+            files = [(e["file"], e["sha256"]) for e in document["tables"]]
+            files += [
+                (e["ill_typed"]["file"], e["ill_typed"]["sha256"])
+                for e in document["tables"]
+                if "ill_typed" in e
+            ]
+            for name, digest in files:
+                path = root / name
+                if not path.exists() or sha256_file(path) != digest:
                     raise BundleIntegrityError(
                         "snapshot file is missing or its sha256 differs from snapshot.json",
                         file=str(path),
@@ -519,6 +613,16 @@ class Snapshot:
     def value_kinds(self, kind: str, name: str) -> dict[str, dict[str, int]]:
         entry = self._entries[(kind, name)]
         return {c["name"]: c["value_kinds"] for c in entry["columns"]}
+
+    def ill_typed(self, kind: str, name: str) -> pa.Table | None:
+        """The table's ill-typed values (IDs, ``property``, ``raw``), or None if it has none."""
+        entry = self._entries[(kind, name)].get("ill_typed")
+        return pq.read_table(self.root / entry["file"]) if entry else None
+
+    def source_keys(self, kind: str, name: str) -> list[str] | None:
+        """The property keys the source held for the table, when the pull recorded them."""
+        keys = self._entries[(kind, name)].get("source_keys")
+        return list(keys) if keys is not None else None
 
     @property
     def provenance(self) -> dict[str, Any]:

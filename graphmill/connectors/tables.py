@@ -22,6 +22,7 @@ import pyarrow.parquet as pq
 
 from graphmill._columns import value_kinds_of
 from graphmill.connectors import _lexical
+from graphmill.connectors._declared import ILL_TYPED, apply_declared, ill_typed_text
 from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import (
     SOURCE_ID,
@@ -169,12 +170,20 @@ class TableFilesSource(GraphSource):
                 batch = batch.filter(pc.equal(batch.column(select_column), select_value))
             columns: dict[str, pa.Array] = {}
             kinds: dict[str, dict[str, int]] = {}
+            raw: dict[str, pa.Array] = {}
             for source_name, name in zip(key_columns, key_names, strict=True):
                 ids = batch.column(source_name)
                 columns[name] = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
             for prop in properties:
-                columns[prop.name], kinds[prop.name] = _typed(batch.column(prop.source_key), prop)
-            yield Page(pa.record_batch(columns), value_kinds=kinds)
+                column = batch.column(prop.source_key)
+                columns[prop.name], kinds[prop.name] = _typed(column, prop)
+                # the gate: ill-typed values become null, counted, their text kept
+                columns[prop.name], kinds[prop.name], text = _ill_typed(
+                    column, columns[prop.name], kinds[prop.name], prop
+                )
+                if text is not None:
+                    raw[prop.name] = text
+            yield Page(pa.record_batch(columns), value_kinds=kinds, raw=raw or None)
 
 
 def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, int]]:
@@ -184,6 +193,24 @@ def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, in
     counts = _lexical.kind_counts(values)
     kind = prop.kind or _lexical.infer_kind(counts)
     return _lexical.parse_kind(values, kind), counts
+
+
+def _ill_typed(
+    column: pa.Array, typed: pa.Array, counts: dict[str, int], prop: PropertySpec
+) -> tuple[pa.Array, dict[str, int], pa.Array | None]:
+    """Apply the gate of :mod:`graphmill.connectors._declared` after typing: typed Parquet
+    columns under a declared kind; text cells that did not parse as their kind (declared or
+    inferred) counted as ``ill-typed`` with their text, instead of under their own kind."""
+    if not pa.types.is_string(column.type):
+        return apply_declared(typed, prop.kind)
+    if prop.kind == "string":
+        return typed, ({"string": sum(counts.values())} if counts else {}), None
+    text = _lexical.blank_to_null(column)
+    raw = ill_typed_text(text, typed)
+    if raw is None:
+        return typed, counts, None
+    good = _lexical.kind_counts(text.filter(pc.is_valid(typed)))
+    return typed, {**good, ILL_TYPED: len(raw) - raw.null_count}, raw
 
 
 def _read_batches(

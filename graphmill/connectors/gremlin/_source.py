@@ -160,15 +160,18 @@ class GremlinSource(GraphSource):
                 rows = call_with_retries(self.settings, reader.next_rows)
                 if not rows:
                     break
+                raw: dict[str, Any] = {}
                 batch, kinds = rows_to_batch(
                     rows,
                     f"{unit.table} {unit.name}",
                     shape.scope.edges,
                     shape.properties,
                     [name for name, _key in shape.meta_columns],
+                    raw,
                 )
                 state = state.advanced(rows[-1][0], len(rows))
-                yield Page(batch, cursor=_cursor.encode(state), value_kinds=kinds or None)
+                cursor = _cursor.encode(state)
+                yield Page(batch, cursor=cursor, value_kinds=kinds or None, raw=raw or None)
         finally:
             reader.close()
         expected = int(self.pool.fetch(_traversals.count(shape.scope).bytecode)[0])
