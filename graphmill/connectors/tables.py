@@ -11,6 +11,7 @@ Parquet columns keep their types.
 
 from __future__ import annotations
 
+import contextlib
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
@@ -34,7 +35,7 @@ from graphmill.connectors.base import (
     SourceCapabilities,
     WorkUnit,
 )
-from graphmill.errors import InputError, SourceUnavailableError, SpecError
+from graphmill.errors import GraphmillError, InputError, SourceUnavailableError, SpecError
 from graphmill.spec import PipelineSpec, PropertySpec, RelationSpec
 
 BLOCK_SIZE = 16 << 20
@@ -77,24 +78,39 @@ class TableFilesSource(GraphSource):
         return Provenance(kind=self.kind, location=", ".join(paths))
 
     # -- input fingerprints (resume checks) ------------------------------------------------
-    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
-        """Size, modification time and sha256 of every file the unit reads."""
+    def _unit_entries(self, unit: WorkUnit) -> list[dict[str, Any]]:
+        """The file entries ``read(unit)`` reads."""
         if unit.table == "vertices":
-            entries = [
+            return [
                 e
                 for e in self.vertex_files
                 if "type_column" in e or e.get("type", unit.name) == unit.name
             ]
-        else:
-            entries = [
-                e
-                for e in self.edge_files
-                if "relation" not in e
-                or self._relation_by_reference(e["relation"], "").key.dotted == unit.name
-            ]
+        return [
+            e
+            for e in self.edge_files
+            if "relation" not in e
+            or self._relation_by_reference(e["relation"], "").key.dotted == unit.name
+        ]
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every file the unit reads."""
+        entries = self._unit_entries(unit)
         return self._prints.of_files(
             (self.spec.resolve_path(e["path"]), e["path"]) for e in entries
         )
+
+    def property_keys(self, unit: WorkUnit) -> list[str]:
+        """The column names of the files the unit reads (their headers or schemas)."""
+        names: set[str] = set()
+        for entry in self._unit_entries(unit):
+            path = self.spec.resolve_path(entry["path"])
+            with contextlib.suppress(GraphmillError, OSError, pa.ArrowException):
+                if _format_of(path, entry) == "parquet":
+                    names.update(pq.read_schema(path).names)
+                else:
+                    names.update(_csv_header(path, entry))
+        return sorted(names)
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if unit.table == "vertices":
@@ -217,9 +233,7 @@ def _read_batches(
     path: Path, entry: dict[str, Any], columns: list[str]
 ) -> Iterator[tuple[pa.RecordBatch, int]]:
     """Batches of the needed columns, each with the 1-based data row number of its first row."""
-    fmt = entry.get("format") or (
-        "parquet" if path.suffix.lower() in (".parquet", ".pq") else "csv"
-    )
+    fmt = _format_of(path, entry)
     if not path.is_file():
         raise SourceUnavailableError(
             "file not found" if not path.exists() else "not a readable file",
@@ -259,6 +273,11 @@ def _read_batches(
         raise InputError(
             _first_line(str(exc)), file=str(path), hint="fix the file or its entry in the spec"
         ) from exc
+
+
+def _format_of(path: Path, entry: dict[str, Any]) -> str:
+    suffix = path.suffix.lower()
+    return str(entry.get("format") or ("parquet" if suffix in (".parquet", ".pq") else "csv"))
 
 
 def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:

@@ -196,6 +196,12 @@ class GremlinSource(GraphSource):
             ends.append(key_digest(found[0]) if found and found[0] is not None else None)
         return {"count": count, "first": ends[0], "last": ends[1]}
 
+    def property_keys(self, unit: WorkUnit) -> list[str]:
+        """Distinct property keys of the unit's label (at most 500)."""
+        scope = self.shape(WorkUnit(unit.table, unit.name)).scope
+        keys = self.pool.fetch(_traversals.property_keys(scope, 500).bytecode)
+        return sorted(str(k) for k in keys)
+
     # -- description -----------------------------------------------------------------
     def provenance(self) -> Provenance:
         """Location without credentials; the Gremlin text of each unit's traversal. Partition

@@ -106,6 +106,11 @@ def id_extreme(scope: Scope, which: str) -> GraphTraversal:
     return ids.min_() if which == "min" else ids.max_()
 
 
+def property_keys(scope: Scope, limit: int) -> GraphTraversal:
+    """Distinct property keys of the unit's elements (at most ``limit``)."""
+    return elements(scope).properties().key().dedup().limit(limit)
+
+
 def boundaries(scope: Scope, positions: list[int]) -> GraphTraversal:
     """The ids at ``positions`` of the unit's sorted ids, in one sort: a map ``b<n> -> [id]``
     (an empty list where a position is past the end)."""

@@ -206,3 +206,15 @@ def fingerprint_query(spec: PipelineSpec, unit: WorkUnit) -> str:
         f"  {{ {inner} }}\n"
         f'  BIND(IF(isIRI(?{first}), STR(?{first}), "") AS ?key)\n}}'
     )
+
+
+KEYS_LIMIT = 500
+
+
+def keys_query(spec: PipelineSpec, vertex_type: str) -> str:
+    """The distinct predicates of the subjects of ``vertex_type`` (at most ``KEYS_LIMIT``):
+    what a did-you-mean for a property without any value compares against."""
+    w = _Writer(resolve(spec))
+    lines = [*w.type_rules("?s", vertex_type), w.triple("?s", "?p", "?o")]
+    body = "".join(f"  {line}\n" for line in lines)
+    return f"SELECT DISTINCT ?p WHERE {{\n{body}}} LIMIT {KEYS_LIMIT}"

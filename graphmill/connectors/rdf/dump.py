@@ -138,6 +138,15 @@ class RdfFileSource(GraphSource):
         prints = self.__dict__.setdefault("_prints", FileFingerprints())
         return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
 
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """Predicates of the vertex type's subjects: the dumps are read once more, keeping
+        only subjects and predicates (asked only when a declared property had no value)."""
+        if unit.table != "vertices":
+            return None
+        from graphmill.connectors.rdf._keys import predicates_of
+
+        return predicates_of(self.spec, self.rdf, unit.name)
+
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)
         details: dict[str, Any] = {"files": file_details(inputs), "quads_used": self.quads_kept}

@@ -24,6 +24,7 @@ from graphmill.connectors.rdf._queries import (
     VERTEX,
     KeyRange,
     fingerprint_query,
+    keys_query,
     unit_query,
     unit_variables,
 )
@@ -257,6 +258,14 @@ class SparqlEndpointSource(GraphSource):
             "first": key_digest(ends[0]) if ends[0] is not None else None,
             "last": key_digest(ends[1]) if ends[1] is not None else None,
         }
+
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """Predicates of the vertex type's subjects, one DISTINCT query (RDF edges carry
+        no properties)."""
+        if unit.table != "vertices":
+            return None
+        terms = self._terms(unit, keys_query(self.spec, unit.name))
+        return sorted(terms.column("p").drop_null().to_pylist())
 
     # ------------------------------------------------------------------ describing
 
