@@ -293,8 +293,12 @@ def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:
 def _require_columns(present: list[str], needed: list[str], path: Path) -> None:
     missing = [c for c in needed if c not in present]
     if missing:
+        import difflib  # the gate: the same did-you-mean as absent-property's
+
+        close = difflib.get_close_matches(missing[0], present, n=1, cutoff=0.6)
+        guess = f"did you mean {close[0]!r}? " if close else ""
         raise InputError(
-            f"missing column {missing[0]!r} (the file has: {', '.join(present)})",
+            f"missing column {missing[0]!r} ({guess}the file has: {', '.join(present)})",
             file=str(path),
             line=1,
             hint="rename the column in the file or change the column name in the spec",

@@ -168,8 +168,7 @@ def check_absent_property(ctx: CheckContext, subject: dict[str, str]) -> Outcome
         if key in keys or full in keys:
             text += f"; the source has the key {key!r}, without any value of this table"
         else:
-            close = difflib.get_close_matches(full, keys, n=3, cutoff=0.6)
-            shown = [_compact(ctx, k) for k in close]
+            shown = [_compact(ctx, k) for k in _closest(full, keys)]
             details["did_you_mean"] = shown
             text += f"; the source has no key {key!r}" + (
                 f" (did you mean {' or '.join(repr(k) for k in shown)}?)"
@@ -178,6 +177,20 @@ def check_absent_property(ctx: CheckContext, subject: dict[str, str]) -> Outcome
             )
     text += "; check the property's 'from' in the spec"
     return Outcome(int(rows > 0 and values == 0), 1, text, details=details)
+
+
+def _closest(key: str, keys: list[str]) -> list[str]:
+    """Up to three keys most like ``key``, compared by their local names (an IRI's part
+    after its last ``/`` or ``#``: RDF predicates share long namespaces)."""
+    by_local: dict[str, list[str]] = {}
+    for k in keys:
+        by_local.setdefault(_local(k), []).append(k)
+    close = difflib.get_close_matches(_local(key), list(by_local), n=3, cutoff=0.6)
+    return [k for local in close for k in by_local[local]][:3]
+
+
+def _local(key: str) -> str:
+    return key.rstrip("/#").rsplit("/", 1)[-1].rsplit("#", 1)[-1] or key
 
 
 def _expanded(ctx: CheckContext, key: str) -> str:
