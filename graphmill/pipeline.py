@@ -92,7 +92,8 @@ class Pipeline:
         report = report or run_checks(self.spec, snapshot)
         if not report.passed and not even_if_failing:
             raise ChecksFailedError(
-                f"checks failed with {report.counts['error']} error finding(s); no bundle built",
+                f"checks failed with {report.counts['error']} error finding(s), the first "
+                f"{_first_error(report)}; no bundle built",
                 hint="run 'graphmill check' to see them, fix the data or the spec's "
                 "checks.severity, or build with --even-if-failing",
             )
@@ -110,6 +111,29 @@ class Pipeline:
         if report.passed or even_if_failing:
             built = self.build(report=report, even_if_failing=even_if_failing)
         return RunResult(pulled, report, built, time.perf_counter() - started)
+
+
+def _first_error(report: Report) -> str:
+    """The first error finding in a few words: rule, subject and one offender, so that the
+    one-line refusal leads to the row (values capped at 60 characters)."""
+    from graphmill.validate._findings import subject_label
+
+    first = next(f for f in report.findings if f.severity == "error")
+    text = f"{first.rule} on {subject_label(first.subject)}"
+    if first.sample:
+        shown = ", ".join(f"{k} {_capped(v)}" for k, v in first.sample[0].items())
+        text += f" (e.g. {shown})"
+    guesses = first.details.get("did_you_mean")
+    if guesses:
+        text += f" (did you mean {' or '.join(_capped(g) for g in guesses)}?)"
+    return text
+
+
+def _capped(value: Any, limit: int = 60) -> str:
+    text = repr(
+        value if isinstance(value, str | int | float | bool) or value is None else str(value)
+    )
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def _pipeline(spec: PipelineSpec | str | Path) -> Pipeline:
