@@ -36,7 +36,12 @@ def table_document(root):
             "kind": "table-files",
             "vertex_files": [{"path": "people.csv", "id_column": "id", "type": "person"}],
             "edge_files": [
-                {"path": "knows.csv", "source_column": "a", "target_column": "b", "relation": "knows"}
+                {
+                    "path": "knows.csv",
+                    "source_column": "a",
+                    "target_column": "b",
+                    "relation": "knows",
+                }
             ],
         },
         "vertex_types": {"person": {"properties": {"age": {"kind": "integer"}}}},
@@ -151,3 +156,22 @@ def test_fresh_flag_on_the_command_line(tmp_path, command, capsys):
     out = json.loads(capsys.readouterr().out)
     pulled = out if command == "pull" else out["pull"]
     assert pulled["units_resumed"] == 0 and pulled["restarted"] == []
+
+
+@pytest.mark.servers
+def test_changed_sparql_endpoint_restarts_the_staged_units(tmp_path):
+    from servers.manage import OxigraphServer
+    from servers.pytest_fixtures import started
+
+    (tmp_path / "graph.nt").write_text(TRIPLES)
+    with started(OxigraphServer(preload=[tmp_path / "graph.nt"])) as server:
+        document = rdf_document(tmp_path, "sparql-endpoint")
+        document["source"] = {"kind": "sparql-endpoint", "query_url": server.query_url}
+        spec = spec_from_dict(document, base_dir=tmp_path)
+        with pytest.raises(StopAfter.StopError):
+            pull(spec, open_source(spec), progress=StopAfter(2))
+        server.load(f"<{EX}p3> <http://www.w3.org/1999/02/22-rdf-syntax-ns#type> <{EX}Person> .\n")
+        info = pull(spec, open_source(spec))
+    assert _ages(spec) == {f"{EX}p1": 30, f"{EX}p2": None, f"{EX}p3": None}
+    assert "vertices.person.p000of001" in info.restarted
+    assert any("count 2 -> 3" in w for w in info.warnings)
