@@ -32,7 +32,7 @@ from graphmill.connectors.gremlin._errors import call_with_retries
 from graphmill.connectors.gremlin._pages import StreamPager, rows_to_batch
 from graphmill.connectors.gremlin._settings import GremlinSettings
 from graphmill.connectors.gremlin._traversals import Scope
-from graphmill.errors import InputError
+from graphmill.errors import InputError, SourceServerError
 from graphmill.spec import PipelineSpec, PropertySpec
 
 META_SUFFIX = "__meta"
@@ -192,7 +192,10 @@ class GremlinSource(GraphSource):
         count = int(self.pool.fetch(_traversals.count(scope).bytecode)[0])
         ends = []
         for which in ("min", "max"):
-            found = self.pool.fetch(_traversals.id_extreme(scope, which).bytecode)
+            try:
+                found = self.pool.fetch(_traversals.id_extreme(scope, which).bytecode)
+            except SourceServerError:  # ids the server cannot compare: read() will say so
+                found = []
             ends.append(key_digest(found[0]) if found and found[0] is not None else None)
         return {"count": count, "first": ends[0], "last": ends[1]}
 
