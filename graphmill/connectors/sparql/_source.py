@@ -250,7 +250,13 @@ class SparqlEndpointSource(GraphSource):
         """The unit's row count and digests of its smallest and largest subject IRI, from
         one aggregate query (:func:`fingerprint_query`). A changed value alone, with the
         same rows and ends, is not seen."""
-        terms = self._terms(unit, fingerprint_query(self.spec, unit))
+        if self._failure is not None:
+            raise self._failure  # the server already failed: do not ask it again per unit
+        try:
+            terms = self._terms(unit, fingerprint_query(self.spec, unit))
+        except GraphmillError as exc:
+            self._failure = exc
+            raise
         row = terms.slice(0, 1).to_pylist()[0] if terms.num_rows else {}
         ends = [row.get(k) for k in ("lo", "hi")]
         return {
