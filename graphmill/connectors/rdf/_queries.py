@@ -199,12 +199,13 @@ def fingerprint_query(spec: PipelineSpec, unit: WorkUnit) -> str:
     """One aggregate row telling whether ``unit``'s answer changed: ``?n`` its row count,
     ``?lo`` and ``?hi`` the smallest and largest IRI of its first variable (a blank node
     counts as ``""``, its label being the server's own)."""
-    inner = unit_query(spec, unit).replace("\n", "\n  ")
+    inner = unit_query(spec, unit).replace("\n", "\n    ")
     first = unit_variables(spec, unit)[0]
-    return (
-        "SELECT (COUNT(*) AS ?n) (MIN(?key) AS ?lo) (MAX(?key) AS ?hi) WHERE {\n"
-        f"  {{ {inner} }}\n"
-        f'  BIND(IF(isIRI(?{first}), STR(?{first}), "") AS ?key)\n}}'
+    return (  # the outer SELECT names plain variables, as every unit query does
+        "SELECT ?n ?lo ?hi WHERE {\n"
+        "  { SELECT (COUNT(*) AS ?n) (MIN(?key) AS ?lo) (MAX(?key) AS ?hi) WHERE {\n"
+        f"    {{ {inner} }}\n"
+        f'    BIND(IF(isIRI(?{first}), STR(?{first}), "") AS ?key)\n  }} }}\n}}'
     )
 
 
