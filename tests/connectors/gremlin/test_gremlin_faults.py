@@ -132,7 +132,7 @@ def shifting(gremlin_server):
     labels = ["gf_member", "gf_club"]
     drop_labels(gremlin_server.url, labels)
     members = [vertex(f"m{i}", "gf_member", score=i) for i in range(6)]
-    write(gremlin_server.url, members + [vertex("c1", "gf_club")], [])
+    write(gremlin_server.url, [*members, vertex("c1", "gf_club")], [])
     yield gremlin_server
     drop_labels(gremlin_server.url, labels)
 
