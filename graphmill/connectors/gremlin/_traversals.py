@@ -102,7 +102,7 @@ def count(scope: Scope) -> GraphTraversal:
 def id_extreme(scope: Scope, which: str) -> GraphTraversal:
     """The smallest (``which="min"``) or largest id of the unit: a streaming aggregate, no
     sort (no result, or null, when the unit is empty)."""
-    ids = elements(scope).id_()
+    ids = elements(scope, via_out=True).id_()  # the same set, reached as count() does
     return ids.min_() if which == "min" else ids.max_()
 
 
