@@ -3,8 +3,9 @@
 A value that cannot be read as its property's declared kind is *ill-typed*: null in the
 column, counted under the kind ``ill-typed``, and its text kept for the snapshot (see
 :class:`~graphmill.connectors.base.Page`). Integers are read as floats where ``float`` is
-declared; where ``string`` is declared every value is read as its text. Multi-valued (list)
-columns keep their elements' own kinds.
+declared; where ``string`` is declared every value is read as its text. List columns (a
+Gremlin ``multi`` property, a Parquet list column) keep their elements' own kinds for now;
+RDF reads each value of a ``multi`` property on its own, so the gate covers it.
 """
 
 from __future__ import annotations
