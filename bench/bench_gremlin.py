@@ -6,6 +6,9 @@ size, measures in a fresh Python process each (so peak memory is the measurement
 
 * ``paged p1`` / ``paged p2``: the gremlin source reading the relation's work units
   (1 or 2 id-range partitions, pulled concurrently), id-ordered streams cut into pages;
+* ``fingerprint``: the input fingerprint a pull records per unit before reading it (item
+  count and digests of the smallest and largest id: three streaming server-side aggregates),
+  so its cost can be set against ``paged p1``;
 * ``single``: one unpaged traversal returning the same rows (id, out id, in id, weight)
   in a single request through gremlinpython's ``Client`` (``.all().result()``), which
   holds the whole result in client memory.
@@ -84,13 +87,10 @@ def _peak_mib() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
-    from concurrent.futures import ThreadPoolExecutor
-
-    from graphmill.connectors.gremlin import GremlinSource
+def _spec(url: str, partitions: int, page_size: int) -> Any:
     from graphmill.spec import spec_from_dict
 
-    spec = spec_from_dict(
+    return spec_from_dict(
         {
             "spec_version": 1,
             "source": {
@@ -114,6 +114,28 @@ def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
             "output": {"bundle": str(Path(tempfile.gettempdir()) / "bench-gremlin-unused")},
         }
     )
+
+
+def measure_fingerprint(url: str) -> dict[str, Any]:
+    from graphmill.connectors.gremlin import GremlinSource
+
+    baseline = _peak_mib()
+    started = time.perf_counter()
+    with GremlinSource(_spec(url, 1, 10_000)) as source:
+        prints = [source.fingerprint(u) for u in source.plan() if u.table == "edges"]
+    return {
+        "rows": sum(p["count"] for p in prints),
+        "seconds": time.perf_counter() - started,
+        "peak_mib": _peak_mib() - baseline,
+    }
+
+
+def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
+    from concurrent.futures import ThreadPoolExecutor
+
+    from graphmill.connectors.gremlin import GremlinSource
+
+    spec = _spec(url, partitions, page_size)
     baseline = _peak_mib()
     started = time.perf_counter()
     with GremlinSource(spec) as source:
@@ -182,7 +204,10 @@ def main() -> None:
     args = parser.parse_args()
     if args.child:
         mode, url, *rest = args.child
-        out = measure_single(url) if mode == "single" else measure_paged(url, *map(int, rest))
+        if mode == "fingerprint":
+            out = measure_fingerprint(url)
+        else:
+            out = measure_single(url) if mode == "single" else measure_paged(url, *map(int, rest))
         print(json.dumps(out))
         return
     from servers.manage import GremlinServer
@@ -196,6 +221,7 @@ def main() -> None:
             loaded = size
             runs = [
                 ("paged p1", ["paged", server.url, "1", str(args.page_size)]),
+                ("fingerprint", ["fingerprint", server.url]),
                 ("paged p2", ["paged", server.url, "2", str(args.page_size)]),
                 ("single", ["single", server.url]),
             ]

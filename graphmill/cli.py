@@ -48,6 +48,12 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument("spec", help="pipeline spec (YAML)")
         if name == "check":
             cmd.add_argument("--junit", metavar="PATH", help="also write a JUnit XML report")
+        if name in ("pull", "run"):
+            cmd.add_argument(
+                "--fresh",
+                action="store_true",
+                help="discard what an interrupted pull staged and read every unit again",
+            )
         if name in ("build", "run"):
             cmd.add_argument(
                 "--even-if-failing",
@@ -116,7 +122,7 @@ def _dispatch(args: argparse.Namespace) -> int:
     with progress_for_terminal(show) as progress:
         pipeline = Pipeline(spec, progress=progress)
         if args.command == "pull":
-            info = pipeline.pull()
+            info = pipeline.pull(fresh=args.fresh)
             _emit(args, console, info.to_dict(), _render_pull)
             return ExitCode.OK
         if args.command == "check":
@@ -134,7 +140,7 @@ def _dispatch(args: argparse.Namespace) -> int:
             built = pipeline.build(even_if_failing=args.even_if_failing)
             _emit(args, console, built.to_dict(), _render_build)
             return ExitCode.OK
-        result = pipeline.run(even_if_failing=args.even_if_failing)
+        result = pipeline.run(even_if_failing=args.even_if_failing, fresh=args.fresh)
         if args.json:
             print(json.dumps(result.to_dict(), sort_keys=True))
         else:

@@ -65,9 +65,10 @@ class Pipeline:
     def from_file(cls, path: str | Path, *, progress: Progress | None = None) -> Pipeline:
         return cls(load_spec(path), progress=progress)
 
-    def pull(self) -> PullInfo:
-        """Extract the source into the staged snapshot (resuming an interrupted pull)."""
-        return _pull(self.spec, open_source(self.spec), progress=self.progress)
+    def pull(self, *, fresh: bool = False) -> PullInfo:
+        """Extract the source into the staged snapshot, resuming an interrupted pull unit by
+        unit where the unit's input is unchanged; ``fresh`` discards everything staged."""
+        return _pull(self.spec, open_source(self.spec), progress=self.progress, fresh=fresh)
 
     def snapshot(self) -> Snapshot:
         return Snapshot.open(self.spec.output.snapshot)
@@ -91,7 +92,8 @@ class Pipeline:
         report = report or run_checks(self.spec, snapshot)
         if not report.passed and not even_if_failing:
             raise ChecksFailedError(
-                f"checks failed with {report.counts['error']} error finding(s); no bundle built",
+                f"checks failed with {report.counts['error']} error finding(s), the first "
+                f"{_first_error(report)}; no bundle built",
                 hint="run 'graphmill check' to see them, fix the data or the spec's "
                 "checks.severity, or build with --even-if-failing",
             )
@@ -99,10 +101,11 @@ class Pipeline:
             self.spec, snapshot, checks_summary=report.summary(), progress=self.progress
         )
 
-    def run(self, *, even_if_failing: bool = False) -> RunResult:
-        """Pull, check and, if the checks pass (or ``even_if_failing``), build."""
+    def run(self, *, even_if_failing: bool = False, fresh: bool = False) -> RunResult:
+        """Pull (from scratch with ``fresh``), check and, if the checks pass (or
+        ``even_if_failing``), build."""
         started = time.perf_counter()
-        pulled = self.pull()
+        pulled = self.pull(fresh=fresh)
         report = self.check()
         built = None
         if report.passed or even_if_failing:
@@ -110,12 +113,35 @@ class Pipeline:
         return RunResult(pulled, report, built, time.perf_counter() - started)
 
 
+def _first_error(report: Report) -> str:
+    """The first error finding in a few words: rule, subject and one offender, so that the
+    one-line refusal leads to the row (values capped at 60 characters)."""
+    from graphmill.validate._findings import subject_label
+
+    first = next(f for f in report.findings if f.severity == "error")
+    text = f"{first.rule} on {subject_label(first.subject)}"
+    if first.sample:
+        shown = ", ".join(f"{k} {_capped(v)}" for k, v in first.sample[0].items())
+        text += f" (e.g. {shown})"
+    guesses = first.details.get("did_you_mean")
+    if guesses:
+        text += f" (did you mean {' or '.join(_capped(g) for g in guesses)}?)"
+    return text
+
+
+def _capped(value: Any, limit: int = 60) -> str:
+    text = repr(
+        value if isinstance(value, str | int | float | bool) or value is None else str(value)
+    )
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
 def _pipeline(spec: PipelineSpec | str | Path) -> Pipeline:
     return Pipeline(spec) if isinstance(spec, PipelineSpec) else Pipeline.from_file(spec)
 
 
-def pull(spec: PipelineSpec | str | Path) -> PullInfo:
-    return _pipeline(spec).pull()
+def pull(spec: PipelineSpec | str | Path, *, fresh: bool = False) -> PullInfo:
+    return _pipeline(spec).pull(fresh=fresh)
 
 
 def check(spec: PipelineSpec | str | Path) -> Report:
@@ -126,5 +152,7 @@ def build(spec: PipelineSpec | str | Path, *, even_if_failing: bool = False) -> 
     return _pipeline(spec).build(even_if_failing=even_if_failing)
 
 
-def run(spec: PipelineSpec | str | Path, *, even_if_failing: bool = False) -> RunResult:
-    return _pipeline(spec).run(even_if_failing=even_if_failing)
+def run(
+    spec: PipelineSpec | str | Path, *, even_if_failing: bool = False, fresh: bool = False
+) -> RunResult:
+    return _pipeline(spec).run(even_if_failing=even_if_failing, fresh=fresh)

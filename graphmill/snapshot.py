@@ -2,7 +2,12 @@
 
 Pulling writes pages into a staging folder beside the snapshot (``<snapshot>.staging``), one
 Parquet part per page with a checkpoint per work unit, so an interrupted pull resumes where it
-stopped. Finishing merges the parts of each table, unifies their types, sorts rows into a
+stopped. Each checkpoint holds the unit's input fingerprint (see
+:meth:`~graphmill.connectors.base.GraphSource.fingerprint`): a resumed pull whose fingerprint
+differs discards what that unit staged and reads it again, and says so in the pull's
+warnings; ``fresh=True`` discards every staged unit. The snapshot's provenance lists the
+fingerprints it was pulled under (``source.inputs``, without modification times).
+Finishing merges the parts of each table, unifies their types, sorts rows into a
 canonical order (by IDs, then by the other columns) and publishes the snapshot atomically.
 The same graph therefore gives the same snapshot whatever the paging, partitioning, order of
 extraction or number of interruptions.
@@ -12,6 +17,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import logging
 import shutil
 from collections.abc import Callable, Iterable
 from concurrent.futures import ThreadPoolExecutor
@@ -36,8 +42,11 @@ from graphmill._columns import (
     value_kinds_of,
 )
 from graphmill._progress import Progress, SilentProgress
+from graphmill._snapshot_gate import add_gate_facts, keys_where_absent
 from graphmill._version import __version__
+from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
+    RAW_PREFIX,
     SOURCE_ID,
     TARGET_ID,
     VERTEX_ID,
@@ -49,6 +58,7 @@ from graphmill.errors import BundleIntegrityError, InputError, SourceUnavailable
 from graphmill.privacy import personal_data_warnings
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 
+_log = logging.getLogger("graphmill")
 SNAPSHOT_FORMAT = 1
 SNAPSHOT_FILE = "snapshot.json"
 PARQUET_OPTIONS: dict[str, Any] = {"compression": "zstd", "row_group_size": 1 << 20}
@@ -66,6 +76,7 @@ class PullInfo:
     pages_read: int
     seconds: float = 0.0
     warnings: list[str] = field(default_factory=list)
+    restarted: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -77,6 +88,7 @@ class PullInfo:
             "pages_read": self.pages_read,
             "seconds": round(self.seconds, 3),
             "warnings": self.warnings,
+            "restarted": self.restarted,
         }
 
 
@@ -91,20 +103,23 @@ def _spec_fingerprint(spec: PipelineSpec) -> str:
 class Stager:
     """Writes pages of work units into ``<snapshot>.staging`` with a checkpoint per unit."""
 
-    def __init__(self, spec: PipelineSpec, source: GraphSource) -> None:
+    def __init__(self, spec: PipelineSpec, source: GraphSource, *, fresh: bool = False) -> None:
         self.spec = spec
         self.source = source
+        self.fresh = fresh
         self.root = Path(f"{spec.output.snapshot}.staging")
         self.pages_read = 0
         self.units_resumed = 0
+        self.inputs: dict[str, Any] = {}  # unit id -> input fingerprint
+        self.restarted: dict[str, str] = {}  # unit id -> why its staged pages were dropped
 
     def prepare(self) -> None:
         fingerprint = _spec_fingerprint(self.spec)
         marker = self.root / "fingerprint"
         if self.root.exists() and (
-            not marker.exists() or marker.read_text().strip() != fingerprint
+            self.fresh or not marker.exists() or marker.read_text().strip() != fingerprint
         ):
-            shutil.rmtree(self.root)  # staged under another spec: start afresh
+            shutil.rmtree(self.root)  # asked to, or staged under another spec: start afresh
         self.root.mkdir(parents=True, exist_ok=True)
         if not marker.exists():
             write_bytes_atomic(marker, fingerprint.encode())
@@ -124,12 +139,21 @@ class Stager:
     def stage(self, unit: WorkUnit, progress_task: Any) -> None:
         directory = self.unit_dir(unit)
         directory.mkdir(parents=True, exist_ok=True)
+        fingerprint = self.source.fingerprint(unit)
+        self.inputs[unit.unit_id] = fingerprint
         state = self._checkpoint(unit)
+        start = {"pages": 0, "cursor": None, "done": False, "fingerprint": fingerprint}
+        if state["done"] or state["pages"]:
+            changed = changes(state.get("fingerprint"), fingerprint)
+            if changed:
+                self.restarted[unit.unit_id] = "; ".join(changed)
+                _log.info("%s: input changed, staged pages dropped", unit.unit_id)
+                state = start
         if state["done"]:
             self.units_resumed += 1
             return
         if not self.source.capabilities.can_resume:
-            state = {"pages": 0, "cursor": None, "done": False}
+            state = start
         elif state["pages"]:
             self.units_resumed += 1
         # Parts beyond the checkpoint were written by a run that stopped before saving it.
@@ -138,7 +162,12 @@ class Stager:
                 part.unlink()
         for page in self.source.read(unit, state["cursor"]):
             self._write_part(directory / f"part-{state['pages']:06d}.parquet", page)
-            state = {"pages": state["pages"] + 1, "cursor": page.cursor, "done": False}
+            state = {
+                "pages": state["pages"] + 1,
+                "cursor": page.cursor,
+                "done": False,
+                "fingerprint": fingerprint,
+            }
             self._save_checkpoint(unit, state)
             self.pages_read += 1
             progress_task.advance(page.batch.num_rows)
@@ -151,6 +180,9 @@ class Stager:
             name: kinds.get(name) or value_kinds_of(batch.column(i))
             for i, name in enumerate(batch.schema.names)
         }
+        for name, raw in (page.raw or {}).items():  # ill-typed values' text, when there are any
+            if raw.null_count < len(raw):
+                batch = batch.append_column(RAW_PREFIX + name, raw.cast(pa.string()))
         schema = batch.schema.with_metadata({VALUE_KINDS_KEY: encode_kinds(profile)})
         table = pa.Table.from_batches([batch.replace_schema_metadata(schema.metadata)], schema)
         scratch = path.with_suffix(".writing")
@@ -169,13 +201,18 @@ def pull(
     source: GraphSource,
     *,
     progress: Progress | None = None,
+    fresh: bool = False,
 ) -> PullInfo:
-    """Extract every work unit of ``source`` into the spec's snapshot folder."""
+    """Extract every work unit of ``source`` into the spec's snapshot folder.
+
+    Resumes what an interrupted pull staged, unit by unit, unless ``fresh`` or the unit's
+    input fingerprint changed (then the unit is read again and the pull's warnings say so).
+    """
     import time
 
     started = time.perf_counter()
     progress = progress or SilentProgress()
-    stager = Stager(spec, source)
+    stager = Stager(spec, source, fresh=fresh)
     created = _first_missing_ancestor(stager.root)
     stager.prepare()
     try:
@@ -198,6 +235,9 @@ def pull(
                     pool.shutdown(wait=True, cancel_futures=True)
             provenance = source.provenance().to_dict()
             discovery = source.discover()
+            keys = keys_where_absent(spec, source, stager.parts, units)
+        inputs = {u.unit_id: publishable(stager.inputs.get(u.unit_id)) for u in units}
+        provenance["inputs"] = {k: v for k, v in inputs.items() if v is not None}
     except BaseException as exc:
         # Keep staged pages for a resume, unless they are useless: bad input, or nothing staged.
         bad_input = getattr(exc, "exit_code", None) == 2
@@ -205,11 +245,16 @@ def pull(
             shutil.rmtree(stager.root, ignore_errors=True)
             _remove_empty(created)
         raise
-    info = publish_snapshot(spec, stager, units, provenance, discovery)
+    info = publish_snapshot(spec, stager, units, provenance, discovery, keys)
     shutil.rmtree(stager.root, ignore_errors=True)
     info.units_total = len(units)
     info.units_resumed = stager.units_resumed
     info.pages_read = stager.pages_read
+    info.restarted = sorted(stager.restarted)
+    info.warnings = [
+        f"{unit_id}: restarted, its input changed since it was staged ({why})"
+        for unit_id, why in sorted(stager.restarted.items())
+    ] + info.warnings
     info.seconds = time.perf_counter() - started
     return info
 
@@ -349,6 +394,7 @@ def publish_snapshot(
     units: list[WorkUnit],
     provenance: dict[str, Any],
     discovery: dict[str, Any] | None,
+    source_keys: dict[tuple[str, str], list[str]] | None = None,
 ) -> PullInfo:
     tables: list[dict[str, Any]] = []
     warnings: list[str] = []
@@ -377,7 +423,9 @@ def publish_snapshot(
                 name, table, {p.name: p.source_key for p in vt.properties}
             )
             vertex_counts[name] = table.num_rows
-            tables.append(_table_entry("vertices", name, rel_path, scratch, table, kinds))
+            entry = _table_entry("vertices", name, rel_path, scratch, table, kinds)
+            add_gate_facts(entry, stager.parts(mine), [VERTEX_ID], scratch, source_keys)
+            tables.append(entry)
         for rel in spec.relations:
             dotted = rel.key.dotted
             mine = [u for u in units if u.table == "edges" and u.name == dotted]
@@ -390,7 +438,9 @@ def publish_snapshot(
                 dotted, table, {p.name: p.source_key for p in rel.properties}
             )
             edge_counts[dotted] = table.num_rows
-            tables.append(_table_entry("edges", dotted, rel_path, scratch, table, kinds))
+            entry = _table_entry("edges", dotted, rel_path, scratch, table, kinds)
+            add_gate_facts(entry, stager.parts(mine), [SOURCE_ID, TARGET_ID], scratch, source_keys)
+            tables.append(entry)
         document = {
             "snapshot_format": SNAPSHOT_FORMAT,
             "graphmill_version": __version__,
@@ -451,9 +501,15 @@ class Snapshot:
             )
         document = json.loads(manifest.read_text())
         if verify:
-            for entry in document["tables"]:
-                path = root / entry["file"]
-                if not path.exists() or sha256_file(path) != entry["sha256"]:
+            files = [(e["file"], e["sha256"]) for e in document["tables"]]
+            files += [
+                (e["ill_typed"]["file"], e["ill_typed"]["sha256"])
+                for e in document["tables"]
+                if "ill_typed" in e
+            ]
+            for name, digest in files:
+                path = root / name
+                if not path.exists() or sha256_file(path) != digest:
                     raise BundleIntegrityError(
                         "snapshot file is missing or its sha256 differs from snapshot.json",
                         file=str(path),
@@ -480,6 +536,16 @@ class Snapshot:
     def value_kinds(self, kind: str, name: str) -> dict[str, dict[str, int]]:
         entry = self._entries[(kind, name)]
         return {c["name"]: c["value_kinds"] for c in entry["columns"]}
+
+    def ill_typed(self, kind: str, name: str) -> pa.Table | None:
+        """The table's ill-typed values (IDs, ``property``, ``raw``), or None if it has none."""
+        entry = self._entries[(kind, name)].get("ill_typed")
+        return pq.read_table(self.root / entry["file"]) if entry else None
+
+    def source_keys(self, kind: str, name: str) -> list[str] | None:
+        """The property keys the source held for the table, when the pull recorded them."""
+        keys = self._entries[(kind, name)].get("source_keys")
+        return list(keys) if keys is not None else None
 
     @property
     def provenance(self) -> dict[str, Any]:

@@ -14,6 +14,13 @@ resume *after* that page. The stager persists pages and cursors, so a source tha
 (the stager unifies them); a page whose column holds values of several kinds rendered as
 strings reports them in ``value_kinds``.
 
+**Ill-typed values**: a value that cannot be read as the kind it must have (its declared
+``kind``; for RDF literals, their datatype) is null in its column, counted under the kind
+``ill-typed`` in ``value_kinds``, and its text is kept in ``raw``: per property, a string
+array aligned with the batch's rows, holding the source's text of each ill-typed value (null
+elsewhere). Every source applies a declared ``kind`` this way (integers are accepted where
+``float`` is declared), so one defect reads the same from every source.
+
 **Property facets** (for sources that hold facts rather than rows, such as RDF): a source may
 split a vertex type into one *membership* unit (``facet=None``; pages hold ``vertex_id`` only)
 and one unit per property (``facet="age"``; pages hold ``vertex_id`` and ``age``, one value
@@ -21,6 +28,10 @@ per row, in any order, a vertex on several rows when it has several values). The
 joins them into one row per vertex: values of a ``multi`` property become a sorted list; of a
 single-valued one, the smallest value is kept and the number of vertices that had more is
 recorded as a snapshot warning. Vertices without membership rows are not created.
+
+**Fingerprints**: :meth:`GraphSource.fingerprint` describes what a unit reads (files: size,
+modification time, sha256; servers: counts and key digests). The stager records it in the
+unit's checkpoint; a resumed pull whose fingerprint differs restarts that unit.
 """
 
 from __future__ import annotations
@@ -35,6 +46,8 @@ import pyarrow as pa
 from graphmill.spec import PipelineSpec, RelationKey
 
 VERTEX_ID = "vertex_id"
+#: staged part columns holding ``Page.raw`` are named RAW_PREFIX + property name
+RAW_PREFIX = "graphmill.raw:"
 SOURCE_ID = "source_id"
 TARGET_ID = "target_id"
 
@@ -74,6 +87,7 @@ class Page:
     batch: pa.RecordBatch
     cursor: str | None = None
     value_kinds: dict[str, dict[str, int]] | None = None
+    raw: dict[str, pa.Array] | None = None  # property -> text of its ill-typed values
 
 
 @dataclass
@@ -116,6 +130,24 @@ class GraphSource(ABC):
     @abstractmethod
     def provenance(self) -> Provenance:
         """A publishable description of the source and the queries it ran."""
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any] | None:
+        """What ``unit`` reads, as a small JSON-able dict, or None if the source cannot tell.
+
+        Called (after :meth:`open`) before a unit is staged and again when a pull resumes: a
+        different answer means the input changed, and the staged pages of the unit are
+        discarded. It must be cheap next to reading the unit, and equal for unchanged input
+        (see :mod:`graphmill.connectors._fingerprints`).
+        """
+        return None
+
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """The property keys the source holds for ``unit``'s vertex type or relation (table
+        columns, RDF predicates of its subjects, Gremlin property keys of its label), at most
+        a few hundred, sorted; None if the source cannot tell. Called, while the source is
+        open, only for tables where a declared property has no value at all, so that the
+        check can suggest the key the spec probably meant."""
+        return None
 
     def discover(self) -> dict[str, Any] | None:
         """Optional schema discovery (labels, keys, observed value types)."""

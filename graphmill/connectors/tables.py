@@ -11,6 +11,7 @@ Parquet columns keep their types.
 
 from __future__ import annotations
 
+import contextlib
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
@@ -22,6 +23,8 @@ import pyarrow.parquet as pq
 
 from graphmill._columns import value_kinds_of
 from graphmill.connectors import _lexical
+from graphmill.connectors._declared import ILL_TYPED, apply_declared, ill_typed_text
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -32,7 +35,7 @@ from graphmill.connectors.base import (
     SourceCapabilities,
     WorkUnit,
 )
-from graphmill.errors import InputError, SourceUnavailableError, SpecError
+from graphmill.errors import GraphmillError, InputError, SourceUnavailableError, SpecError
 from graphmill.spec import PipelineSpec, PropertySpec, RelationSpec
 
 BLOCK_SIZE = 16 << 20
@@ -57,6 +60,7 @@ class TableFilesSource(GraphSource):
                     f"vertex type {entry['type']!r} is not declared under vertex_types",
                     key_path=f"source.vertex_files[{i}].type",
                 )
+        self._prints = FileFingerprints()
 
     def _relation_by_reference(self, ref: str, key_path: str) -> RelationSpec:
         found = [r for r in self.spec.relations if ref in (r.key.name, r.key.dotted)]
@@ -72,6 +76,41 @@ class TableFilesSource(GraphSource):
     def provenance(self) -> Provenance:
         paths = [e["path"] for e in self.vertex_files + self.edge_files]
         return Provenance(kind=self.kind, location=", ".join(paths))
+
+    # -- input fingerprints (resume checks) ------------------------------------------------
+    def _unit_entries(self, unit: WorkUnit) -> list[dict[str, Any]]:
+        """The file entries ``read(unit)`` reads."""
+        if unit.table == "vertices":
+            return [
+                e
+                for e in self.vertex_files
+                if "type_column" in e or e.get("type", unit.name) == unit.name
+            ]
+        return [
+            e
+            for e in self.edge_files
+            if "relation" not in e
+            or self._relation_by_reference(e["relation"], "").key.dotted == unit.name
+        ]
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every file the unit reads."""
+        entries = self._unit_entries(unit)
+        return self._prints.of_files(
+            (self.spec.resolve_path(e["path"]), e["path"]) for e in entries
+        )
+
+    def property_keys(self, unit: WorkUnit) -> list[str]:
+        """The column names of the files the unit reads (their headers or schemas)."""
+        names: set[str] = set()
+        for entry in self._unit_entries(unit):
+            path = self.spec.resolve_path(entry["path"])
+            with contextlib.suppress(GraphmillError, OSError, pa.ArrowException):
+                if _format_of(path, entry) == "parquet":
+                    names.update(pq.read_schema(path).names)
+                else:
+                    names.update(_csv_header(path, entry))
+        return sorted(names)
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if unit.table == "vertices":
@@ -147,12 +186,20 @@ class TableFilesSource(GraphSource):
                 batch = batch.filter(pc.equal(batch.column(select_column), select_value))
             columns: dict[str, pa.Array] = {}
             kinds: dict[str, dict[str, int]] = {}
+            raw: dict[str, pa.Array] = {}
             for source_name, name in zip(key_columns, key_names, strict=True):
                 ids = batch.column(source_name)
                 columns[name] = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
             for prop in properties:
-                columns[prop.name], kinds[prop.name] = _typed(batch.column(prop.source_key), prop)
-            yield Page(pa.record_batch(columns), value_kinds=kinds)
+                column = batch.column(prop.source_key)
+                columns[prop.name], kinds[prop.name] = _typed(column, prop)
+                # the gate: ill-typed values become null, counted, their text kept
+                columns[prop.name], kinds[prop.name], text = _ill_typed(
+                    column, columns[prop.name], kinds[prop.name], prop
+                )
+                if text is not None:
+                    raw[prop.name] = text
+            yield Page(pa.record_batch(columns), value_kinds=kinds, raw=raw or None)
 
 
 def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, int]]:
@@ -164,13 +211,29 @@ def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, in
     return _lexical.parse_kind(values, kind), counts
 
 
+def _ill_typed(
+    column: pa.Array, typed: pa.Array, counts: dict[str, int], prop: PropertySpec
+) -> tuple[pa.Array, dict[str, int], pa.Array | None]:
+    """Apply the gate of :mod:`graphmill.connectors._declared` after typing: typed Parquet
+    columns under a declared kind; text cells that did not parse as their kind (declared or
+    inferred) counted as ``ill-typed`` with their text, instead of under their own kind."""
+    if not pa.types.is_string(column.type):
+        return apply_declared(typed, prop.kind)
+    if prop.kind == "string":
+        return typed, ({"string": sum(counts.values())} if counts else {}), None
+    text = _lexical.blank_to_null(column)
+    raw = ill_typed_text(text, typed)
+    if raw is None:
+        return typed, counts, None
+    good = _lexical.kind_counts(text.filter(pc.is_valid(typed)))
+    return typed, {**good, ILL_TYPED: len(raw) - raw.null_count}, raw
+
+
 def _read_batches(
     path: Path, entry: dict[str, Any], columns: list[str]
 ) -> Iterator[tuple[pa.RecordBatch, int]]:
     """Batches of the needed columns, each with the 1-based data row number of its first row."""
-    fmt = entry.get("format") or (
-        "parquet" if path.suffix.lower() in (".parquet", ".pq") else "csv"
-    )
+    fmt = _format_of(path, entry)
     if not path.is_file():
         raise SourceUnavailableError(
             "file not found" if not path.exists() else "not a readable file",
@@ -212,6 +275,11 @@ def _read_batches(
         ) from exc
 
 
+def _format_of(path: Path, entry: dict[str, Any]) -> str:
+    suffix = path.suffix.lower()
+    return str(entry.get("format") or ("parquet" if suffix in (".parquet", ".pq") else "csv"))
+
+
 def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:
     import csv
 
@@ -225,8 +293,12 @@ def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:
 def _require_columns(present: list[str], needed: list[str], path: Path) -> None:
     missing = [c for c in needed if c not in present]
     if missing:
+        import difflib  # the gate: the same did-you-mean as absent-property's
+
+        close = difflib.get_close_matches(missing[0], present, n=1, cutoff=0.6)
+        guess = f"did you mean {close[0]!r}? " if close else ""
         raise InputError(
-            f"missing column {missing[0]!r} (the file has: {', '.join(present)})",
+            f"missing column {missing[0]!r} ({guess}the file has: {', '.join(present)})",
             file=str(path),
             line=1,
             hint="rename the column in the file or change the column name in the spec",

@@ -122,6 +122,16 @@ class CheckContext:
     def value_kinds(self, table: str, name: str) -> dict[str, dict[str, int]]:
         return self.snapshot.value_kinds(table, name) if self.has(table, name) else {}
 
+    def ill_typed(self, table: str, name: str) -> pa.Table | None:
+        """The snapshot's ill-typed values of a table (IDs, property, raw), if any."""
+        if not self.has(table, name):
+            return None
+        return self.memo(("ill", table, name), lambda: self.snapshot.ill_typed(table, name))
+
+    def source_keys(self, table: str, name: str) -> list[str] | None:
+        """The property keys the source held for a table, if the pull recorded them."""
+        return self.snapshot.source_keys(table, name) if self.has(table, name) else None
+
     def property_columns(self, table: str, name: str) -> list[str]:
         """The table's property columns (every column but the IDs), in table order."""
         ids = ID_COLUMNS[table]

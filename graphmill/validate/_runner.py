@@ -7,9 +7,12 @@ Subjects per rule:
   and ``one-way-edge`` when declared undirected (between two types an edge has no reverse
   within its own relation, and a shared id names two different vertices);
 * per vertex type: ``duplicate-vertex-id``, ``isolated-vertex``, ``edgeless-vertex-type``;
-* per property column: ``mixed-value-kinds``; ``unexpected-value-kind`` where a ``kind``
-  is declared or ill-typed values were seen; ``null-rate`` (except the label, which
-  ``unlabeled-vertices`` covers); ``non-finite-number`` on float columns;
+* per property column: ``mixed-value-kinds`` (under a declared kind the sources leave no
+  mix but integers with floats: every other value is ill-typed, see
+  ``graphmill/connectors/_declared.py``); ``unexpected-value-kind`` where a ``kind`` is
+  declared or ill-typed values were seen; ``absent-property`` on declared properties of
+  non-empty tables; ``null-rate`` (except the label, which ``unlabeled-vertices`` covers);
+  ``non-finite-number`` on float columns;
   ``value-out-of-range`` on numeric columns with a declared ``min`` or ``max``;
 * the label: ``unlabeled-vertices``, ``thin-class``;
 * what ``checks.expect`` names: the contract rules; the whole graph:
@@ -95,6 +98,14 @@ def _kind_known(ctx: CheckContext) -> list[Subject]:
     return [subject_of(*w) for w in _columns(ctx) if known(*w)]
 
 
+def _declared_in_rows(ctx: CheckContext) -> list[Subject]:
+    return [
+        subject_of(*w)
+        for w in _columns(ctx)
+        if ctx.property_spec(*w) is not None and ctx.table(*w[:2]).num_rows > 0
+    ]
+
+
 def _not_label(ctx: CheckContext) -> list[Subject]:
     label = ctx.spec.label
     skip = ("vertices", label.vertex_type, label.property) if label else None
@@ -157,6 +168,7 @@ CHECKS: tuple[tuple[str, Subjects, Check], ...] = (
     ("edgeless-vertex-type", _vertex_types, vertex.check_edgeless_type),
     ("mixed-value-kinds", _all_properties, props.check_mixed_kinds),
     ("unexpected-value-kind", _kind_known, props.check_unexpected_kind),
+    ("absent-property", _declared_in_rows, props.check_absent_property),
     ("null-rate", _not_label, props.check_null_rate),
     ("non-finite-number", _float_columns, props.check_non_finite),
     ("value-out-of-range", _bounded, props.check_out_of_range),

@@ -84,14 +84,18 @@ def test_csv_dump_becomes_a_typed_snapshot(tmp_path, write):
         None,
         dt.datetime(2021, 3, 4, 5, 6, 7, tzinfo=dt.UTC),
     ]
-    assert snap.value_kinds("vertices", "person")["joined"] == {"date": 1, "datetime": 1}
+    # ill-typed under the declared kind: counted as such, its text kept beside the table
+    assert snap.value_kinds("vertices", "person")["joined"] == {"datetime": 1, "ill-typed": 1}
+    assert snap.ill_typed("vertices", "person").to_pylist() == [
+        {"vertex_id": "p1", "property": "joined", "raw": "2020-01-02"}
+    ]
     assert snap.vertices("company").column("note").to_pylist() == ["multi\nline"]
     works = snap.edges(RelationKey("person", "works_at", "company"))
     assert works.column("source_id").to_pylist() == ["p1", "p2"]
     assert works.column("since").to_pylist() == [None, 2019]
     assert snap.value_kinds("edges", "person.works_at.company")["since"] == {
         "integer": 1,
-        "string": 1,
+        "ill-typed": 1,
     }
 
 

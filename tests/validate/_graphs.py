@@ -25,11 +25,13 @@ Columns = Mapping[str, Sequence[Any] | pa.Array]
 
 @dataclass(frozen=True)
 class KindedPage:
-    """A page whose source reports its own value-kind profile (as the RDF sources do for
-    ill-typed literals): ``value_kinds`` is ``{column: {kind: count}}``."""
+    """A page whose source reports its own value-kind profile (as every source does for
+    ill-typed values): ``value_kinds`` is ``{column: {kind: count}}``; ``raw`` the text of
+    the ill-typed values, ``{column: [text or None per row]}``."""
 
     columns: Columns | pa.Table
     value_kinds: Mapping[str, Mapping[str, int]]
+    raw: Mapping[str, Sequence[str | None]] | None = None
 
 
 PageLike = Columns | pa.Table | KindedPage
@@ -37,9 +39,11 @@ Pages = PageLike | Sequence[PageLike]
 
 
 def _page(value: PageLike) -> Page:
-    kinds = None
+    kinds, raw = None, None
     if isinstance(value, KindedPage):
         kinds = {k: dict(v) for k, v in value.value_kinds.items()}
+        if value.raw is not None:
+            raw = {k: pa.array(list(v), pa.string()) for k, v in value.raw.items()}
         value = value.columns
     table = value if isinstance(value, pa.Table) else pa.table(dict(value))
     return Page(
@@ -47,6 +51,7 @@ def _page(value: PageLike) -> Page:
         if table.num_rows
         else pa.RecordBatch.from_pylist([], schema=table.schema),
         value_kinds=kinds,
+        raw=raw,
     )
 
 
@@ -89,6 +94,16 @@ class InMemorySource(GraphSource):
 
     def provenance(self) -> Provenance:
         return Provenance(kind=self.kind, location="tests/validate", queries=[])
+
+    def property_keys(self, unit: WorkUnit) -> list[str]:
+        """The column names of the unit's pages (what a table source reports)."""
+        pages = [
+            p
+            for (t, n, _), ps in self._tables.items()
+            if (t, n) == (unit.table, unit.name)
+            for p in ps
+        ]
+        return sorted({name for page in pages for name in page.batch.schema.names})
 
 
 def make_spec(tmp_path: Path, **document: Any) -> PipelineSpec:

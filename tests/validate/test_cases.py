@@ -27,8 +27,12 @@ def _load_cases() -> list[Any]:
 
 def _pages(value: Any) -> Any:
     def one(page: Any) -> Any:
-        if isinstance(page, dict) and set(page) == {"columns", "value_kinds"}:
-            return KindedPage(page["columns"], page["value_kinds"])
+        if isinstance(page, dict) and {"columns", "value_kinds"} <= set(page) <= {
+            "columns",
+            "value_kinds",
+            "raw",
+        }:
+            return KindedPage(page["columns"], page["value_kinds"], page.get("raw"))
         return page
 
     return [one(p) for p in value] if isinstance(value, list) else one(value)

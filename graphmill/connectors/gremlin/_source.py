@@ -18,6 +18,7 @@ from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
+from graphmill.connectors._fingerprints import key_digest
 from graphmill.connectors.base import (
     GraphSource,
     Page,
@@ -31,7 +32,7 @@ from graphmill.connectors.gremlin._errors import call_with_retries
 from graphmill.connectors.gremlin._pages import StreamPager, rows_to_batch
 from graphmill.connectors.gremlin._settings import GremlinSettings
 from graphmill.connectors.gremlin._traversals import Scope
-from graphmill.errors import InputError
+from graphmill.errors import InputError, SourceServerError
 from graphmill.spec import PipelineSpec, PropertySpec
 
 META_SUFFIX = "__meta"
@@ -159,15 +160,18 @@ class GremlinSource(GraphSource):
                 rows = call_with_retries(self.settings, reader.next_rows)
                 if not rows:
                     break
+                raw: dict[str, Any] = {}
                 batch, kinds = rows_to_batch(
                     rows,
                     f"{unit.table} {unit.name}",
                     shape.scope.edges,
                     shape.properties,
                     [name for name, _key in shape.meta_columns],
+                    raw,
                 )
                 state = state.advanced(rows[-1][0], len(rows))
-                yield Page(batch, cursor=_cursor.encode(state), value_kinds=kinds or None)
+                cursor = _cursor.encode(state)
+                yield Page(batch, cursor=cursor, value_kinds=kinds or None, raw=raw or None)
         finally:
             reader.close()
         expected = int(self.pool.fetch(_traversals.count(shape.scope).bytecode)[0])
@@ -178,6 +182,28 @@ class GremlinSource(GraphSource):
                 f"{self.spec.output.snapshot}.staging and pull again when the graph is stable",
                 source=self.settings.url,
             )
+
+    # -- input fingerprints (resume checks) ---------------------------------------------
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """The unit's element count and digests of its smallest and largest ids: three
+        streaming server-side aggregates (no sort). A change of property values alone,
+        with the same elements, is not seen."""
+        scope = self.shape(unit).scope
+        count = int(self.pool.fetch(_traversals.count(scope).bytecode)[0])
+        ends = []
+        for which in ("min", "max"):
+            try:
+                found = self.pool.fetch(_traversals.id_extreme(scope, which).bytecode)
+            except SourceServerError:  # ids the server cannot compare: read() will say so
+                found = []
+            ends.append(key_digest(found[0]) if found and found[0] is not None else None)
+        return {"count": count, "first": ends[0], "last": ends[1]}
+
+    def property_keys(self, unit: WorkUnit) -> list[str]:
+        """Distinct property keys of the unit's label (at most 500)."""
+        scope = self.shape(WorkUnit(unit.table, unit.name)).scope
+        keys = self.pool.fetch(_traversals.property_keys(scope, 500).bytecode)
+        return sorted(str(k) for k in keys)
 
     # -- description -----------------------------------------------------------------
     def provenance(self) -> Provenance:

@@ -99,6 +99,18 @@ def count(scope: Scope) -> GraphTraversal:
     return elements(scope, via_out=True).count()
 
 
+def id_extreme(scope: Scope, which: str) -> GraphTraversal:
+    """The smallest (``which="min"``) or largest id of the unit: a streaming aggregate, no
+    sort (no result, or null, when the unit is empty)."""
+    ids = elements(scope, via_out=True).id_()  # the same set, reached as count() does
+    return ids.min_() if which == "min" else ids.max_()
+
+
+def property_keys(scope: Scope, limit: int) -> GraphTraversal:
+    """Distinct property keys of the unit's elements (at most ``limit``)."""
+    return elements(scope).properties().key().dedup().limit(limit)
+
+
 def boundaries(scope: Scope, positions: list[int]) -> GraphTraversal:
     """The ids at ``positions`` of the unit's sorted ids, in one sort: a map ``b<n> -> [id]``
     (an empty list where a position is past the end)."""

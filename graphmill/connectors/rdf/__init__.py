@@ -27,7 +27,10 @@ How RDF becomes a property graph
   few forms XSD does not (``inf``, ``Infinity``, ``+NaN`` as xsd:double); an endpoint on
   another server may report those as ill-typed. A literal outside its datatype's lexical
   space (``"abc"^^xsd:integer``), or one the column cannot hold (an integer beyond int64, a
-  year outside 1-9999), is null and is counted under the value kind ``ill-typed``.
+  year outside 1-9999), is null and is counted under the value kind ``ill-typed``; its
+  lexical form goes to the snapshot (``Page.raw``). Under a declared ``kind``, literals of
+  another kind are ill-typed too, and under ``kind: string`` every literal is its lexical
+  form (:mod:`graphmill.connectors._declared`).
 * **Several kinds in one property.** integer + float -> float64; any other mix -> strings,
   rendered as the snapshot renders typed values (``1``, ``2.5``, ``true``,
   ``2020-01-01T00:00:00.000000``), with the kind counts in the value-kind profile. The column

@@ -22,11 +22,12 @@ from collections.abc import Iterator
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from graphmill._columns import conform
-from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID, Page, WorkUnit
+from graphmill._columns import KIND_TO_ARROW, conform
+from graphmill.connectors._declared import accepted_kinds
+from graphmill.connectors.base import RAW_PREFIX, SOURCE_ID, TARGET_ID, VERTEX_ID, Page, WorkUnit
 from graphmill.connectors.rdf._plan import RdfPlan
 from graphmill.connectors.rdf._queries import CLASH, SOURCE, TARGET, VALUE, VERTEX
-from graphmill.connectors.rdf._xsd import ILL_TYPED, XSD_STRING, literal_values
+from graphmill.connectors.rdf._xsd import ILL_TYPED, XSD_STRING, LiteralValues, literal_values
 from graphmill.errors import InputError
 
 DEFAULT_PAGE_ROWS = 100_000
@@ -71,13 +72,18 @@ def _check_clashes(terms: pa.Table, plan: RdfPlan, vertex_type: str) -> None:
 
 
 def typed_values(
-    lexical: pa.Array, datatype: pa.Array, lang: pa.Array | None = None
+    lexical: pa.Array,
+    datatype: pa.Array,
+    lang: pa.Array | None = None,
+    declared: str | None = None,
 ) -> tuple[pa.Array, pa.Array, pa.Array]:
     """(values, kinds, identity) of literals, with one column type for all (module doc).
 
-    ``identity`` is a string equal for equal values of one kind, used to drop repeats.
+    ``identity`` is a string equal for equal values of one kind, used to drop repeats. A
+    ``declared`` kind applies the gate of :mod:`graphmill.connectors._declared`: literals of
+    other kinds become ``ill-typed`` (null); under ``string`` every literal is its lexical form.
     """
-    read = literal_values(lexical, datatype)
+    read = _declared_read(literal_values(lexical, datatype), lexical, declared)
     lang = pa.nulls(len(lexical), pa.string()) if lang is None else lang
     present = {k for k in read.values if k in pc.unique(read.kinds).to_pylist()}
     rendered = {k: conform(v, pa.string()) for k, v in read.values.items()}
@@ -97,18 +103,44 @@ def typed_values(
     return values, read.kinds, identity
 
 
+def _declared_read(read: LiteralValues, lexical: pa.Array, declared: str | None) -> LiteralValues:
+    """``read`` under a declared kind (see :func:`typed_values`)."""
+    if declared is None or declared not in KIND_TO_ARROW:
+        return read
+    lexical = lexical.combine_chunks() if isinstance(lexical, pa.ChunkedArray) else lexical
+    if declared == "string":
+        kinds = pc.if_else(pc.is_valid(read.kinds), "string", pa.scalar(None, pa.string()))
+        text = pc.if_else(pc.is_valid(kinds), lexical, pa.scalar(None, pa.string()))
+        return LiteralValues(kinds, {"string": text})
+    accepted = accepted_kinds(declared)
+    ok = pc.fill_null(pc.is_in(read.kinds, value_set=pa.array(sorted(accepted))), False)
+    kinds = pc.if_else(ok, read.kinds, pc.if_else(pc.is_valid(read.kinds), ILL_TYPED, None))
+    target = KIND_TO_ARROW[declared]
+    kept = [read.values[k].cast(target) for k in sorted(accepted) if k in read.values]
+    values = pc.coalesce(*kept) if kept else pa.nulls(len(lexical), target)
+    return LiteralValues(kinds, {declared: pc.if_else(ok, values, pa.scalar(None, target))})
+
+
+def ill_typed_raw(lexical: pa.Array, kinds: pa.Array) -> pa.Array:
+    """The lexical form of ill-typed literals, null for the others."""
+    return pc.if_else(pc.equal(kinds, ILL_TYPED), lexical, pa.scalar(None, pa.string()))
+
+
 def _distinct_values(
-    ids: pa.Array, values: pa.Array, kinds: pa.Array, identity: pa.Array
+    ids: pa.Array, values: pa.Array, kinds: pa.Array, identity: pa.Array, raw: pa.Array
 ) -> pa.Table:
-    """One row per (vertex, kind, value identity); the value of equal rows is equal."""
+    """One row per (vertex, kind, value identity); the value (and the raw text of an
+    ill-typed literal, which is part of its identity) of equal rows is equal."""
     keys = [VERTEX_ID, "kind", "identity"]
-    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity})
+    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity, "raw": raw})
     if pa.types.is_null(values.type):  # no typed value at all (none, or all ill-typed)
-        grouped = table.group_by(keys, use_threads=False).aggregate([])
+        grouped = table.group_by(keys, use_threads=False).aggregate([("raw", "first")])
+        grouped = grouped.rename_columns([*keys, "raw"])
         return grouped.append_column("value", pa.nulls(grouped.num_rows))
     table = table.append_column("value", values)
-    grouped = table.group_by(keys, use_threads=False).aggregate([("value", "first")])
-    return grouped.rename_columns([*keys, "value"])
+    aggregates = [("value", "first"), ("raw", "first")]
+    grouped = table.group_by(keys, use_threads=False).aggregate(aggregates)
+    return grouped.rename_columns([*keys, "value", "raw"])
 
 
 def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table, pa.Array | None]:
@@ -125,11 +157,19 @@ def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table
         return pa.table({VERTEX_ID: ids, unit.facet: graph}), pc.if_else(
             pc.is_valid(graph), "string", pa.scalar(None, pa.string())
         )
+    lexical = _column(terms, VALUE)
+    declared = plan.kinds.get((unit.name, unit.facet))
     values, kinds, identity = typed_values(
-        _column(terms, VALUE), _column(terms, VALUE + "_datatype"), _column(terms, VALUE + "_lang")
+        lexical, _column(terms, VALUE + "_datatype"), _column(terms, VALUE + "_lang"), declared
     )
-    distinct = _distinct_values(ids, values, kinds, identity)
-    table = pa.table({VERTEX_ID: distinct.column(VERTEX_ID), unit.facet: distinct.column("value")})
+    distinct = _distinct_values(ids, values, kinds, identity, ill_typed_raw(lexical, kinds))
+    table = pa.table(
+        {
+            VERTEX_ID: distinct.column(VERTEX_ID),
+            unit.facet: distinct.column("value"),
+            RAW_PREFIX + unit.facet: distinct.column("raw"),
+        }
+    )
     return table, distinct.column("kind").combine_chunks()
 
 
@@ -150,10 +190,14 @@ def unit_pages(
     table = table.combine_chunks()
     for start in range(0, table.num_rows, page_rows):
         batch = table.slice(start, page_rows).to_batches()[0]
-        value_kinds = None
+        value_kinds, raw = None, None
         if kinds is not None and unit.facet is not None:
             value_kinds = {unit.facet: _kind_counts(kinds.slice(start, page_rows))}
-        yield Page(batch=batch, value_kinds=value_kinds)
+        name = RAW_PREFIX + (unit.facet or "")
+        if name in batch.schema.names:  # the text of ill-typed literals goes beside the page
+            raw = {unit.facet or "": batch.column(name)}
+            batch = batch.drop_columns([name])
+        yield Page(batch=batch, value_kinds=value_kinds, raw=raw)
 
 
 __all__ = ["ILL_TYPED", "language_mask", "typed_values", "unit_pages", "unit_table"]

@@ -9,7 +9,7 @@ so a spec string can never change the text of a query; a refusal is a
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from graphmill.connectors.base import WorkUnit
 from graphmill.connectors.rdf._xsd import RDF
@@ -51,6 +51,7 @@ class RdfPlan:
     several_types: str
     languages: tuple[str, ...] | None  # lower case; "" keeps untagged strings
     graph_property: str | None
+    kinds: dict[tuple[str, str], str | None] = field(default_factory=dict)  # declared kinds
 
     def earlier_classes(self, vertex_type: str) -> tuple[str, ...]:
         """Classes of the vertex types declared before ``vertex_type`` (first-declared)."""
@@ -79,6 +80,7 @@ def resolve(spec: PipelineSpec) -> RdfPlan:
 
     classes: dict[str, str] = {}
     predicates: dict[tuple[str, str], str] = {}
+    kinds: dict[tuple[str, str], str | None] = {}
     for name, vt in spec.vertex_types.items():
         classes[name] = iri(vt.match, f"vertex_types.{name}.match")
         for prop in vt.properties:
@@ -90,6 +92,7 @@ def resolve(spec: PipelineSpec) -> RdfPlan:
                 )
             key = f"vertex_types.{name}.properties.{prop.name}.from"
             predicates[(name, prop.name)] = iri(prop.source_key, key)
+            kinds[(name, prop.name)] = prop.kind
     relations: dict[str, tuple[str, str]] = {}
     for i, rel in enumerate(spec.relations):
         if rel.properties:
@@ -114,6 +117,7 @@ def resolve(spec: PipelineSpec) -> RdfPlan:
         several_types=rdf.several_types,
         languages=languages,
         graph_property=rdf.graph_property,
+        kinds=kinds,
     )
 
 

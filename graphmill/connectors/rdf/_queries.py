@@ -193,3 +193,29 @@ def unit_query(
                 raise InputError(f"{word} must be a whole number >= 0, not {number!r}")
             text += f" {word} {number}"
     return text
+
+
+def fingerprint_query(spec: PipelineSpec, unit: WorkUnit) -> str:
+    """One aggregate row telling whether ``unit``'s answer changed: ``?n`` its row count,
+    ``?lo`` and ``?hi`` the smallest and largest IRI of its first variable (a blank node
+    counts as ``""``, its label being the server's own)."""
+    inner = unit_query(spec, unit).replace("\n", "\n    ")
+    first = unit_variables(spec, unit)[0]
+    return (  # the outer SELECT names plain variables, as every unit query does
+        "SELECT ?n ?lo ?hi WHERE {\n"
+        "  { SELECT (COUNT(*) AS ?n) (MIN(?key) AS ?lo) (MAX(?key) AS ?hi) WHERE {\n"
+        f"    {{ {inner} }}\n"
+        f'    BIND(IF(isIRI(?{first}), STR(?{first}), "") AS ?key)\n  }} }}\n}}'
+    )
+
+
+KEYS_LIMIT = 500
+
+
+def keys_query(spec: PipelineSpec, vertex_type: str) -> str:
+    """The distinct predicates of the subjects of ``vertex_type`` (at most ``KEYS_LIMIT``):
+    what a did-you-mean for a property without any value compares against."""
+    w = _Writer(resolve(spec))
+    lines = [*w.type_rules("?s", vertex_type), w.triple("?s", "?p", "?o")]
+    body = "".join(f"  {line}\n" for line in lines)
+    return f"SELECT DISTINCT ?p WHERE {{\n{body}}} LIMIT {KEYS_LIMIT}"

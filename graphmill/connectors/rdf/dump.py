@@ -18,6 +18,7 @@ from typing import Any, ClassVar
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._facts import FactTable, wanted_predicates
 from graphmill.connectors.rdf._files import (
@@ -131,6 +132,20 @@ class RdfFileSource(GraphSource):
             raise GraphmillError("the source is not open", hint="use it in a 'with' block")
         terms = self._facts.unit_terms(unit)
         yield from unit_pages(self.rdf, unit, terms, page_rows=self.page_rows)
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every dump (each unit reads them all)."""
+        prints = self.__dict__.setdefault("_prints", FileFingerprints())
+        return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
+
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """Predicates of the vertex type's subjects: the dumps are read once more, keeping
+        only subjects and predicates (asked only when a declared property had no value)."""
+        if unit.table != "vertices":
+            return None
+        from graphmill.connectors.rdf._keys import predicates_of
+
+        return predicates_of(self.spec, self.rdf, unit.name)
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)

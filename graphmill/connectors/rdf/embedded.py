@@ -9,11 +9,12 @@ from __future__ import annotations
 from collections.abc import Iterator
 from typing import Any, ClassVar
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._files import file_details, oxigraph, quads, spec_inputs
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
-from graphmill.connectors.rdf._queries import unit_query
+from graphmill.connectors.rdf._queries import keys_query, unit_query
 from graphmill.connectors.rdf._terms import read_tsv_results
 from graphmill.errors import GraphmillError, SourceServerError
 from graphmill.spec import PipelineSpec
@@ -62,8 +63,22 @@ class EmbeddedStoreSource(GraphSource):
             ) from exc
         return read_tsv_results(data, where=f"{self.kind} {unit.unit_id}")
 
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """Predicates of the vertex type's subjects (RDF edges carry no properties)."""
+        if unit.table != "vertices" or self._store is None:
+            return None
+        ox = oxigraph()
+        data = self._store.query(keys_query(self.spec, unit.name))
+        terms = read_tsv_results(data.serialize(format=ox.QueryResultsFormat.TSV), where="keys")
+        return sorted(terms.column("p").drop_null().to_pylist())
+
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         yield from unit_pages(self.rdf, unit, self.query_terms(unit), page_rows=self.page_rows)
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """Size, modification time and sha256 of every dump (each unit reads them all)."""
+        prints = self.__dict__.setdefault("_prints", FileFingerprints())
+        return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)

@@ -16,10 +16,18 @@ from typing import Any, ClassVar
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from graphmill.connectors._fingerprints import key_digest
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._mapping import unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
-from graphmill.connectors.rdf._queries import VERTEX, KeyRange, unit_query, unit_variables
+from graphmill.connectors.rdf._queries import (
+    VERTEX,
+    KeyRange,
+    fingerprint_query,
+    keys_query,
+    unit_query,
+    unit_variables,
+)
 from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
 from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
 from graphmill.connectors.sparql._settings import (
@@ -235,6 +243,35 @@ class SparqlEndpointSource(GraphSource):
             page = self._page(unit, terms, state.encode())
             if page is not None:
                 yield page
+
+    # ------------------------------------------------------------------ fingerprints
+
+    def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
+        """The unit's row count and digests of its smallest and largest subject IRI, from
+        one aggregate query (:func:`fingerprint_query`). A changed value alone, with the
+        same rows and ends, is not seen."""
+        if self._failure is not None:
+            raise self._failure  # the server already failed: do not ask it again per unit
+        try:
+            terms = self._terms(unit, fingerprint_query(self.spec, unit))
+        except GraphmillError as exc:
+            self._failure = exc
+            raise
+        row = terms.slice(0, 1).to_pylist()[0] if terms.num_rows else {}
+        ends = [row.get(k) for k in ("lo", "hi")]
+        return {
+            "count": int(row.get("n") or 0),
+            "first": key_digest(ends[0]) if ends[0] is not None else None,
+            "last": key_digest(ends[1]) if ends[1] is not None else None,
+        }
+
+    def property_keys(self, unit: WorkUnit) -> list[str] | None:
+        """Predicates of the vertex type's subjects, one DISTINCT query (RDF edges carry
+        no properties)."""
+        if unit.table != "vertices":
+            return None
+        terms = self._terms(unit, keys_query(self.spec, unit.name))
+        return sorted(terms.column("p").drop_null().to_pylist())
 
     # ------------------------------------------------------------------ describing
 

@@ -23,6 +23,8 @@ from graphmill.validate.rules._properties import (
     null_mask,
     observed_kinds,
     out_of_range_mask,
+    stored_kinds,
+    top_kind,
     unexpected_kind_count,
 )
 from graphmill.validate.rules._structure import (
@@ -58,7 +60,9 @@ __all__ = [
     "reciprocity_counts",
     "self_loop_mask",
     "shared_ids",
+    "stored_kinds",
     "thin_classes",
+    "top_kind",
     "unexpected_kind_count",
     "unlabeled_mask",
 ]

@@ -2,8 +2,9 @@
 
 A *profile* is the snapshot's per-column kind count (``{"integer": 10, "string": 2}``, see
 ``graphmill/_columns.py``); ``"null"`` entries are ignored everywhere. ``"ill-typed"``
-counts values that the source could not read as their declared datatype (they are null in
-the column, see ``graphmill/connectors/rdf``): they are not a kind of their own for
+counts values that the source could not read as the kind they must have: their declared
+``kind``, or their RDF datatype (they are null in the column and the snapshot keeps their
+text, see ``graphmill/connectors/_declared.py``): they are not a kind of their own for
 :func:`kind_mix`, and they are always unexpected for :func:`unexpected_kind_count`.
 Multi-valued (list) columns are checked element by element: :func:`element_values` flattens
 them and keeps, for each element, the row it came from.
@@ -53,11 +54,8 @@ def kind_mix(profile: Mapping[str, int]) -> str:
 def minority_count(profile: Mapping[str, int]) -> int:
     """Values not of the profile's most common kind (ties broken by kind name), not counting
     ill-typed ones."""
-    kinds = {k: n for k, n in observed_kinds(profile).items() if k != ILL_TYPED}
-    if not kinds:
-        return 0
-    top = max(sorted(kinds), key=lambda k: kinds[k])
-    return sum(n for k, n in kinds.items() if k != top)
+    top = top_kind(profile)
+    return sum(n for k, n in observed_kinds(profile).items() if k not in (top, ILL_TYPED))
 
 
 def unexpected_kind_count(profile: Mapping[str, int], declared: str | None) -> int:
@@ -123,3 +121,31 @@ def out_of_range_mask(
     if maximum is not None:
         mask = pc.or_(mask, pc.greater(flat, pa.scalar(float(maximum))).fill_null(False))
     return mask
+
+
+def stored_kinds(values: Column) -> pa.Array:
+    """Each value's kind as far as its stored form tells (nulls are null): a text column's
+    values by their text (the CSV typing rules of ``graphmill/connectors/_lexical.py``), a
+    float column's integral values as ``integer``, any other column its type's kind. Used
+    to sample the offenders of a mixed or unexpected kind, whose column holds them as text.
+    """
+    from graphmill.connectors._lexical import kind_masks
+
+    flat = _flat(values)
+    if pa.types.is_string(flat.type) or pa.types.is_large_string(flat.type):
+        out = pa.nulls(len(flat), pa.string())
+        for kind, mask in kind_masks(flat).items():
+            out = pc.if_else(mask, pa.scalar(kind), out)
+        return out
+    if pa.types.is_floating(flat.type):
+        integral = pc.and_(pc.is_finite(flat), pc.equal(pc.floor(flat), flat))
+        kinds = pc.if_else(integral, pa.scalar("integer"), pa.scalar("float"))
+        return pc.if_else(pc.is_valid(flat), kinds, pa.scalar(None, pa.string()))
+    kind = pa.scalar(kind_of_type(flat.type))
+    return pc.if_else(pc.is_valid(flat), kind, pa.scalar(None, pa.string()))
+
+
+def top_kind(profile: Mapping[str, int]) -> str | None:
+    """The profile's most common kind (ties broken by kind name), ill-typed values aside."""
+    kinds = {k: n for k, n in observed_kinds(profile).items() if k != ILL_TYPED}
+    return max(sorted(kinds), key=lambda k: kinds[k]) if kinds else None

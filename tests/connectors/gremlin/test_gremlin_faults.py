@@ -3,6 +3,8 @@ pulls stopped partway and resumed, server timeouts, a server that is not there."
 
 from __future__ import annotations
 
+import json
+
 import pytest
 import yaml
 from gremlin_helpers import DEAD_RELATIONS, DEAD_TYPES, digests, drop_labels, gremlin_spec, vertex
@@ -11,8 +13,9 @@ from gremlin_helpers import write_graph as write
 from graphmill.cli import main
 from graphmill.connectors import open_source
 from graphmill.errors import SourceTimeoutError, SourceUnavailableError
-from graphmill.snapshot import pull
+from graphmill.snapshot import Snapshot, pull
 from servers._base import free_port
+from tests.interruptions import StopAfter
 
 pytestmark = pytest.mark.servers
 FAST_RETRIES = {"attempts": 4, "initial_wait_s": 0.01, "max_wait_s": 0.05}
@@ -58,28 +61,10 @@ def test_pull_that_loses_the_server_resumes_from_its_checkpoint(relay, reference
     assert digests(spec.output.snapshot) == reference
 
 
-class _StopAfter:
-    """A progress reporter that stops the pull after ``pages`` staged pages."""
-
-    class StopError(Exception):
-        pass
-
-    def __init__(self, pages: int) -> None:
-        self.left = pages
-
-    def task(self, description: str, total: int | None = None) -> _StopAfter:
-        return self
-
-    def advance(self, amount: int = 1) -> None:
-        self.left -= 1
-        if self.left <= 0:
-            raise self.StopError()
-
-
 def test_pull_stopped_partway_resumes_to_the_same_snapshot(relay, reference, tmp_path):
     spec = _dead_spec(tmp_path / "stopped", relay.url, concurrency=1)
-    with pytest.raises(_StopAfter.StopError):
-        pull(spec, open_source(spec), progress=_StopAfter(5))
+    with pytest.raises(StopAfter.StopError):
+        pull(spec, open_source(spec), progress=StopAfter(5))
     info = pull(spec, open_source(spec))
     assert info.units_resumed >= 1
     assert info.pages_read < 5 + sum(-(-n // 500) for n in info.edge_counts.values()) + 3
@@ -139,3 +124,46 @@ def test_no_server_is_exit_code_3(tmp_path, capsys):
     assert main(["pull", str(path), "--no-progress"]) == 3
     message = capsys.readouterr().err.strip()
     assert message.count("\n") == 0 and url in message and "cannot reach" in message
+
+
+@pytest.fixture
+def shifting(gremlin_server):
+    """A small graph of its own labels in the writable ``g``, removed afterwards."""
+    labels = ["gf_member", "gf_club"]
+    drop_labels(gremlin_server.url, labels)
+    members = [vertex(f"m{i}", "gf_member", score=i) for i in range(6)]
+    write(gremlin_server.url, [*members, vertex("c1", "gf_club")], [])
+    yield gremlin_server
+    drop_labels(gremlin_server.url, labels)
+
+
+def _shifting_spec(folder, url):
+    types = {
+        "member": {"match": "gf_member", "properties": {"score": {"kind": "integer"}}},
+        "club": {"match": "gf_club"},
+    }
+    return gremlin_spec(folder, url, types, [], page_size=2, concurrency=1)
+
+
+def test_resume_after_the_graph_changed_publishes_the_new_graph(shifting, tmp_path):
+    spec = _shifting_spec(tmp_path, shifting.url)
+    with pytest.raises(StopAfter.StopError):  # 2 of 3 pages of the members staged
+        pull(spec, open_source(spec), progress=StopAfter(2))
+    write(shifting.url, [vertex("m9", "gf_member", score=9)], [])
+    info = pull(spec, open_source(spec))
+    members = Snapshot.open(spec.output.snapshot).vertices("member").to_pylist()
+    assert [m["vertex_id"] for m in members] == ["m0", "m1", "m2", "m3", "m4", "m5", "m9"]
+    assert info.restarted == ["vertices.member.p000of001"]
+    assert "count 6 -> 7" in info.warnings[0] and "last changed" in info.warnings[0]
+    inputs = Snapshot.open(spec.output.snapshot).provenance["inputs"]
+    assert inputs["vertices.member.p000of001"]["count"] == 7
+    assert "m9" not in json.dumps(inputs)  # digests, not ids
+
+
+def test_resume_of_an_unchanged_graph_goes_on_after_the_staged_pages(shifting, tmp_path):
+    spec = _shifting_spec(tmp_path, shifting.url)
+    with pytest.raises(StopAfter.StopError):
+        pull(spec, open_source(spec), progress=StopAfter(2))
+    info = pull(spec, open_source(spec))
+    assert info.restarted == [] and info.units_resumed == 1
+    assert info.pages_read == 2  # the member's third page, the club's one page
