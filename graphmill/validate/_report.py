@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from graphmill._atomic import write_bytes_atomic
+from graphmill._atomic import publish_file
 from graphmill._version import __version__
 from graphmill.validate._findings import SEVERITIES, Evaluation, Finding, subject_label
 
@@ -58,18 +58,20 @@ class Report:
         """Strict JSON (no NaN), sorted keys, two-space indent, newline at the end."""
         return json.dumps(self.to_dict(), sort_keys=True, indent=2, allow_nan=False) + "\n"
 
-    def write_json(self, path: str | Path) -> Path:
-        """Write :meth:`to_json` atomically; returns the path."""
+    def write_json(self, path: str | Path, *, key: str = "output.report") -> Path:
+        """Write :meth:`to_json` atomically; returns the path. Replaces only an earlier
+        report (``OutputPathError`` naming ``key`` otherwise)."""
         target = Path(path)
-        write_bytes_atomic(target, self.to_json().encode("utf-8"))
+        publish_file(target, self.to_json().encode("utf-8"), kind="report", key=key)
         return target
 
-    def write_junit(self, path: str | Path) -> Path:
-        """Write JUnit XML atomically (see ``_junit.py``); returns the path."""
+    def write_junit(self, path: str | Path, *, key: str = "output.junit") -> Path:
+        """Write JUnit XML atomically (see ``_junit.py``); returns the path. Replaces only
+        earlier graphmill JUnit XML (``OutputPathError`` naming ``key`` otherwise)."""
         from graphmill.validate._junit import junit_xml
 
         target = Path(path)
-        write_bytes_atomic(target, junit_xml(self))
+        publish_file(target, junit_xml(self), kind="junit", key=key)
         return target
 
     def summary(self) -> dict[str, Any]:
