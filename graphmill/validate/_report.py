@@ -96,17 +96,47 @@ class Report:
         passing = sum(e.status == "pass" for e in self.evaluated)
         word = "PASSED" if self.passed else "FAILED"
         return (
-            f"{word}: {c['error']} errors, {c['warning']} warnings, {c['info']} notes; "
-            f"{len(self.evaluated)} checks evaluated, {passing} found nothing"
+            f"{word}: {_plural(c['error'], 'error')}, {_plural(c['warning'], 'warning')}, "
+            f"{_plural(c['info'], 'note')}; {_plural(len(self.evaluated), 'check')} evaluated, "
+            f"{passing:,} found nothing"
         )
 
+    def ordered_findings(self) -> list[Finding]:
+        """Findings, errors first, then warnings, then notes; in report order within each."""
+        rank = {level: i for i, level in enumerate(SEVERITIES)}
+        ordered = sorted(enumerate(self.findings), key=lambda p: (rank[p[1].severity], p[0]))
+        return [f for _, f in ordered]
+
+    def lines(self) -> list[str]:
+        """One line per finding (errors first), then the verdict: what CI logs show.
+
+        Each line: ``severity rule subject count[/denominator]: message; e.g. sample``.
+        """
+        out = []
+        for f in self.ordered_findings():
+            found = f"{f.count}/{f.denominator}" if f.denominator else str(f.count)
+            line = f"{f.severity} {f.rule} {subject_label(f.subject)} {found}: {f.message}"
+            if f.sample:
+                shown = "; ".join(_record_text(r) for r in f.sample[:RENDER_SAMPLES])
+                more = " …" if len(f.sample) > RENDER_SAMPLES else ""
+                line += f" (e.g. {shown}{more})"
+            out.append(" ".join(line.split()))
+        if not out:
+            out.append("no findings")
+        out.append(self.verdict())
+        return out
+
     def render(self, console: Any) -> None:
-        """Print a table of findings (errors first) and the verdict on a rich console."""
+        """Print the findings and the verdict: a table on a terminal, otherwise one line per
+        finding (see :meth:`lines`), so that CI logs stay readable."""
         from rich.table import Table
         from rich.text import Text
 
-        rank = {level: i for i, level in enumerate(SEVERITIES)}
-        ordered = sorted(enumerate(self.findings), key=lambda p: (rank[p[1].severity], p[0]))
+        if not console.is_terminal:
+            for line in self.lines():
+                console.print(Text(line), soft_wrap=True)
+            return
+        ordered = list(enumerate(self.ordered_findings()))
         if ordered:
             table = Table(title=f"graphmill checks: {self.snapshot.get('name', '')}")
             for column in ("severity", "rule", "subject", "found", "message"):
@@ -130,6 +160,10 @@ class Report:
         else:
             console.print(Text("no findings"))
         console.print(Text(self.verdict(), style="bold green" if self.passed else "bold red"))
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n:,} {word if n == 1 else word + 's'}"
 
 
 def _record_text(record: dict[str, Any]) -> str:
