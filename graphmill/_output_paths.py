@@ -91,6 +91,9 @@ def check_output_paths(spec: PipelineSpec, where: str | None = None) -> None:
     raw_output: dict[str, Any] = dict(spec.raw.get("output") or {})
 
     def fail(key: str, message: str, hint: str) -> None:
+        if key not in raw_output:
+            message += f" (output.{key} is not set: this is its default, beside output.bundle)"
+            hint = f"set output.{key} explicitly, or {hint}"
         raise SpecError(message, file=where, key_path=f"output.{key}", hint=hint)
 
     outputs: list[tuple[str, Path]] = []
@@ -103,6 +106,8 @@ def check_output_paths(spec: PipelineSpec, where: str | None = None) -> None:
             user = written.split("/", 1)[0]
             fail(key, f"{user!r} names no user on this machine", "write a full path instead")
         outputs.append((key, _real(path)))
+    # the keys the spec writes first: a clash is reported on a key the user wrote
+    outputs.sort(key=lambda item: item[0] not in raw_output)
     for key, written in _inputs(spec):
         if _unexpandable(written):
             raise SpecError(
@@ -111,10 +116,10 @@ def check_output_paths(spec: PipelineSpec, where: str | None = None) -> None:
                 key_path=key,
                 hint="write a full path instead",
             )
-    inputs = [(key, _real(spec.resolve_path(written))) for key, written in _inputs(spec)]
+    inputs = [("the spec's folder", _real(spec.base_dir))]
     if spec.spec_file is not None:
         inputs.append(("the spec file", _real(Path(spec.spec_file))))
-    inputs.append(("the spec's folder", _real(spec.base_dir)))
+    inputs += [(key, _real(spec.resolve_path(written))) for key, written in _inputs(spec)]
     beside = [(k, Path(f"{p}{BESIDE[k]}")) for k, p in outputs if k in BESIDE]
     for key, path in outputs + beside:
         for input_key, input_path in inputs:
