@@ -119,7 +119,10 @@ def _file_kind(path: Path) -> str | None:
 def ensure_replaceable(path: Path, kind: str, key: str) -> None:
     """Raise :class:`OutputPathError` unless ``path`` is absent, empty, or an earlier
     graphmill output of ``kind``."""
-    found = existing_kind(Path(path))
+    try:
+        found = existing_kind(Path(path))
+    except OSError as exc:  # e.g. a name too long for the file system
+        raise _os_error(exc, key) from None
     if found in ("absent", "empty", kind):
         if found == "empty" and kind in FOLDER_KINDS and not Path(path).is_dir():
             found = None  # an empty file where a folder goes
