@@ -299,13 +299,12 @@ def test_6_server_error(tmp_path, capsys, gremlin_server):
 
 
 @pytest.mark.servers
-def test_7_malformed_answer(tmp_path, capsys, fuseki_server):
-    # Fuseki's health check answers 200 with text/plain: not SPARQL results
-    root = fuseki_server.url.rsplit("/", 1)[0]
-    spec = _sparql_spec(tmp_path, f"{root}/$/ping", retries={"attempts": 1})
+def test_7_malformed_answer(tmp_path, capsys, oxigraph_server):
+    # Oxigraph's root answers 200 with its HTML query page, not SPARQL results
+    spec = _sparql_spec(tmp_path, f"{oxigraph_server.url}/", retries={"attempts": 1})
     code, _, err = _cli(capsys, "pull", str(spec))
     assert code == ExitCode.MALFORMED_RESPONSE == 7, err
-    assert "content type 'text/plain'" in _one_line(err)
+    assert "content type 'text/html'" in _one_line(err)
 
 
 # --- 9: an optional package that cannot be imported -------------------------------------------
