@@ -144,6 +144,9 @@ def _check_against_each_other(outputs: list[tuple[str, Path]], fail: Any) -> Non
                 continue
             if j > i:
                 how = _relation(path, other)
+                if how == "contains":  # name the inner one: it is the one to move
+                    key, path, other_key, other = other_key, other, key, path
+                    how = "lies inside"
                 if how is not None:
                     fail(
                         key,
