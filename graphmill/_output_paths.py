@@ -85,16 +85,25 @@ def _relation(output: Path, other: Path) -> str | None:
     return None
 
 
-def check_output_paths(spec: PipelineSpec, where: str | None = None) -> None:
+def _name(key: str) -> str:
+    """``output.bundle`` for a spec key, the flag itself (``--junit``) for a command option."""
+    return key if key.startswith("-") else f"output.{key}"
+
+
+def check_output_paths(
+    spec: PipelineSpec, where: str | None = None, *, extra: dict[str, str] | None = None
+) -> None:
     """Raise :class:`SpecError` naming the output key whose path would overwrite an input,
-    another output, or cannot be created at all (see the module docstring)."""
+    another output, or cannot be created at all (see the module docstring). ``extra`` adds
+    outputs named on the command line (``{"--junit": "path as typed"}``, relative to the
+    working folder)."""
     raw_output: dict[str, Any] = dict(spec.raw.get("output") or {})
 
     def fail(key: str, message: str, hint: str) -> None:
-        if key not in raw_output:
+        if key not in raw_output and not key.startswith("-"):
             message += f" (output.{key} is not set: this is its default, beside output.bundle)"
             hint = f"set output.{key} explicitly, or {hint}"
-        raise SpecError(message, file=where, key_path=f"output.{key}", hint=hint)
+        raise SpecError(message, file=where, key_path=_name(key), hint=hint)
 
     outputs: list[tuple[str, Path]] = []
     for key in OUTPUT_KEYS:
@@ -106,6 +115,14 @@ def check_output_paths(spec: PipelineSpec, where: str | None = None) -> None:
             user = written.split("/", 1)[0]
             fail(key, f"{user!r} names no user on this machine", "write a full path instead")
         outputs.append((key, _real(path)))
+    for flag, typed in (extra or {}).items():
+        if _unexpandable(typed):
+            fail(
+                flag,
+                f"{typed.split('/', 1)[0]!r} names no user on this machine",
+                "write a full path",
+            )
+        outputs.append((flag, _real(expand_path(typed, Path.cwd()))))
     # the keys the spec writes first: a clash is reported on a key the user wrote
     outputs.sort(key=lambda item: item[0] not in raw_output)
     for key, written in _inputs(spec):
@@ -150,7 +167,7 @@ def _check_against_each_other(outputs: list[tuple[str, Path]], fail: Any) -> Non
                 if how is not None:
                     fail(
                         key,
-                        f"the {key} path {str(path)!r} {how} output.{other_key}'s path; "
+                        f"the {key} path {str(path)!r} {how} {_name(other_key)}'s path; "
                         "one would overwrite the other",
                         "give every output its own path, none inside another",
                     )
@@ -160,7 +177,7 @@ def _check_against_each_other(outputs: list[tuple[str, Path]], fail: Any) -> Non
                 fail(
                     key,
                     f"the {key} path {str(path)!r} overlaps {str(beside)!r}, which graphmill "
-                    f"writes beside output.{other_key}",
+                    f"writes beside {_name(other_key)}",
                     "give every output its own path, none inside another",
                 )
 

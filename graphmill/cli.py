@@ -160,9 +160,12 @@ def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
     from pathlib import Path
 
     from graphmill._atomic import ensure_replaceable
+    from graphmill._output_paths import check_output_paths, expand_path
 
-    junit = Path(args.junit).expanduser() if args.junit else None
-    if junit is not None:
+    junit = None
+    if args.junit:
+        check_output_paths(pipeline.spec, extra={"--junit": args.junit})
+        junit = expand_path(args.junit, Path.cwd())
         ensure_replaceable(junit, "junit", "--junit")
     report = pipeline.check()
     if junit is not None:

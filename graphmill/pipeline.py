@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from graphmill._atomic import ensure_replaceable, retire_bundle
+from graphmill._atomic import OutputPathError, ensure_replaceable, retire_bundle
 from graphmill._progress import Progress, ProgressTask, SilentProgress
 from graphmill.connectors import open_source
 from graphmill.errors import BundleIntegrityError, ExitCode, GraphmillError
@@ -110,6 +110,7 @@ class Pipeline:
     def pull(self) -> PullInfo:
         """Extract the source into the staged snapshot (resuming an interrupted pull)."""
         self._ensure_outputs("snapshot")
+        _ensure_staging(Path(f"{self.spec.output.snapshot}.staging"))
         log.info("pull: %s source into %s", self.spec.source_kind, self.spec.output.snapshot)
         info = _pull(self.spec, open_source(self.spec), progress=self.progress)
         log.info(
@@ -229,6 +230,22 @@ class Pipeline:
         result = RunResult(pulled, report, built, time.perf_counter() - started)
         result.retired = self.retired
         return result
+
+
+def _ensure_staging(staging: Path) -> None:
+    """Refuse a ``<snapshot>.staging`` that graphmill did not make: a pull would delete it."""
+    if not staging.exists() and not staging.is_symlink():
+        return
+    ours = staging.is_dir() and not staging.is_symlink()
+    if ours and any(staging.iterdir()):
+        ours = (staging / "fingerprint").is_file() or (staging / "units").is_dir()
+    if not ours:
+        raise OutputPathError(
+            f"{str(staging)!r} holds something graphmill did not write; a pull stages its "
+            "pages there",
+            key_path="output.snapshot",
+            hint="move it away or choose another path for output.snapshot",
+        )
 
 
 def _reason(exc: BaseException) -> str:

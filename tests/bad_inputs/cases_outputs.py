@@ -260,6 +260,8 @@ FOREIGN: list[tuple[str, dict[str, FileText], str, tuple[str, ...]]] = [
     ("snapshot-folder", {"out/snap/table.csv": "a,b\n"}, "output.snapshot", ("pull",)),
     ("snapshot-file", {"out/snap": "x\n"}, "output.snapshot", ("run",)),
     ("snapshot-holds-a-bundle", {"out/snap/manifest.json": "{}"}, "output.snapshot", ("pull",)),
+    ("snapshot-staging-folder", {"out/snap.staging/a.txt": "x"}, "output.snapshot", ("pull",)),
+    ("snapshot-staging-file", {"out/snap.staging": "x"}, "output.snapshot", ("run",)),
     ("report-json", {"out/report.json": '{"mine": true}\n'}, "output.report", ("check",)),
     ("report-text", {"out/report.json": "dear diary\n"}, "output.report", ("run",)),
     ("report-folder", {"out/report.json/x.txt": "x\n"}, "output.report", ("check",)),
@@ -294,10 +296,40 @@ def foreign_cases() -> list[Case]:
                 argv=spec_argv(command[0], *command[1:]),
                 exit_code=2,
                 where=key,
-                says="not an earlier graphmill",
+                says="graphmill did not write" if "staging" in name else "not an earlier graphmill",
             )
         )
     return cases
+
+
+# ``check --junit PATH``: the flag is checked like the spec's outputs
+JUNIT_FLAG: list[tuple[str, str, str]] = [
+    ("is-csv-vertex-file", "{dir}/data/people.csv", "source.vertex_files[0].path"),
+    ("is-csv-edge-file", "{dir}/data/knows.csv", "source.edge_files[0].path"),
+    ("is-spec-file", "{dir}/spec.yaml", "the spec file"),
+    ("is-spec-folder", "{dir}", "the spec's folder"),
+    ("contains-data-folder", "{dir}/data/..", "the spec's folder"),
+    ("is-report", "{dir}/out/bundle.snapshot.report.json", "output.report"),
+    ("inside-bundle", "{dir}/out/bundle/junit.xml", "output.bundle"),
+    ("inside-snapshot", "{dir}/out/bundle.snapshot/j.xml", "output.snapshot"),
+    ("under-a-file", "{dir}/data/people.csv/j.xml", "source.vertex_files[0].path"),
+    ("unknown-user", f"{UNKNOWN_USER}/j.xml", "names no user"),
+]
+
+
+def junit_flag_cases() -> list[Case]:
+    return [
+        Case(
+            name=f"output-junit-flag-{name}",
+            category="outputs",
+            files=csv_project({}),
+            argv=spec_argv("check", "--junit", path),
+            exit_code=2,
+            where="--junit",
+            says=says,
+        )
+        for name, path, says in JUNIT_FLAG
+    ]
 
 
 def exit_code_cases() -> list[Case]:
@@ -351,4 +383,11 @@ def exit_code_cases() -> list[Case]:
     ]
 
 
-CASES = input_cases() + overlap_cases() + unwritable_cases() + foreign_cases() + exit_code_cases()
+CASES = (
+    input_cases()
+    + overlap_cases()
+    + unwritable_cases()
+    + foreign_cases()
+    + junit_flag_cases()
+    + exit_code_cases()
+)
