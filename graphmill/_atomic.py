@@ -150,6 +150,20 @@ def _os_error(exc: OSError, key: str) -> OutputPathError:
     )
 
 
+@contextlib.contextmanager
+def output_errors(key: str, *roots: Path) -> Iterator[None]:
+    """Turn an ``OSError`` on a path at or under one of ``roots`` into :class:`OutputPathError`
+    naming ``key`` (no permission, read-only file system, disk full); others pass through."""
+    try:
+        yield
+    except OSError as exc:
+        names = [str(n) for n in (exc.filename, exc.filename2) if n is not None]
+        prefixes = [str(Path(r)) for r in roots]
+        if any(n == p or n.startswith(p + os.sep) for n in names for p in prefixes):
+            raise _os_error(exc, key) from None
+        raise
+
+
 def _infer_kind(scratch: Path) -> str | None:
     return next((k for k, name in FOLDER_KINDS.items() if (scratch / name).exists()), None)
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from graphmill._atomic import OutputPathError, ensure_replaceable, retire_bundle
+from graphmill._atomic import OutputPathError, ensure_replaceable, output_errors, retire_bundle
 from graphmill._progress import Progress, ProgressTask, SilentProgress
 from graphmill.connectors import open_source
 from graphmill.errors import BundleIntegrityError, ExitCode, GraphmillError
@@ -112,7 +112,9 @@ class Pipeline:
         self._ensure_outputs("snapshot")
         _ensure_staging(Path(f"{self.spec.output.snapshot}.staging"))
         log.info("pull: %s source into %s", self.spec.source_kind, self.spec.output.snapshot)
-        info = _pull(self.spec, open_source(self.spec), progress=self.progress)
+        snapshot = self.spec.output.snapshot
+        with output_errors("output.snapshot", snapshot, Path(f"{snapshot}.staging")):
+            info = _pull(self.spec, open_source(self.spec), progress=self.progress)
         log.info(
             "pull: %s (%d resumed), %s",
             plural(info.units_total, "work unit"),

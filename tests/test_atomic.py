@@ -181,3 +181,88 @@ def test_a_symlinked_spelling_of_an_input_is_the_same_input(tmp_path):
     (tmp_path / "alias").symlink_to(tmp_path, target_is_directory=True)
     with pytest.raises(SpecError, match="is the input"):
         spec_from_dict(_doc(tmp_path, bundle="alias/v.csv"), base_dir=tmp_path)
+
+
+# --- output-side OS errors: a folder the command may not write into -----------------------------
+
+REPO = Path(__file__).resolve().parents[1]
+PERMISSION_CASES = [  # (output key, command, spec output, commands run first with full rights)
+    ("output.snapshot", "pull", {"snapshot": "ro/snap"}, ()),
+    ("output.report", "check", {"report": "ro/report.json"}, ("pull",)),
+    ("output.junit", "check", {"junit": "ro/junit.xml"}, ("pull",)),
+    ("output.bundle", "build", {"bundle": "ro/bundle"}, ("pull",)),
+]
+
+
+@pytest.fixture
+def shared_folder():
+    """A folder under /tmp that an unprivileged user can enter (pytest's tmp_path is 0700)."""
+    import shutil
+    import tempfile
+
+    folder = Path(tempfile.mkdtemp(prefix="graphmill-perm-"))
+    folder.chmod(0o755)
+    yield folder
+    for path in [folder, *folder.rglob("*")]:
+        if path.is_dir():
+            path.chmod(0o755)
+    shutil.rmtree(folder)
+
+
+def _as_unprivileged(argv: list[str]) -> list[str]:
+    """Root ignores file modes: run the command as ``nobody`` then (util-linux setpriv)."""
+    import os
+    import shutil
+
+    if os.geteuid() != 0:
+        return argv
+    setpriv = shutil.which("setpriv")
+    if setpriv is None:
+        pytest.skip("running as root without setpriv: cannot drop privileges")
+    return [setpriv, "--reuid=65534", "--regid=65534", "--clear-groups", *argv]
+
+
+@pytest.mark.parametrize(
+    ("key", "command", "output", "first"), PERMISSION_CASES, ids=[c[0] for c in PERMISSION_CASES]
+)
+def test_permission_denied_is_one_line_exit_2_naming_the_key(
+    shared_folder, key, command, output, first
+):
+    import json
+    import os
+    import subprocess
+    import sys
+
+    root = shared_folder
+    (root / "v.csv").write_text("id\na\nb\n")
+    # the report goes to a folder anyone may write, unless it is the output under test
+    document = _doc(root, **{"snapshot": "snap", "report": "rw/report.json", **output})
+    if "bundle" not in output:
+        document["output"]["bundle"] = "out/b"
+    (root / "spec.yaml").write_text(json.dumps(document))
+    (root / "ro").mkdir(mode=0o755)
+    (root / "rw").mkdir()
+    (root / "rw").chmod(0o777)
+    python = [sys.executable, "-m", "graphmill.cli"]
+    env = {**os.environ, "PYTHONPATH": str(REPO)}
+    for step in first:
+        done = subprocess.run([*python, step, str(root / "spec.yaml"), "--no-progress"], env=env)
+        assert done.returncode == 0
+    (root / "ro").chmod(0o555)
+
+    def listing() -> list[str]:
+        return sorted(str(p) for p in root.rglob("*") if "rw" not in p.relative_to(root).parts)
+
+    before = listing()
+    done = subprocess.run(
+        _as_unprivileged([*python, command, str(root / "spec.yaml"), "--no-progress"]),
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
+    assert done.returncode == 2, done.stderr
+    lines = [line for line in done.stderr.splitlines() if line.strip()]
+    assert len(lines) == 1 and "Traceback" not in done.stderr, done.stderr
+    assert key in lines[0] and "Permission denied" in lines[0]
+    assert listing() == before  # nothing left, nothing removed
