@@ -37,7 +37,8 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from graphmill._atomic import read_stale_note, sha256_file
+from graphmill._atomic import sha256_file
+from graphmill._output_kinds import read_stale_note
 from graphmill.errors import BundleIntegrityError, InputError, require
 from graphmill.spec import RelationKey
 

@@ -159,7 +159,7 @@ def _dispatch(args: argparse.Namespace) -> int:
 def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
     from pathlib import Path
 
-    from graphmill._atomic import ensure_replaceable
+    from graphmill._output_kinds import ensure_replaceable
     from graphmill._output_paths import check_output_paths, expand_path
 
     junit = None

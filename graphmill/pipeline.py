@@ -14,7 +14,12 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from graphmill._atomic import OutputPathError, ensure_replaceable, output_errors, retire_bundle
+from graphmill._output_kinds import (
+    OutputPathError,
+    ensure_replaceable,
+    output_errors,
+    retire_bundle,
+)
 from graphmill._progress import Progress, ProgressTask, SilentProgress
 from graphmill.connectors import open_source
 from graphmill.errors import BundleIntegrityError, ExitCode, GraphmillError

@@ -7,12 +7,11 @@ from pathlib import Path
 
 import pytest
 
-from graphmill._atomic import (
+from graphmill._atomic import atomic_directory, publish_file
+from graphmill._output_kinds import (
     OutputPathError,
-    atomic_directory,
     ensure_replaceable,
     existing_kind,
-    publish_file,
     read_stale_note,
     retire_bundle,
 )
