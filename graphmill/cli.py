@@ -239,7 +239,7 @@ def _render_build(console: Any, info: dict[str, Any]) -> None:
 
 
 def _render_inspect(console: Any, summary: dict[str, Any]) -> None:
-    from graphmill.bundle import summary_lines
+    from graphmill._inspect_text import summary_lines
 
     for line in summary_lines(summary):
         console.print(line, markup=False, highlight=False)

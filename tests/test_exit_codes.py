@@ -20,7 +20,8 @@ from pathlib import Path
 import pytest
 import yaml
 
-from graphmill.bundle import inspect_bundle, summary_lines
+from graphmill._inspect_text import summary_lines
+from graphmill.bundle import inspect_bundle
 from graphmill.cli import main
 from graphmill.errors import ExitCode
 
