@@ -194,14 +194,15 @@ class Pipeline:
                 "checks.severity, or build with --even-if-failing",
             )
         if not report.passed:
-            log.warning("building the bundle although the checks failed (--even-if-failing)")
+            log.info("build: the checks failed; building anyway (--even-if-failing)")
         info = build_bundle(
             self.spec, snapshot, checks_summary=report.summary(), progress=self.progress
         )
         log.info("build: wrote %s", info.bundle)
         for path in sorted(Path(info.bundle).rglob("*")):
             if path.is_file():
-                log.info("build: file %s (%s)", path.name, plural(path.stat().st_size, "byte"))
+                size = plural(path.stat().st_size, "byte")
+                log.info("build: file %s (%s)", path.relative_to(info.bundle), size)
         return info
 
     def _retire(self, cause: BaseException | str) -> None:
@@ -211,8 +212,12 @@ class Pipeline:
         except OSError as exc:  # never hide the error that brought us here
             log.warning("could not move the previous bundle aside: %s", exc)
             return
-        if self.retired is not None:
-            log.warning("the previous bundle was moved aside to %s: %s", self.retired, reason)
+        if self.retired is None:
+            return
+        log.info("the previous bundle was moved aside to %s: %s", self.retired, reason)
+        if isinstance(cause, GraphmillError):  # said in the error's one line
+            moved = f"The previous bundle was moved aside to {self.retired}"
+            cause.hint = f"{cause.hint.rstrip('. ')}. {moved}" if cause.hint else moved
 
     def run(self, *, even_if_failing: bool = False) -> RunResult:
         """Pull, check and, if the checks pass (or ``even_if_failing``), build.

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import io
 from collections.abc import Callable
+from pathlib import Path
 
 import pyarrow as pa
 import pyarrow.parquet as pq
@@ -332,10 +333,31 @@ def junit_flag_cases() -> list[Case]:
     ]
 
 
+def _built_then_broken(root: Path) -> None:
+    """A good run builds last week's bundle; then this week's edge file loses a column."""
+    from graphmill.cli import main
+
+    assert main(["run", str(root / "spec.yaml"), "--no-progress"]) == 0
+    (root / "data" / "knows.csv").write_text("a,c\np1,p2\n")
+
+
 def exit_code_cases() -> list[Case]:
-    """Exit codes that fit one command and one line: a missing snapshot or bundle is 8."""
+    """Exit codes that fit one command and one line: a missing snapshot or bundle is 8; a
+    failed run says where last week's bundle went."""
     project = csv_project({})
     return [
+        Case(
+            name="exit-2-failed-run-moves-the-bundle-aside",
+            category="exit-codes",
+            files=project,
+            argv=spec_argv("run"),
+            exit_code=2,
+            where="knows.csv:1",
+            says="The previous bundle was moved aside to {dir}/out/bundle.stale",
+            setup=_built_then_broken,
+            may_change=("out/bundle/",),
+            may_leave=("out/bundle.stale",),
+        ),
         Case(
             name="exit-8-check-without-snapshot",
             category="exit-codes",
