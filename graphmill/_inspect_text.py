@@ -5,6 +5,8 @@ from __future__ import annotations
 
 from typing import Any
 
+from graphmill._text import plural
+
 
 def summary_lines(summary: dict[str, Any]) -> list[str]:
     """:func:`inspect_bundle`'s summary as readable lines (what ``graphmill inspect`` prints):
@@ -22,13 +24,13 @@ def summary_lines(summary: dict[str, Any]) -> list[str]:
     )
     ok_files = len(files) - len(bad)
     manifest = "manifest self-hash ok" if summary["manifest_verified"] else "MANIFEST ALTERED"
-    lines.append(f"  files: {ok_files} of {_plural(len(files), 'file')} verified; {manifest}")
+    lines.append(f"  files: {ok_files} of {plural(len(files), 'file')} verified; {manifest}")
     lines += [f"  altered or missing: {path}" for path in bad]
     lines.append("vertices")
     width = max([len(t) for t in summary["vertices"]] + [len(r) for r in summary["relations"]])
     for name, n in summary["vertices"].items():
         feats = summary["features"].get(name, {}).get("width", 0)
-        lines.append(f"  {name:<{width}}  {n:>12,}  {_plural(feats, 'feature column')}")
+        lines.append(f"  {name:<{width}}  {n:>12,}  {plural(feats, 'feature column')}")
     lines.append("relations")
     for name, n in summary["relations"].items():
         lines.append(f"  {name:<{width}}  {n:>12,}")
@@ -44,17 +46,12 @@ def summary_lines(summary: dict[str, Any]) -> list[str]:
     return lines
 
 
-def _plural(n: int, word: str) -> str:
-    many = word[:-1] + "ies" if word.endswith("y") else word + "s"
-    return f"{n:,} {word if n == 1 else many}"
-
-
 def _checks_line(validation: dict[str, Any] | None) -> str:
     if not validation:
         return "checks: none recorded"
     counts = validation.get("counts") or {}
     parts = [
-        _plural(int(counts.get(k, 0)), w) for k, w in (("error", "error"), ("warning", "warning"))
+        plural(int(counts.get(k, 0)), w) for k, w in (("error", "error"), ("warning", "warning"))
     ]
     if validation.get("passed"):
         return f"checks: passed ({', '.join(parts)})"
@@ -67,5 +64,5 @@ def _provenance_line(source: dict[str, Any]) -> str:
     if isinstance(where, list):
         where = ", ".join(map(str, where[:3])) + (" …" if len(where) > 3 else "")
     queries = len(source.get("queries") or [])
-    asked = f" ({_plural(queries, 'query')})" if queries else ""
+    asked = f" ({plural(queries, 'query')})" if queries else ""
     return f"{kind} {where}{asked}".strip()

@@ -185,7 +185,7 @@ def _emit(args: argparse.Namespace, console: Any, document: dict[str, Any], rend
 
 
 def _render_pull(console: Any, info: dict[str, Any]) -> None:
-    from graphmill.pipeline import plural
+    from graphmill._text import plural
 
     console.print(f"snapshot {info['snapshot']}")
     _render_counts(console, info["vertex_counts"], info["edge_counts"])
@@ -206,7 +206,7 @@ def _render_counts(console: Any, vertices: dict[str, int], edges: dict[str, int]
 
 
 def _render_build(console: Any, info: dict[str, Any]) -> None:
-    from graphmill.pipeline import plural
+    from graphmill._text import plural
 
     if info.get("checks_passed", True):
         console.print(f"bundle written: {info.get('bundle')}")

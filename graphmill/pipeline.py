@@ -21,6 +21,7 @@ from graphmill._output_kinds import (
     retire_bundle,
 )
 from graphmill._progress import Progress, ProgressTask, SilentProgress
+from graphmill._text import plural
 from graphmill.connectors import open_source
 from graphmill.errors import BundleIntegrityError, ExitCode, GraphmillError
 from graphmill.snapshot import SNAPSHOT_FILE, PullInfo, Snapshot
@@ -38,15 +39,6 @@ class ChecksFailedError(GraphmillError):
     """Validation found error-severity findings; the bundle was not built."""
 
     exit_code = ExitCode.CHECKS_FAILED
-
-
-def plural(n: int, word: str, many: str | None = None) -> str:
-    """``1 error``, ``2 errors``, ``1,000 vertices``: a count and the right form of ``word``.
-
-    >>> plural(1, "error"), plural(2, "error"), plural(0, "vertex", "vertices")
-    ('1 error', '2 errors', '0 vertices')
-    """
-    return f"{n:,} {word if n == 1 else (many or word + 's')}"
 
 
 class _LoggedProgress:

@@ -187,7 +187,7 @@ def test_verbose_logs_each_stage(tmp_path, table_project):
 
 
 def test_plural_forms():
-    from graphmill.pipeline import plural
+    from graphmill._text import plural
 
     assert [plural(n, "error") for n in (0, 1, 2)] == ["0 errors", "1 error", "2 errors"]
     assert plural(1_000, "vertex", "vertices") == "1,000 vertices"

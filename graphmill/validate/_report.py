@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from graphmill._atomic import publish_file
+from graphmill._text import plural
 from graphmill._version import __version__
 from graphmill.validate._findings import SEVERITIES, Evaluation, Finding, subject_label
 
@@ -96,8 +97,8 @@ class Report:
         passing = sum(e.status == "pass" for e in self.evaluated)
         word = "PASSED" if self.passed else "FAILED"
         return (
-            f"{word}: {_plural(c['error'], 'error')}, {_plural(c['warning'], 'warning')}, "
-            f"{_plural(c['info'], 'note')}; {_plural(len(self.evaluated), 'check')} evaluated, "
+            f"{word}: {plural(c['error'], 'error')}, {plural(c['warning'], 'warning')}, "
+            f"{plural(c['info'], 'note')}; {plural(len(self.evaluated), 'check')} evaluated, "
             f"{passing:,} found nothing"
         )
 
@@ -160,10 +161,6 @@ class Report:
         else:
             console.print(Text("no findings"))
         console.print(Text(self.verdict(), style="bold green" if self.passed else "bold red"))
-
-
-def _plural(n: int, word: str) -> str:
-    return f"{n:,} {word if n == 1 else word + 's'}"
 
 
 def _record_text(record: dict[str, Any]) -> str:
