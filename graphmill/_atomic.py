@@ -36,6 +36,38 @@ __all__ = [
 ]
 
 
+#: scratch left by a process killed mid-publish is swept once it is this old (seconds)
+STALE_SCRATCH_S = 3600
+
+
+def sweep_scratch(target: Path, *, older_than_s: float = STALE_SCRATCH_S) -> list[Path]:
+    """Remove ``.<name>.writing-*`` / ``.<name>.retired-*`` siblings of ``target`` that a killed
+    process left (only those older than ``older_than_s``, so a publish in progress elsewhere
+    is never disturbed). Returns what was removed."""
+    import time
+
+    target = Path(target)
+    removed = []
+    try:
+        prefix = f".{target.name}."
+        siblings = [p for p in target.parent.iterdir() if p.name.startswith(prefix)]
+    except OSError:
+        return removed
+    now = time.time()
+    for path in siblings:
+        tag = path.name[len(target.name) + 2 :]
+        if not tag.startswith(("writing-", "retired-")) or len(tag) != len("writing-") + 8:
+            continue
+        try:
+            if now - path.lstat().st_mtime < older_than_s:
+                continue
+        except OSError:
+            continue
+        remove_tree(path)
+        removed.append(path)
+    return removed
+
+
 def _infer_kind(scratch: Path) -> str | None:
     return next((k for k, name in FOLDER_KINDS.items() if (scratch / name).exists()), None)
 
@@ -53,6 +85,7 @@ def atomic_directory(
     target = Path(target)
     name = key or f"output.{kind or 'folder'}"
     ensure_replaceable(target, kind or "output", name, any_kind=kind is None)
+    sweep_scratch(target)
     created = first_missing_ancestor(target.parent)
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
@@ -100,6 +133,7 @@ def publish_file(path: Path, data: bytes, *, kind: str, key: str) -> None:
     """Write ``data`` to ``path`` atomically, replacing only an earlier output of ``kind``."""
     path = Path(path)
     ensure_replaceable(path, kind, key)
+    sweep_scratch(path)
     created = first_missing_ancestor(path.parent)
     try:
         write_bytes_atomic(path, data)

@@ -265,3 +265,26 @@ def test_permission_denied_is_one_line_exit_2_naming_the_key(
     assert len(lines) == 1 and "Traceback" not in done.stderr, done.stderr
     assert key in lines[0] and "Permission denied" in lines[0]
     assert listing() == before  # nothing left, nothing removed
+
+
+def test_scratch_left_by_a_killed_process_is_swept_when_old(tmp_path):
+    import os
+
+    from graphmill._atomic import sweep_scratch
+
+    target = tmp_path / "snap"
+    old_writing = tmp_path / ".snap.writing-0123abcd"
+    old_retired = tmp_path / ".snap.retired-89abcdef"
+    fresh = tmp_path / ".snap.writing-fedcba98"  # another publish may still be writing it
+    unrelated = tmp_path / ".snap.notes-0123abcd"
+    for path in (old_writing, old_retired, fresh):
+        path.mkdir()
+        (path / "part.parquet").write_text("x")
+    unrelated.write_text("mine")
+    for path in (old_writing, old_retired):
+        os.utime(path, (0, 0))
+    with atomic_directory(target, kind="snapshot") as scratch:
+        _snapshot_like(scratch)
+    assert not old_writing.exists() and not old_retired.exists()
+    assert fresh.exists() and unrelated.exists()
+    assert sweep_scratch(target, older_than_s=0) == [fresh]
