@@ -47,7 +47,7 @@ def sweep_scratch(target: Path, *, older_than_s: float = STALE_SCRATCH_S) -> lis
     import time
 
     target = Path(target)
-    removed = []
+    removed: list[Path] = []
     try:
         prefix = f".{target.name}."
         siblings = [p for p in target.parent.iterdir() if p.name.startswith(prefix)]
