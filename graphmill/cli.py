@@ -9,10 +9,11 @@ or damaged, 9 optional dependency missing, 70 internal error, 130 interrupted.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import logging
 import sys
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from typing import Any
 
 from graphmill._version import __version__
@@ -61,7 +62,11 @@ def _parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     args = _parser().parse_args(argv)
-    _configure_logging(args.verbose)
+    with _logging_for(args.verbose):
+        return _main(args)
+
+
+def _main(args: argparse.Namespace) -> int:
     try:
         return int(_dispatch(args))
     except GraphmillError as exc:
@@ -75,24 +80,47 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         return _fail(args, "interrupted; run the same command again to resume", 130, {})
     except Exception as exc:  # a bug of ours: one line, and how to see more
-        logging.getLogger("graphmill").debug("internal error", exc_info=True)
+        logging.getLogger("graphmill").info("internal error", exc_info=True)  # shown with -v
         text = f"internal error: {type(exc).__name__}: {exc}. Please report it (run with -v)"
         return _fail(args, text, ExitCode.INTERNAL, {"error": type(exc).__name__})
 
 
-def _configure_logging(verbose: bool) -> None:
-    """``graphmill.*`` loggers to stderr: INFO with ``-v`` (what each stage does), else
-    WARNING. Other libraries' loggers stay at WARNING either way."""
+class _StderrHandler(logging.StreamHandler):
+    """Writes to whatever ``sys.stderr`` is when a record is emitted (it may be replaced
+    between calls of :func:`main` in one process)."""
+
+    @property
+    def stream(self) -> Any:
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, _value: Any) -> None:
+        return None
+
+
+@contextlib.contextmanager
+def _logging_for(verbose: bool) -> Iterator[None]:
+    """Log to stderr while a command runs: ``graphmill.*`` at WARNING, or INFO with ``-v``
+    (what each stage does); other libraries' records (a driver's own error dumps) only with
+    ``-v``, and only warnings and errors. Everything is restored afterwards."""
     logger = logging.getLogger("graphmill")
-    for handler in list(logger.handlers):
-        if getattr(handler, "_graphmill_cli", False):
-            logger.removeHandler(handler)
-    handler = logging.StreamHandler(sys.stderr)
+    handler = _StderrHandler()
     handler.setFormatter(logging.Formatter("graphmill: %(levelname)s: %(message)s"))
-    handler._graphmill_cli = True  # type: ignore[attr-defined]
-    logger.addHandler(handler)
+
+    def wanted(record: logging.LogRecord) -> bool:
+        ours = record.name == "graphmill" or record.name.startswith("graphmill.")
+        return ours or (verbose and record.levelno >= logging.WARNING)
+
+    handler.addFilter(wanted)
+    root = logging.getLogger()
+    level = logger.level
+    root.addHandler(handler)
     logger.setLevel(logging.INFO if verbose else logging.WARNING)
-    logger.propagate = False
+    try:
+        yield
+    finally:
+        root.removeHandler(handler)
+        logger.setLevel(level)
 
 
 def _fail(args: argparse.Namespace, text: str, code: int, detail: dict[str, Any]) -> int:
