@@ -335,6 +335,7 @@ def test_9_missing_optional_package(tmp_path, capsys, monkeypatch):
 # --- 70 and 130: a third-party source, installed with an entry point ---------------------------
 
 PLUGIN = """
+import logging
 import time
 from pathlib import Path
 
@@ -345,6 +346,7 @@ class BuggySource(GraphSource):
     kind = "ec-buggy"
 
     def read(self, unit, cursor=None):
+        logging.getLogger("ec_plugin").warning("plugin noise")  # shown only with -v
         return iter([1 / 0])  # a bug in the plugin
 
     def provenance(self):
@@ -398,6 +400,9 @@ def test_70_internal_error(tmp_path, capsys, plugin_site):
     line = _one_line(err)
     assert "internal error: ZeroDivisionError" in line and "Please report it" in line
     assert not (tmp_path / "out").exists()
+    code, _, err = _cli(capsys, "pull", str(spec), "-v")  # -v: the noise and the traceback
+    assert code == 70
+    assert "WARNING: plugin noise" in err and "ZeroDivisionError: division by zero" in err
 
 
 def test_130_interrupted(tmp_path, plugin_site):
