@@ -38,6 +38,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from graphmill._atomic import sha256_file
+from graphmill._output_kinds import read_stale_note
 from graphmill.errors import BundleIntegrityError, InputError, require
 from graphmill.spec import RelationKey
 
@@ -302,4 +303,5 @@ def inspect_bundle(path: str | Path) -> dict[str, Any]:
         "manifest_verified": manifest_ok,
         "files": files,
         "verified": manifest_ok and all(f["verified"] for f in files),
+        "stale": read_stale_note(root),
     }

@@ -1,17 +1,19 @@
 """The ``graphmill`` command.
 
-Exit codes (also in README): 0 ok, 1 checks failed, 2 bad input or spec, 3 source unreadable,
-4 authentication refused, 5 source timeout, 6 server error, 7 malformed response,
-8 bundle or snapshot integrity, 9 optional dependency missing, 70 internal error.
+Exit codes (also in README): 0 ok, 1 checks failed (also when ``--even-if-failing`` built a
+bundle anyway), 2 bad input, spec or output path, 3 source unreadable, 4 authentication
+refused, 5 source timeout, 6 server error, 7 malformed response, 8 bundle or snapshot missing
+or damaged, 9 optional dependency missing, 70 internal error, 130 interrupted.
 """
 
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import logging
 import sys
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from typing import Any
 
 from graphmill._version import __version__
@@ -58,18 +60,19 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument(
                 "--even-if-failing",
                 action="store_true",
-                help="build the bundle even when checks report errors",
+                help="build the bundle even when checks report errors (the manifest says so; "
+                "the command still exits 1)",
             )
     return parser
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     args = _parser().parse_args(argv)
-    logging.basicConfig(
-        level=logging.INFO if args.verbose else logging.WARNING,
-        format="graphmill: %(levelname)s: %(message)s",
-        stream=sys.stderr,
-    )
+    with _logging_for(args.verbose):
+        return _main(args)
+
+
+def _main(args: argparse.Namespace) -> int:
     try:
         return int(_dispatch(args))
     except GraphmillError as exc:
@@ -83,9 +86,47 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         return _fail(args, "interrupted; run the same command again to resume", 130, {})
     except Exception as exc:  # a bug of ours: one line, and how to see more
-        logging.getLogger("graphmill").debug("internal error", exc_info=True)
+        logging.getLogger("graphmill").info("internal error", exc_info=True)  # shown with -v
         text = f"internal error: {type(exc).__name__}: {exc}. Please report it (run with -v)"
         return _fail(args, text, ExitCode.INTERNAL, {"error": type(exc).__name__})
+
+
+class _StderrHandler(logging.StreamHandler):
+    """Writes to whatever ``sys.stderr`` is when a record is emitted (it may be replaced
+    between calls of :func:`main` in one process)."""
+
+    @property
+    def stream(self) -> Any:
+        return sys.stderr
+
+    @stream.setter
+    def stream(self, _value: Any) -> None:
+        return None
+
+
+@contextlib.contextmanager
+def _logging_for(verbose: bool) -> Iterator[None]:
+    """Log to stderr while a command runs: ``graphmill.*`` at WARNING, or INFO with ``-v``
+    (what each stage does); other libraries' records (a driver's own error dumps) only with
+    ``-v``, and only warnings and errors. Everything is restored afterwards."""
+    logger = logging.getLogger("graphmill")
+    handler = _StderrHandler()
+    handler.setFormatter(logging.Formatter("graphmill: %(levelname)s: %(message)s"))
+
+    def wanted(record: logging.LogRecord) -> bool:
+        ours = record.name == "graphmill" or record.name.startswith("graphmill.")
+        return ours or (verbose and record.levelno >= logging.WARNING)
+
+    handler.addFilter(wanted)
+    root = logging.getLogger()
+    level = logger.level
+    root.addHandler(handler)
+    logger.setLevel(logging.INFO if verbose else logging.WARNING)
+    try:
+        yield
+    finally:
+        root.removeHandler(handler)
+        logger.setLevel(level)
 
 
 def _fail(args: argparse.Namespace, text: str, code: int, detail: dict[str, Any]) -> int:
@@ -101,7 +142,7 @@ def _dispatch(args: argparse.Namespace) -> int:
 
     from graphmill._progress import progress_for_terminal
 
-    console = Console(stderr=False, highlight=False)
+    console = Console(stderr=False, highlight=False, markup=False, soft_wrap=True)
     if args.command == "schema":
         from graphmill._schemas import load_schema
 
@@ -126,20 +167,13 @@ def _dispatch(args: argparse.Namespace) -> int:
             _emit(args, console, info.to_dict(), _render_pull)
             return ExitCode.OK
         if args.command == "check":
-            report = pipeline.check()
-            if args.junit:
-                from pathlib import Path
-
-                report.write_junit(Path(args.junit))
-            if args.json:
-                print(json.dumps(report.to_dict(), sort_keys=True))
-            else:
-                report.render(console)
-            return ExitCode.OK if report.passed else ExitCode.CHECKS_FAILED
+            return _check(args, console, pipeline)
         if args.command == "build":
             built = pipeline.build(even_if_failing=args.even_if_failing)
-            _emit(args, console, built.to_dict(), _render_build)
-            return ExitCode.OK
+            passed = pipeline.last_report is None or pipeline.last_report.passed
+            document = {**built.to_dict(), "checks_passed": passed}
+            _emit(args, console, document, _render_build)
+            return ExitCode.OK if passed else ExitCode.CHECKS_FAILED
         result = pipeline.run(even_if_failing=args.even_if_failing, fresh=args.fresh)
         if args.json:
             print(json.dumps(result.to_dict(), sort_keys=True))
@@ -147,10 +181,34 @@ def _dispatch(args: argparse.Namespace) -> int:
             _render_pull(console, result.pull.to_dict())
             result.report.render(console)
             if result.build is not None:
-                _render_build(console, result.build.to_dict())
+                build_doc = {**result.build.to_dict(), "checks_passed": result.report.passed}
+                _render_build(console, build_doc)
             else:
-                console.print("[red]no bundle built[/red]: the checks failed (see above)")
+                console.print("no bundle built: the checks failed (see above)")
+            if result.retired is not None:
+                console.print(f"the previous bundle was moved aside to {result.retired}")
         return result.exit_code
+
+
+def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
+    from pathlib import Path
+
+    from graphmill._output_kinds import ensure_replaceable
+    from graphmill._output_paths import check_output_paths, expand_path
+
+    junit = None
+    if args.junit:
+        check_output_paths(pipeline.spec, extra={"--junit": args.junit})
+        junit = expand_path(args.junit, Path.cwd())
+        ensure_replaceable(junit, "junit", "--junit")
+    report = pipeline.check()
+    if junit is not None:
+        report.write_junit(junit, key="--junit")
+    if args.json:
+        print(json.dumps(report.to_dict(), sort_keys=True))
+    else:
+        report.render(console)
+    return ExitCode.OK if report.passed else ExitCode.CHECKS_FAILED
 
 
 def _emit(args: argparse.Namespace, console: Any, document: dict[str, Any], render: Any) -> None:
@@ -161,31 +219,64 @@ def _emit(args: argparse.Namespace, console: Any, document: dict[str, Any], rend
 
 
 def _render_pull(console: Any, info: dict[str, Any]) -> None:
-    from rich.table import Table
+    from graphmill._text import plural
 
-    table = Table(title=f"snapshot {info['snapshot']}", title_justify="left")
-    table.add_column("table")
-    table.add_column("rows", justify="right")
-    for name, n in info["vertex_counts"].items():
-        table.add_row(f"vertices {name}", f"{n:,}")
-    for name, n in info["edge_counts"].items():
-        table.add_row(f"edges {name}", f"{n:,}")
-    console.print(table)
+    console.print(f"snapshot {info['snapshot']}")
+    _render_counts(console, info["vertex_counts"], info["edge_counts"])
     resumed = f", {info['units_resumed']} resumed" if info.get("units_resumed") else ""
-    console.print(f"pulled {info['units_total']} unit(s){resumed} in {info['seconds']:.1f} s")
+    units = plural(info["units_total"], "work unit")
+    console.print(f"pulled {units}{resumed} in {info['seconds']:.1f} s")
     for warning in info.get("warnings", []):
-        console.print(f"[yellow]note[/yellow]: {warning}")
+        console.print(f"note: {warning}")
+
+
+def _render_counts(console: Any, vertices: dict[str, int], edges: dict[str, int]) -> None:
+    """One aligned line per vertex type and per relation: ``  vertices person   1,234``."""
+    rows = [(f"vertices {k}", n) for k, n in vertices.items()]
+    rows += [(f"edges {k}", n) for k, n in edges.items()]
+    width = max((len(name) for name, _ in rows), default=0)
+    for name, n in rows:
+        console.print(f"  {name:<{width}}  {n:>12,}")
 
 
 def _render_build(console: Any, info: dict[str, Any]) -> None:
-    console.print(f"[green]bundle written[/green]: {info.get('bundle')}")
-    for key in ("vertex_counts", "edge_counts", "dropped_edges"):
-        if info.get(key):
-            console.print(f"  {key.replace('_', ' ')}: {info[key]}")
+    from graphmill._text import plural
+
+    if info.get("checks_passed", True):
+        console.print(f"bundle written: {info.get('bundle')}")
+    else:
+        console.print(
+            f"bundle written FROM FAILING CHECKS (--even-if-failing): {info.get('bundle')}"
+        )
+    _render_counts(console, info.get("vertex_counts", {}), info.get("edge_counts", {}))
+    for name, n in (info.get("duplicate_vertices") or {}).items():
+        if n:
+            console.print(
+                f"  {name}: {plural(n, 'duplicate vertex row', 'duplicate vertex rows')} dropped"
+            )
+    for relation, reasons in (info.get("dropped_edges") or {}).items():
+        for reason, n in reasons.items():
+            if n:
+                console.print(
+                    f"  {relation}: {plural(n, 'edge')} dropped ({reason.replace('_', ' ')})"
+                )
+    for what in ("merged_edges", "added_edges"):
+        for relation, n in (info.get(what) or {}).items():
+            if n:
+                verb = what.split("_")[0]
+                console.print(f"  {relation}: {plural(n, 'edge')} {verb}")
+    if info.get("part_sizes"):
+        parts = ", ".join(f"{k} {n:,}" for k, n in info["part_sizes"].items())
+        console.print(f"  parts: {parts}")
+    for warning in info.get("warnings", []):
+        console.print(f"note: {warning}")
 
 
 def _render_inspect(console: Any, summary: dict[str, Any]) -> None:
-    console.print_json(json.dumps(summary, default=str))
+    from graphmill._inspect_text import summary_lines
+
+    for line in summary_lines(summary):
+        console.print(line, markup=False, highlight=False)
 
 
 if __name__ == "__main__":  # pragma: no cover

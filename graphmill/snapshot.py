@@ -400,7 +400,7 @@ def publish_snapshot(
     warnings: list[str] = []
     vertex_counts: dict[str, int] = {}
     edge_counts: dict[str, int] = {}
-    with atomic_directory(spec.output.snapshot) as scratch:
+    with atomic_directory(spec.output.snapshot, kind="snapshot", key="output.snapshot") as scratch:
         graph_prop = spec.rdf.graph_property
         extra = [PropertySpec(graph_prop, graph_prop, "string")] if graph_prop else []
         for name, vt in spec.vertex_types.items():

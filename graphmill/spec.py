@@ -13,6 +13,7 @@ from typing import Any, NamedTuple
 
 import yaml
 
+from graphmill._output_paths import check_output_paths, expand_path
 from graphmill._schemas import schema_validator
 from graphmill.errors import SourceUnavailableError, SpecError
 
@@ -288,12 +289,12 @@ def spec_from_dict(
         raw=doc,
     )
     _cross_check(spec, where)
+    check_output_paths(spec, where)
     return spec
 
 
 def _absolute(path: str, base: Path) -> Path:
-    p = Path(path).expanduser()
-    return p if p.is_absolute() else base / p
+    return expand_path(path, base)
 
 
 def _properties(doc: dict[str, Any]) -> tuple[PropertySpec, ...]:

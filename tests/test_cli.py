@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -117,3 +118,97 @@ def test_json_mode_error_document(tmp_path, write):
 def test_schema_command_prints_a_schema(capsys):
     assert main(["schema", "spec"]) == 0
     assert json.loads(capsys.readouterr().out)["title"].startswith("graphmill pipeline spec")
+
+
+# --- readable output --------------------------------------------------------------------------
+
+DANGLING_KNOWS = "a,b\np1,p2\np2,p9\np1,p8\n"  # two dangling edges in one finding
+
+
+def test_inspect_prints_a_summary_and_json_only_when_asked(tmp_path, table_project):
+    assert run_cli("run", str(table_project)).returncode == 0
+    bundle = str(tmp_path / "out" / "bundle")
+    text = run_cli("inspect", bundle)
+    assert text.returncode == 0, text.stderr
+    assert not text.stdout.lstrip().startswith("{")
+    lines = text.stdout.splitlines()
+    assert lines[0].startswith("bundle 'spec' (format 1") and lines[0].endswith("verified")
+    assert any(line.split() == ["person", "2", "0", "feature", "columns"] for line in lines)
+    assert any(line.split() == ["person.knows.person", "1"] for line in lines), lines
+    assert "checks: passed (0 errors, " in text.stdout
+    assert any(line.startswith("source: table-files") for line in lines)
+    document = json.loads(run_cli("inspect", bundle, "--json").stdout)
+    assert document["vertices"] == {"person": 2} and document["verified"] is True
+
+
+def test_check_prints_one_line_per_finding_when_not_on_a_terminal(tmp_path, write, table_project):
+    write("knows.csv", DANGLING_KNOWS)
+    assert run_cli("pull", str(table_project)).returncode == 0
+    done = run_cli("check", str(table_project))  # stdout is a pipe here
+    assert done.returncode == 1
+    lines = done.stdout.splitlines()
+    dangling = [line for line in lines if " dangling-edge " in line]
+    assert len(dangling) == 1, done.stdout
+    assert dangling[0].startswith("error dangling-edge person.knows.person 2/3: ")
+    assert "e.g." in dangling[0] and "p9" in dangling[0] and "p8" in dangling[0]
+    assert "│" not in done.stdout and "┃" not in done.stdout  # no table borders
+    assert lines[-1].startswith("FAILED: 1 error, ")
+
+
+def test_build_prints_readable_lines_not_dict_reprs(tmp_path, write, table_project):
+    write("knows.csv", "a,b\np1,p2\np1,p2\n")  # a repeated edge: dropped by the default policy
+    assert run_cli("pull", str(table_project)).returncode == 0
+    done = run_cli("build", str(table_project))
+    assert done.returncode == 0, done.stderr
+    assert "{" not in done.stdout and "'" not in done.stdout
+    assert "bundle written: " in done.stdout
+    assert any(line.split() == ["vertices", "person", "2"] for line in done.stdout.splitlines())
+    assert "1 edge dropped" in done.stdout
+
+
+def test_verbose_logs_each_stage(tmp_path, table_project):
+    done = run_cli("run", str(table_project), "-v")
+    assert done.returncode == 0, done.stderr
+    log = done.stderr
+    for words in (
+        "INFO: pull: table-files source into",
+        "INFO: pull vertices person",
+        "INFO: pull: person: 2 rows",
+        "INFO: pull: person.knows.person: 1 row\n",
+        "INFO: check: ",
+        " rules on ",
+        "INFO: build vertices",
+        "INFO: build: wrote ",
+        "INFO: build: file manifest.json (",
+    ):
+        assert words in log, (words, log)
+    quiet = run_cli("run", str(table_project))
+    assert quiet.stderr == ""
+
+
+def test_plural_forms():
+    from graphmill._text import plural
+
+    assert [plural(n, "error") for n in (0, 1, 2)] == ["0 errors", "1 error", "2 errors"]
+    assert plural(1_000, "vertex", "vertices") == "1,000 vertices"
+    import graphmill
+
+    in_a_string = re.compile(r"\"[^\"\n]*[a-z]\(s\)[^\"\n]*\"")  # "unit(s)" in a message
+    sources = Path(graphmill.__file__).parent.rglob("*.py")
+    offenders = [
+        str(p) for p in sources if in_a_string.search(p.read_text().replace("http(s)", ""))
+    ]
+    assert offenders == []
+
+
+def test_a_negative_value_under_log_encoding_prints_a_plain_number(tmp_path, write):
+    write("people.csv", "ref,age\np1,30\np2,-5\n")
+    write("knows.csv", "a,b\np1,p2\n")
+    spec = write(
+        "spec.yaml",
+        TABLE_SPEC.format(out="out/bundle")
+        + "features: {person: [{property: age, encoding: log}]}\n",
+    )
+    done = run_cli("run", str(spec))
+    assert "np.float64" not in done.stderr + done.stdout
+    assert "value -5.0 is negative" in done.stderr, done.stderr

@@ -126,7 +126,7 @@ def build_bundle(
             "warnings": info.warnings,
         }
     )
-    with atomic_directory(spec.output.bundle) as scratch:
+    with atomic_directory(spec.output.bundle, kind="bundle", key="output.bundle") as scratch:
         write_bundle(scratch, content)
     info.seconds = time.perf_counter() - started
     return info

@@ -28,6 +28,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from graphmill._columns import DATETIME_TYPE, is_multi, kind_of_type
+from graphmill._text import plain
 
 MICROS_PER_DAY = 86_400_000_000
 # A spread this small is rounding noise, not information; treated as zero (then as 1).
@@ -139,7 +140,7 @@ def log_values(values: np.ndarray) -> np.ndarray:
     negative = np.flatnonzero(values < 0)
     if len(negative):
         raise BadValue(
-            f"value {values[negative[0]]!r} is negative; the log encoding needs values >= 0",
+            f"value {plain(values[negative[0]])!r} is negative; the log encoding needs values >= 0",
             position=int(negative[0]),
             hint="use standardize or min-max for this property, or fix the value",
         )

@@ -20,6 +20,7 @@ from collections.abc import Callable
 import numpy as np
 import pyarrow as pa
 
+from graphmill._text import plural
 from graphmill.errors import InputError, SpecError
 
 SCHEME = "hmac-sha256-128"
@@ -65,7 +66,11 @@ def pseudonyms(vertex_type: str, ids: pa.Array, key: bytes) -> pa.Array:
     'd6f74367'
     """
     if ids.null_count:
-        raise InputError(f"{ids.null_count} {vertex_type} vertices have no ID")
+        n = ids.null_count
+        raise InputError(
+            f"{plural(n, vertex_type + ' vertex', vertex_type + ' vertices')} "
+            f"{'has' if n == 1 else 'have'} no ID"
+        )
     inner, outer = _keyed_states(key)
     prefix = vertex_type.encode("utf-8") + b"\x00"
     raw = ids.cast(pa.binary()).to_pylist()

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from graphmill._text import plural
 from graphmill.validate._context import CheckContext, Outcome
 from graphmill.validate.rules import count_in_range, missing_or_empty
 
@@ -57,10 +58,11 @@ def check_expected_property(ctx: CheckContext, subject: dict[str, str]) -> Outco
     values = None if column is None else len(column) - column.null_count
     why = missing_or_empty(values)
     what = f"property {prop} on vertex type {name}"
+    counted = plural(values or 0, "value")
     text = {
         "absent": f"the contract expects {what}, but the snapshot has no such column",
         "empty": f"the contract expects {what}, but no vertex has a value for it",
-    }.get(why or "", f"{what} is present with {values} values, as the contract expects")
+    }.get(why or "", f"{what} is present with {counted}, as the contract expects")
     return Outcome(int(why is not None), 1, text, details={"values": values})
 
 

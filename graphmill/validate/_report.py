@@ -12,7 +12,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from graphmill._atomic import write_bytes_atomic
+from graphmill._atomic import publish_file
+from graphmill._text import plural
 from graphmill._version import __version__
 from graphmill.validate._findings import SEVERITIES, Evaluation, Finding, subject_label
 
@@ -58,18 +59,20 @@ class Report:
         """Strict JSON (no NaN), sorted keys, two-space indent, newline at the end."""
         return json.dumps(self.to_dict(), sort_keys=True, indent=2, allow_nan=False) + "\n"
 
-    def write_json(self, path: str | Path) -> Path:
-        """Write :meth:`to_json` atomically; returns the path."""
+    def write_json(self, path: str | Path, *, key: str = "output.report") -> Path:
+        """Write :meth:`to_json` atomically; returns the path. Replaces only an earlier
+        report (``OutputPathError`` naming ``key`` otherwise)."""
         target = Path(path)
-        write_bytes_atomic(target, self.to_json().encode("utf-8"))
+        publish_file(target, self.to_json().encode("utf-8"), kind="report", key=key)
         return target
 
-    def write_junit(self, path: str | Path) -> Path:
-        """Write JUnit XML atomically (see ``_junit.py``); returns the path."""
+    def write_junit(self, path: str | Path, *, key: str = "output.junit") -> Path:
+        """Write JUnit XML atomically (see ``_junit.py``); returns the path. Replaces only
+        earlier graphmill JUnit XML (``OutputPathError`` naming ``key`` otherwise)."""
         from graphmill.validate._junit import junit_xml
 
         target = Path(path)
-        write_bytes_atomic(target, junit_xml(self))
+        publish_file(target, junit_xml(self), kind="junit", key=key)
         return target
 
     def summary(self) -> dict[str, Any]:
@@ -94,17 +97,47 @@ class Report:
         passing = sum(e.status == "pass" for e in self.evaluated)
         word = "PASSED" if self.passed else "FAILED"
         return (
-            f"{word}: {c['error']} errors, {c['warning']} warnings, {c['info']} notes; "
-            f"{len(self.evaluated)} checks evaluated, {passing} found nothing"
+            f"{word}: {plural(c['error'], 'error')}, {plural(c['warning'], 'warning')}, "
+            f"{plural(c['info'], 'note')}; {plural(len(self.evaluated), 'check')} evaluated, "
+            f"{passing:,} found nothing"
         )
 
+    def ordered_findings(self) -> list[Finding]:
+        """Findings, errors first, then warnings, then notes; in report order within each."""
+        rank = {level: i for i, level in enumerate(SEVERITIES)}
+        ordered = sorted(enumerate(self.findings), key=lambda p: (rank[p[1].severity], p[0]))
+        return [f for _, f in ordered]
+
+    def lines(self) -> list[str]:
+        """One line per finding (errors first), then the verdict: what CI logs show.
+
+        Each line: ``severity rule subject count[/denominator]: message; e.g. sample``.
+        """
+        out = []
+        for f in self.ordered_findings():
+            found = f"{f.count}/{f.denominator}" if f.denominator else str(f.count)
+            line = f"{f.severity} {f.rule} {subject_label(f.subject)} {found}: {f.message}"
+            if f.sample:
+                shown = "; ".join(_record_text(r) for r in f.sample[:RENDER_SAMPLES])
+                more = " …" if len(f.sample) > RENDER_SAMPLES else ""
+                line += f" (e.g. {shown}{more})"
+            out.append(" ".join(line.split()))
+        if not out:
+            out.append("no findings")
+        out.append(self.verdict())
+        return out
+
     def render(self, console: Any) -> None:
-        """Print a table of findings (errors first) and the verdict on a rich console."""
+        """Print the findings and the verdict: a table on a terminal, otherwise one line per
+        finding (see :meth:`lines`), so that CI logs stay readable."""
         from rich.table import Table
         from rich.text import Text
 
-        rank = {level: i for i, level in enumerate(SEVERITIES)}
-        ordered = sorted(enumerate(self.findings), key=lambda p: (rank[p[1].severity], p[0]))
+        if not console.is_terminal:
+            for line in self.lines():
+                console.print(Text(line), soft_wrap=True)
+            return
+        ordered = list(enumerate(self.ordered_findings()))
         if ordered:
             table = Table(title=f"graphmill checks: {self.snapshot.get('name', '')}")
             for column in ("severity", "rule", "subject", "found", "message"):

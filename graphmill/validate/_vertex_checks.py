@@ -8,6 +8,7 @@ from __future__ import annotations
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from graphmill._text import plural
 from graphmill.connectors.base import VERTEX_ID
 from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
 from graphmill.validate.rules import PairCodes, duplicate_counts, isolated_mask, shared_ids
@@ -91,7 +92,8 @@ def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     return Outcome(
         0 if with_edges else 1,
         1,
-        f"vertex type {name} ({rows} vertices) is in no relation that has edges "
+        f"vertex type {name} ({plural(rows, 'vertex', 'vertices')}) is in no relation that has "
+        "edges "
         f"(relations declared for it: {declared})",
         details={"relations": [r.dotted for r in touching], "vertices": rows},
     )

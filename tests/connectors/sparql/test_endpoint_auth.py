@@ -71,7 +71,8 @@ def test_the_right_password_works_and_is_written_nowhere(
 def test_a_refused_password_is_exit_4(tmp_path, auth_server, capsys, monkeypatch, password):
     code, output = _run(tmp_path, auth_server, capsys, monkeypatch, password)
     assert code == AuthenticationError.exit_code == 4
-    lines = [line for line in output.splitlines() if line.strip()]
+    # -v adds INFO lines (what each stage does); the error itself is one line
+    lines = [line for line in output.splitlines() if line.strip() and ": INFO: " not in line]
     assert len(lines) == 1 and "Traceback" not in output
     assert ("GM_SPARQL_PASSWORD is not set" if password is None else "HTTP 401") in lines[0]
     assert auth_server.auth[1] not in output
