@@ -102,7 +102,7 @@ def test_1_build_refuses_without_the_flag(tmp_path, capsys):
     _cli(capsys, "pull", str(spec))
     code, _, err = _cli(capsys, "build", str(spec))
     assert code == 1
-    assert "checks failed with 1 error finding;" in _one_line(err)
+    assert "checks failed with 1 error finding, the first dangling-edge" in _one_line(err)
     assert not (tmp_path / "out/bundle").exists() and _leftovers(tmp_path) == []
 
 
