@@ -138,7 +138,9 @@ def test_empty_id_names_the_line(tmp_path, write):
     write("people.csv", PEOPLE + ",person,1,1,,\n")
     write("links.csv", LINKS)
     spec = spec_for(tmp_path)
-    with pytest.raises(InputError, match=r"people.csv, record row 4: column 'ref' is empty"):
+    # Row 4 starts on physical line 6: the header, two rows, and a row whose quoted note
+    # spans lines 4 and 5 come before it.
+    with pytest.raises(InputError, match=r"people.csv:6: column 'ref' is empty in data row 4"):
         pull(spec, open_source(spec))
 
 
