@@ -10,6 +10,7 @@ through ``load_bundle``.
 
 from __future__ import annotations
 
+import atexit
 import functools
 import hashlib
 import json
@@ -34,6 +35,7 @@ def good_bundle() -> Path:
     import graphmill
 
     root = Path(tempfile.mkdtemp(prefix="graphmill-good-bundle-"))
+    atexit.register(shutil.rmtree, root, True)
     rows = "".join(f"p{i},{20 + i},{'red' if i % 2 else 'blue'},c{i % 3}\n" for i in range(12))
     spec = table_spec(
         properties="{age: {kind: integer}, team: {kind: string}, city: {kind: string}}",

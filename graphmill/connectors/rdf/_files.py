@@ -119,12 +119,38 @@ def reading(item: RdfInput) -> Iterator[None]:
         yield
     except SyntaxError as exc:
         raise _syntax_error(exc, item) from exc
+    except MemoryError as exc:
+        if "buffer maximal size" not in str(exc):
+            raise
+        raise _oversized_term(item) from exc
     except (gzip.BadGzipFile, EOFError, UnicodeDecodeError) as exc:
         raise InputError(
             f"not a readable gzip file: {exc}", file=item.shown, hint="check the download"
         ) from exc
     except OSError as exc:
         raise SourceUnavailableError(f"cannot read the file: {exc}", file=item.shown) from exc
+
+
+#: The longest term (a literal, an IRI) pyoxigraph's parsers take: 16 MiB (measured, 0.5.x).
+TERM_LIMIT = 16 << 20
+
+
+def _oversized_term(item: RdfInput) -> InputError:
+    """The parser's buffer overflowed: name the first line that is too long, if one is."""
+    opener = gzip.open if item.gzipped else open
+    line = None
+    with opener(item.path, "rb") as fh:
+        for number, text in enumerate(fh, start=1):
+            if len(text) >= TERM_LIMIT:
+                line = number
+                break
+    return InputError(
+        f"a term (a literal or an IRI) is longer than the RDF parser's limit of "
+        f"{TERM_LIMIT >> 20} MiB",
+        file=item.shown,
+        line=line,
+        hint="shorten or drop that value (keep large documents outside the graph)",
+    )
 
 
 @contextlib.contextmanager
