@@ -103,6 +103,11 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
     position = exc.args[1] if len(exc.args) > 1 and isinstance(exc.args[1], tuple) else ()
     line = exc.lineno if isinstance(exc.lineno, int) else None
     column = position[2] if len(position) > 2 and isinstance(position[2], int) else None
+    if "dot" in reason and column == 1 and line is not None and line > 1:
+        # the parser notices a missing final dot at the next statement: name the line
+        # that lacks it instead
+        line, column = _previous_statement_line(item, line), None
+        reason = "the statement lacks its final dot"
     where = f" (column {column})" if column is not None else ""
     return InputError(
         f"not valid {item.format}{where}: {reason}",
@@ -110,6 +115,19 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
         line=line,
         hint="Fix the line or remove it",
     )
+
+
+def _previous_statement_line(item: RdfInput, line: int) -> int:
+    """The last line before ``line`` that holds more than blanks and comments."""
+    opener = gzip.open if item.gzipped else open
+    found = line - 1
+    with opener(item.path, "rb") as fh:
+        for number, text in enumerate(fh, start=1):
+            if number >= line:
+                break
+            if text.strip() and not text.lstrip().startswith(b"#"):
+                found = number
+    return found
 
 
 @contextlib.contextmanager
