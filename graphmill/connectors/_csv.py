@@ -83,6 +83,16 @@ def csv_batches(
 ) -> Iterator[tuple[pa.RecordBatch, int]]:
     """Batches of ``columns`` as text, each with the 0-based data row index of its first row."""
     header = read_header(path, delimiter)
+    if len(header) == 1 and len(columns) > 1:
+        others = [d for d in (",", ";", "\t", "|") if d != delimiter and d in header[0]]
+        if others:
+            raise InputError(
+                f"the header is one column, {header[0][:80]!r}; the file seems delimited by "
+                f"{others[0]!r}",
+                file=str(path),
+                line=1,
+                hint=f"set delimiter: {others[0]!r} in this file's entry of the spec",
+            )
     require_columns(header, columns, path)
     if _odd_quotes(path):
         defect = locate_defect(path, delimiter)
@@ -128,8 +138,10 @@ def locate_defect(path: Path, delimiter: str) -> InputError | None:
             try:
                 raw.decode("utf-8")
             except UnicodeDecodeError as exc:
+                column = _column_of_bad_byte(raw, path, delimiter)
                 return InputError(
-                    f"byte {raw[exc.start]:#04x} at column {exc.start + 1} is not UTF-8 text",
+                    f"byte {raw[exc.start]:#04x} (at byte {exc.start + 1} of the line"
+                    f"{column}) is not UTF-8 text",
                     file=str(path),
                     line=number,
                     hint="save the file as UTF-8",
@@ -153,6 +165,20 @@ def locate_defect(path: Path, delimiter: str) -> InputError | None:
                 hint=f"{_FIX}; quote values that contain the delimiter",
             )
     return None
+
+
+def _column_of_bad_byte(raw: bytes, path: Path, delimiter: str) -> str:
+    """``", in column 'name'"`` for the cell of a one-line record holding a byte that is not
+    UTF-8, or ``""`` where that cannot be told."""
+    try:
+        cells = next(
+            csv.reader([raw.decode("utf-8", "replace").rstrip("\r\n")], delimiter=delimiter)
+        )
+        names = read_header(path, delimiter)
+    except (csv.Error, StopIteration, InputError):
+        return ""
+    bad = [i for i, cell in enumerate(cells) if "\ufffd" in cell]
+    return f", in column {names[bad[0]]!r}" if bad and bad[0] < len(names) else ""
 
 
 def physical_line(path: Path, delimiter: str, row: int) -> int | None:
