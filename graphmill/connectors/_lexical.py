@@ -8,8 +8,9 @@ case); ``boolean`` is ``true``/``false`` (any case); ``datetime`` an ISO 8601 da
 8601 calendar date. Anything else is ``string``.
 
 A value that has the shape of its kind but no value of it (an integer beyond int64, month
-13) becomes null and is counted as ``ill-typed``, as are values that do not match a
-property's declared ``date_format`` (``strptime`` directives, e.g. ``%d/%m/%Y``).
+13, 29 February 2021, year 0000) becomes null and is counted as ``ill-typed``, as are values
+that do not match a property's declared ``date_format`` (``strptime`` directives, e.g.
+``%d/%m/%Y``).
 """
 
 from __future__ import annotations
@@ -65,6 +66,21 @@ def kind_counts(values: pa.Array) -> dict[str, int]:
     return {k: v for k, v in counts.items() if v}
 
 
+def _declared_masks(values: pa.Array, kind: str) -> dict[str, pa.Array] | None:
+    """:func:`kind_masks` computed with one or two patterns instead of five, when every value
+    has the declared kind (integers count apart under ``float``); ``None`` otherwise.
+    Valid because the patterns of boolean, datetime and date overlap no other kind's."""
+    shapes = ("integer", "float") if kind == "float" else (kind,)
+    found = {k: pc.fill_null(pc.match_substring_regex(values, PATTERNS[k]), False) for k in shapes}
+    if kind == "float":
+        found["float"] = pc.and_not(found["float"], found["integer"])
+    covered = sum(_count(mask) for mask in found.values())
+    if covered != len(values) - values.null_count:
+        return None
+    nothing = pa.repeat(pa.scalar(False), len(values))
+    return {k: found.get(k, nothing) for k in (*ORDER, "string")}
+
+
 def typed_values(
     values: pa.Array, kind: str | None, *, date_format: str | None = None
 ) -> tuple[pa.Array, dict[str, int]]:
@@ -78,7 +94,9 @@ def typed_values(
         good = len(parsed) - parsed.null_count
         ill = len(values) - values.null_count - good
         return parsed, {k: n for k, n in ((kind, good), (ILL_TYPED, ill)) if n}
-    masks = kind_masks(values)
+    masks = _declared_masks(values, kind) if kind not in (None, "string") else None
+    if masks is None:
+        masks = kind_masks(values)
     counts = {k: _count(mask) for k, mask in masks.items()}
     kind = kind or infer_kind({k: n for k, n in counts.items() if n})
     parsed = parse_kind(values, kind, masks)
@@ -106,12 +124,15 @@ def parse_with_format(values: pa.Array, kind: str, date_format: str) -> pa.Array
 def _round_trips(parsed: pa.Array, text: pa.Array, date_format: str) -> pa.Array:
     """Whether ``parsed`` printed with ``date_format`` gives ``text`` back (case and leading
     zeros aside): strptime rolls 31 February over into March, printing it back does not."""
+    seconds = pc.cast(pc.cast(parsed, pa.timestamp("us")), pa.timestamp("s"), safe=False)
+    again = pc.strftime(seconds, format=date_format)
+    same = pc.fill_null(pc.equal(again, text), False)
+    if pc.all(pc.or_(same, pc.is_null(parsed))).as_py():
+        return same
 
     def norm(values: pa.Array) -> pa.Array:
         return pc.replace_substring_regex(pc.utf8_lower(values), r"(^|[^0-9])0+([0-9])", r"\1\2")
 
-    seconds = pc.cast(pc.cast(parsed, pa.timestamp("us")), pa.timestamp("s"), safe=False)
-    again = pc.strftime(seconds, format=date_format)
     return pc.fill_null(pc.equal(norm(again), norm(text)), False)
 
 
@@ -124,21 +145,27 @@ def parse_kind(values: pa.Array, kind: str, masks: dict[str, pa.Array] | None = 
     ok = pc.or_(masks["float"], masks["integer"]) if kind == "float" else masks[kind]
     kept = pc.if_else(ok, values, pa.scalar(None, pa.string()))
     if kind == "integer":
-        return _parse_integers(pc.replace_substring_regex(kept, r"^\+", ""))
+        return _parse_integers(kept)
     if kind == "float":
         return pc.cast(kept, pa.float64())
     if kind == "boolean":
         return pc.equal(pc.utf8_lower(kept), "true")
+    if kind in ("date", "datetime"):  # years run from 1 to 9999, as in XML Schema and RDF
+        kept = pc.if_else(pc.starts_with(kept, "0000"), pa.scalar(None, pa.string()), kept)
     if kind == "date":
-        return parse_with_format(kept, "date", "%Y-%m-%d")
+        try:  # Arrow's cast is strict (no 30 February) but all or nothing
+            return pc.cast(kept, pa.date32())
+        except pa.ArrowInvalid:
+            return parse_with_format(kept, "date", "%Y-%m-%d")
     return _parse_datetimes(kept)
 
 
-def _parse_integers(digits: pa.Array) -> pa.Array:
+def _parse_integers(kept: pa.Array) -> pa.Array:
     """Optionally signed digits to int64; beyond int64 becomes null."""
     try:
-        return pc.cast(digits, pa.int64())
-    except pa.ArrowInvalid:
+        return pc.cast(kept, pa.int64())
+    except pa.ArrowInvalid:  # a '+' sign, or a value beyond int64
+        digits = pc.replace_substring_regex(kept, r"^\+", "")
         negative = pc.fill_null(pc.starts_with(digits, "-"), False)
         magnitude = pc.replace_substring_regex(digits, r"^-?0*", "")
         width = pc.utf8_length(magnitude)
@@ -150,8 +177,9 @@ def _parse_integers(digits: pa.Array) -> pa.Array:
 
 
 def _parse_datetimes(kept: pa.Array) -> pa.Array:
-    """ISO 8601 date-times: normalise separator and zone, parse whole seconds (checking that
-    the day and time exist), then add the fraction, truncated to microseconds."""
+    """ISO 8601 date-times: normalise separator and zone, then Arrow's strict cast; if any
+    value fails it, each is parsed on its own: whole seconds (checking that the day and time
+    exist) plus the fraction, truncated to microseconds."""
     text = pc.replace_substring_regex(kept, r"^(.{10}) ", r"\1T")
     text = pc.replace_substring_regex(text, r"Z$", "+00:00")
     text = pc.replace_substring_regex(text, r"([+-][0-9]{2})([0-9]{2})$", r"\1:\2")
@@ -160,6 +188,10 @@ def _parse_datetimes(kept: pa.Array) -> pa.Array:
         pc.fill_null(pc.match_substring_regex(text, r"[+-][0-9]{2}:[0-9]{2}$"), True)
     )
     text = pc.if_else(no_zone, pc.binary_join_element_wise(text, "+00:00", ""), text)
+    try:
+        return pc.cast(text, DATETIME_TYPE)
+    except pa.ArrowInvalid:
+        pass
     whole = pc.replace_substring_regex(text, r"\.[0-9]+", "")
     parsed = pc.strptime(whole, format="%Y-%m-%dT%H:%M:%S%z", unit="us", error_is_null=True)
     local = pc.utf8_slice_codeunits(whole, 0, 19)
