@@ -15,7 +15,7 @@ TYPE = "http://www.w3.org/1999/02/22-rdf-syntax-ns#type"
 
 
 def _dump(path: Path, size: int) -> str:
-    text = "ab\\t\\\"c\\n" * (size // 9)  # escapes: the TSV results escape them again
+    text = 'ab\\t\\"c\\n' * (size // 9)  # escapes: the TSV results escape them again
     path.write_text(
         f"<{EX}a> <{TYPE}> <{EX}Doc> .\n"
         f"<{EX}b> <{TYPE}> <{EX}Doc> .\n"
