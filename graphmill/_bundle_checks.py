@@ -218,6 +218,20 @@ def check_manifest_counts(manifest: dict[str, Any], file: Path) -> None:
         for end in ("source_type", "target_type"):
             if entry[end] not in types:
                 raise refuse(f"relation {dotted!r} names {entry[end]!r}, not a vertex type here")
+    listed_files = {entry["path"] for entry in manifest["files"]}
+    tables = [(f"vertex_types.{n}.table", e["table"]) for n, e in types.items()]
+    tables += [
+        (f"vertex_types.{n}.features.table", e["features"]["table"]) for n, e in types.items()
+    ]
+    tables += [
+        (f"vertex_types.{n}.parts.table", (e["parts"] or {}).get("table")) for n, e in types.items()
+    ]
+    tables += [(f"relations.{n}.table", e["table"]) for n, e in manifest["relations"].items()]
+    for key, table in tables:
+        if table is not None and table not in listed_files:
+            raise refuse(
+                f"{key} names {capped(table, 80)!r}, which is not among the bundle's files"
+            )
     for section, entries in (("vertices", types), ("edges", manifest["relations"])):
         listed = manifest["counts"][section]
         for name, entry in entries.items():

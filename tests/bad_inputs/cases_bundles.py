@@ -258,6 +258,10 @@ DAMAGE: dict[str, tuple[str, Damage]] = {
         MANIFEST,
         _edit_manifest(lambda d: _relation(d).update(target_type="ghost")),
     ),
+    "manifest-table-outside": (
+        MANIFEST,
+        _edit_manifest(lambda d: _person(d).update(table="/etc/hostname")),
+    ),
     "manifest-counts-disagree": (
         MANIFEST,
         _edit_manifest(_set(("counts", "vertices", "person"), 99)),
