@@ -52,7 +52,7 @@ def key_text(column: Column, name: str, file: str, first_row: int) -> Column:
                 f"column {name!r} holds bytes that are not UTF-8 text",
                 file=file,
                 record=f"row {first_row + bad}",
-                hint="IDs must be text or integers; re-encode the column as UTF-8 strings",
+                hint="ID and selector columns hold text or integers; re-encode it as UTF-8 strings",
             ) from None
     raise InputError(
         f"column {name!r} has the type {t}; an ID or selector column must hold text or integers",

@@ -360,3 +360,104 @@ for role, (stem, _columns, _keys) in ROLES.items():
         "cannot read the file",
         setup=_write_bytes(stem, lambda d: d[:-12] + b"\xff" * 4 + d[-8:]),
     )
+
+# --- the type_column / relation_column selectors ---------------------------------------------
+
+SELECTED_VERTEX = {**VERTEX, "kind": ["person"] * 4}
+SELECTED_EDGE = {**EDGE, "rel": ["knows"] * 4}
+SELECTORS = {"vertex": ("people", SELECTED_VERTEX, "kind"), "edge": ("knows", SELECTED_EDGE, "rel")}
+
+
+def selector_spec(fmt: str) -> str:
+    return (
+        spec(fmt)
+        .replace(
+            f"{{path: people.{fmt}, id_column: ref, type: person}}",
+            f"{{path: people.{fmt}, id_column: ref, type_column: kind}}",
+        )
+        .replace("relation: knows}", "relation_column: rel}")
+    )
+
+
+for role, (stem, columns, selector) in SELECTORS.items():
+    other_stem, other = (
+        ("knows", SELECTED_EDGE) if role == "vertex" else ("people", SELECTED_VERTEX)
+    )
+    good_other = {f"{other_stem}.csv": joined(csv_text(other))}
+    csv_damage = {
+        "not-utf8": (_cell_damage(columns, selector, 2, b"per\xffson"), 4, "is not UTF-8"),
+        "unclosed-quote": (_cell_damage(columns, selector, 1, b'"person'), 3, "not closed"),
+        "duplicate": (
+            joined(csv_text({**columns, f"{selector}\x01": columns[selector]})).replace(
+                b"\x01", b""
+            ),
+            1,
+            f"column '{selector}' appears 2 times",
+        ),
+        "missing": (
+            joined(csv_text({k: v for k, v in columns.items() if k != selector})),
+            1,
+            f"missing column '{selector}'",
+        ),
+    }
+    for name, (data, line, says) in csv_damage.items():
+        add(
+            f"csv-{role}-selector-{selector}-{name}",
+            {"spec.yaml": selector_spec("csv"), f"{stem}.csv": data, **good_other},
+            f"{{dir}}/{stem}.csv:{line}",
+            says,
+        )
+    parquet_damage: dict[str, tuple[pa.Array, str, str | None]] = {
+        "list": (pa.array([["person"]] * 4), "list<", None),
+        "struct": (pa.array([{"t": "person"}] * 4), "struct<", None),
+        "map": (pa.array([[("k", "v")]] * 4, pa.map_(pa.string(), pa.string())), "map<", None),
+        "binary-not-utf8": (
+            pa.array([b"person", b"\xc3", b"person", b"person"]),
+            "not UTF-8",
+            "row 2",
+        ),
+    }
+
+    def selector_setup(stem: str, selector: str, array: pa.Array) -> Callable[[Path], None]:
+        def setup(root: Path) -> None:
+            for name, cols, sel in (
+                ("people", SELECTED_VERTEX, "kind"),
+                ("knows", SELECTED_EDGE, "rel"),
+            ):
+                arrays = _table(cols)
+                if name == stem:
+                    arrays[sel] = array
+                pq.write_table(pa.table(arrays), root / f"{name}.parquet")
+
+        return setup
+
+    for name, (array, says, row) in parquet_damage.items():
+        where = f"{{dir}}/{stem}.parquet" + ("" if row is None else f", record {row}")
+        add(
+            f"parquet-{role}-selector-{selector}-{name}",
+            {"spec.yaml": selector_spec("parquet")},
+            where,
+            says,
+            setup=selector_setup(stem, selector, array),
+        )
+
+# --- date_format in the spec ---------------------------------------------------------------
+
+for name, props, says in [
+    (
+        "date-format-without-kind",
+        "{n_date: {date_format: '%d/%m/%Y'}}",
+        "missing required key: 'kind'",
+    ),
+    (
+        "date-format-without-directive",
+        "{n_date: {kind: date, date_format: 'dd/mm/yyyy'}}",
+        "does not have the expected form",
+    ),
+]:
+    add(
+        f"csv-{name}",
+        {**csv_project(), "spec.yaml": spec(vertex_props=props)},
+        "{dir}/spec.yaml",
+        says,
+    )
