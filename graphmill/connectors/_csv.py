@@ -62,14 +62,16 @@ def require_columns(
         if len(seen) > 1:
             raise InputError(
                 f"column {name!r} appears {len(seen)} times among the file's columns "
-                f"(columns {', '.join(map(str, seen))})",
+                f"(columns {', '.join(map(str, seen[:5]))}{', ...' if len(seen) > 5 else ''})",
                 file=str(path),
                 line=line,
                 hint="give each column a distinct name",
             )
     missing = [c for c in needed if c not in present]
     if missing:
-        shown = ", ".join(repr(n) for n in present[:20]) + (", ..." if len(present) > 20 else "")
+        # at most 10 names of at most 30 characters: the message stays one short line
+        shown = ", ".join(repr(n[:30]) for n in present[:10])
+        shown += ", ..." if len(present) > 10 else ""
         raise InputError(
             f"missing column {missing[0]!r} (the file has: {shown})",
             file=str(path),
@@ -178,7 +180,7 @@ def _column_of_bad_byte(raw: bytes, path: Path, delimiter: str) -> str:
     except (csv.Error, StopIteration, InputError):
         return ""
     bad = [i for i, cell in enumerate(cells) if "\ufffd" in cell]
-    return f", in column {names[bad[0]]!r}" if bad and bad[0] < len(names) else ""
+    return f", in column {names[bad[0]][:30]!r}" if bad and bad[0] < len(names) else ""
 
 
 def physical_line(path: Path, delimiter: str, row: int) -> int | None:

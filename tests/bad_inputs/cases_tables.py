@@ -461,3 +461,14 @@ for name, props, says in [
         "{dir}/spec.yaml",
         says,
     )
+
+# --- a header of many long names: the message stays one short line ------------------------
+
+add(
+    "csv-vertex-missing-among-long-names",
+    csv_project(
+        vertex=(",".join(f"{'x' * 2000}{i}" for i in range(40)) + "\n" + "1," * 39 + "1\n").encode()
+    ),
+    "{dir}/people.csv:1",
+    "missing column",
+)
