@@ -161,7 +161,7 @@ def locate_defect(path: Path, delimiter: str) -> InputError | None:
             width = len(record)
         elif len(record) != width:
             return InputError(
-                f"the row has {len(record)} cells, the header has {width}",
+                f"the row has {_cells(len(record))}, the header has {_cells(width)}",
                 file=str(path),
                 line=line,
                 hint=f"{_FIX}; quote values that contain the delimiter",
@@ -181,6 +181,10 @@ def _column_of_bad_byte(raw: bytes, path: Path, delimiter: str) -> str:
         return ""
     bad = [i for i, cell in enumerate(cells) if "\ufffd" in cell]
     return f", in column {names[bad[0]][:30]!r}" if bad and bad[0] < len(names) else ""
+
+
+def _cells(n: int) -> str:
+    return f"{n} cell" if n == 1 else f"{n} cells"
 
 
 def physical_line(path: Path, delimiter: str, row: int) -> int | None:

@@ -8,6 +8,8 @@ import datetime as dt
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from graphmill.connectors import open_source
 from graphmill.errors import InputError, SourceUnavailableError, SpecError
@@ -359,3 +361,37 @@ def test_of_two_rows_with_one_id_the_bundle_keeps_the_first_in_snapshot_order(tm
     kept = pq.read_table(spec.output.bundle / "tables/vertices/person.parquet")
     assert kept.column("vertex_id").to_pylist() == ["a", "b"]
     assert kept.column("n").to_pylist() == [25, 7]
+
+
+GOOD_CSV = (
+    b"ref,kind,n,x,day\n"
+    b"a,person,1,1.5,2020-01-02\n"
+    b'b,person,+2,"q,\n""r""",2021-02-28\n'
+    b"c,person,-3,,2020-02-29\n"
+)
+NOISE = [b'"', b",", b"\n", b"\r\n", b"\xff", b"\xef\xbb\xbf", b"", b"+", b"9" * 25, b"\x00"]
+
+
+@settings(
+    max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(
+    st.lists(st.tuples(st.integers(0, len(GOOD_CSV)), st.sampled_from(NOISE), st.integers(0, 3)))
+)
+def test_damaged_csv_gives_a_snapshot_or_one_input_error(tmp_path_factory, edits):
+    """Bytes spliced anywhere into a good file: a snapshot, or an InputError with the file
+    (and a line when it is about a line); never another exception."""
+    data = GOOD_CSV
+    for at, noise, cut in edits:
+        data = data[:at] + noise + data[at + cut :]
+    root = tmp_path_factory.mktemp("fuzz")
+    (root / "people.csv").write_bytes(data)
+    spec = people_spec(
+        root, {"n": {"kind": "integer"}, "x": {"kind": "float"}, "day": {"kind": "date"}}
+    )
+    try:
+        pull(spec, open_source(spec))
+    except InputError as error:
+        assert error.file is not None and str(root / "people.csv") in str(error)
+        assert "\n" not in str(error)
+        assert not spec.output.snapshot.exists()
