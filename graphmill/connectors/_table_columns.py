@@ -23,11 +23,16 @@ Column: TypeAlias = pa.Array | pa.ChunkedArray
 
 
 def _is_text(t: pa.DataType) -> bool:
-    return pa.types.is_string(t) or pa.types.is_large_string(t)
+    return pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t)
 
 
 def _is_bytes(t: pa.DataType) -> bool:
-    return pa.types.is_binary(t) or pa.types.is_large_binary(t)
+    return (
+        pa.types.is_binary(t)
+        or pa.types.is_large_binary(t)
+        or pa.types.is_binary_view(t)
+        or pa.types.is_fixed_size_binary(t)
+    )
 
 
 def _undictionary(column: Column) -> Column:
@@ -107,7 +112,7 @@ def _scalar_type(t: pa.DataType, name: str, file: str, *, nested: bool) -> pa.Da
         t = t.value_type
     if pa.types.is_null(t) or pa.types.is_boolean(t) or pa.types.is_string(t):
         return t
-    if pa.types.is_large_string(t):
+    if _is_text(t):
         return pa.string()
     if pa.types.is_integer(t):
         return pa.int64()

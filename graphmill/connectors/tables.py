@@ -165,7 +165,8 @@ def _missing_id(path: Path, entry: dict[str, Any], column: str, row: int) -> Inp
 
 
 def _typed(column: pa.Array, prop: PropertySpec, file: str) -> tuple[pa.Array, dict[str, int]]:
-    if not (pa.types.is_string(column.type) or pa.types.is_large_string(column.type)):
+    t = column.type
+    if not (pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t)):
         values, lost = property_values(column, prop.source_key, file)
         counts = value_kinds_of(values)
         return values, {**counts, ILL_TYPED: lost} if lost else counts
