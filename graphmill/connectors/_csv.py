@@ -49,7 +49,15 @@ def read_header(path: Path, delimiter: str) -> list[str]:
             "the header is not UTF-8 text", file=str(path), line=1, hint="save the file as UTF-8"
         ) from None
     text = head.decode("utf-8", errors="replace")
-    names = next(csv.reader(io.StringIO(text), delimiter=delimiter), [])
+    try:
+        names = next(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter), [])
+    except csv.Error as exc:
+        raise InputError(
+            f"the header cannot be read as CSV ({exc})",
+            file=str(path),
+            line=1,
+            hint="quote names that hold a delimiter or a line break, and close every quote",
+        ) from None
     return names
 
 

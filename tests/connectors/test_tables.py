@@ -369,7 +369,7 @@ GOOD_CSV = (
     b'b,person,+2,"q,\n""r""",2021-02-28\n'
     b"c,person,-3,,2020-02-29\n"
 )
-NOISE = [b'"', b",", b"\n", b"\r\n", b"\xff", b"\xef\xbb\xbf", b"", b"+", b"9" * 25, b"\x00"]
+NOISE = [b'"', b",", b"\n", b"\r\n", b"\r", b"\xff", b"\xef\xbb\xbf", b"", b"+", b"9" * 25, b"\x00"]
 
 
 @settings(
@@ -395,3 +395,12 @@ def test_damaged_csv_gives_a_snapshot_or_one_input_error(tmp_path_factory, edits
         assert error.file is not None and str(root / "people.csv") in str(error)
         assert "\n" not in str(error)
         assert not spec.output.snapshot.exists()
+
+
+def test_a_header_broken_by_a_quote_and_carriage_return_is_an_input_error(tmp_path):
+    # found by the test above: text after a closing quote, then a lone CR (Python's csv
+    # reader refused it with an error of its own)
+    (tmp_path / "people.csv").write_bytes(b'"ref,kind,n"a,b\r"\nc\n')
+    spec = people_spec(tmp_path, {"n": None})
+    with pytest.raises(InputError, match=r"people\.csv:1: "):
+        pull(spec, open_source(spec))
