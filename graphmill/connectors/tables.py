@@ -197,6 +197,12 @@ def _read_batches(
             yield from csv_batches(path, entry.get("delimiter", ","), columns)
     except PermissionError as exc:
         raise SourceUnavailableError("permission denied", file=str(path)) from exc
+    except UnicodeDecodeError as exc:  # a column name in Parquet metadata that is not UTF-8
+        raise InputError(
+            f"cannot read the file: text in its metadata is not UTF-8 ({exc.reason})",
+            file=str(path),
+            hint="write the file again",
+        ) from exc
     except (pa.ArrowException, OSError) as exc:
         text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise InputError(

@@ -472,3 +472,15 @@ add(
     "{dir}/people.csv:1",
     "missing column",
 )
+
+# --- Parquet metadata whose column name is not UTF-8 ----------------------------------------
+
+for role, (stem, columns, _keys) in ROLES.items():
+    name = list(columns)[-1].encode()
+    add(
+        f"parquet-{role}-column-name-not-utf8",
+        parquet_project(),
+        f"{{dir}}/{stem}.parquet",
+        "not UTF-8",
+        setup=_write_bytes(stem, lambda d, name=name: d.replace(name, name[:-1] + b"\xff")),
+    )
