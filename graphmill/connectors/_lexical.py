@@ -180,6 +180,10 @@ def _parse_datetimes(kept: pa.Array) -> pa.Array:
     """ISO 8601 date-times: normalise separator and zone, then Arrow's strict cast; if any
     value fails it, each is parsed on its own: whole seconds (checking that the day and time
     exist) plus the fraction, truncated to microseconds."""
+    try:  # every value already in a form Arrow reads (with a zone): no rewriting needed
+        return pc.cast(kept, DATETIME_TYPE)
+    except pa.ArrowInvalid:
+        pass
     text = pc.replace_substring_regex(kept, r"^(.{10}) ", r"\1T")
     text = pc.replace_substring_regex(text, r"Z$", "+00:00")
     text = pc.replace_substring_regex(text, r"([+-][0-9]{2})([0-9]{2})$", r"\1:\2")
