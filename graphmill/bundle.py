@@ -39,6 +39,16 @@ import pyarrow.parquet as pq
 
 from graphmill._atomic import sha256_file
 from graphmill._output_kinds import read_stale_note
+from graphmill._bundle_checks import (
+    MAX_MANIFEST_BYTES,
+    capped,
+    check_manifest_counts,
+    check_tensor_file,
+    check_tensor_values,
+    parse_json,
+    read_bounded,
+    short_value,
+)
 from graphmill.errors import BundleIntegrityError, InputError, require
 from graphmill.spec import RelationKey
 
@@ -76,27 +86,33 @@ def seal_manifest(document: dict[str, Any]) -> bytes:
 
 
 def read_manifest(root: Path, *, verify: bool = True) -> dict[str, Any]:
-    """Parse, check against the schema and (with ``verify``) check the self-hash."""
+    """Parse, check against the schema and (with ``verify``) check the self-hash; every
+    defect is a :class:`BundleIntegrityError` naming the file."""
     path = root / MANIFEST_FILE
     if not path.is_file():
         raise BundleIntegrityError(
             "no manifest.json here: not a graphmill bundle", file=str(path), hint="build it again"
         )
-    raw = path.read_bytes()
-    try:
-        document = json.loads(raw.decode("utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+    raw = read_bounded(path, MAX_MANIFEST_BYTES, "manifest.json")
+    document = parse_json(raw, path, "the manifest")
+    if not isinstance(document, dict):
         raise BundleIntegrityError(
-            f"manifest is not valid JSON ({exc})", file=str(path), hint="build the bundle again"
-        ) from None
-    if not isinstance(document, dict) or document.get("bundle_format") != BUNDLE_FORMAT:
-        found = document.get("bundle_format") if isinstance(document, dict) else None
+            f"the manifest is a JSON {type(document).__name__}, not an object",
+            file=str(path),
+            hint="build the bundle again",
+        )
+    found = document.get("bundle_format")
+    if type(found) is not int or found != BUNDLE_FORMAT:
         raise BundleIntegrityError(
-            f"bundle format {found!r} is not {BUNDLE_FORMAT}",
+            f"bundle format {short_value(found)} is not {BUNDLE_FORMAT}",
             file=str(path),
             hint="use the graphmill version that wrote it, or build it again",
         )
-    if verify and raw != seal_manifest(document):
+    try:
+        sealed = verify and raw == seal_manifest(document)
+    except (RecursionError, ValueError, TypeError):
+        sealed = False
+    if verify and not sealed:
         raise BundleIntegrityError(
             "manifest.json differs from what was written (its self-hash does not match)",
             file=str(path),
@@ -104,14 +120,20 @@ def read_manifest(root: Path, *, verify: bool = True) -> dict[str, Any]:
         )
     from graphmill._schemas import schema_validator
 
-    error = next(iter(schema_validator("manifest").iter_errors(document)), None)
+    try:
+        error = next(iter(schema_validator("manifest").iter_errors(document)), None)
+    except RecursionError:
+        raise BundleIntegrityError(
+            "manifest is nested too deeply to check", file=str(path), hint="build it again"
+        ) from None
     if error is not None:
         where = ".".join(str(p) for p in error.absolute_path) or "(top level)"
         raise BundleIntegrityError(
-            f"manifest does not match the bundle schema: {error.message}",
+            f"manifest does not match the bundle schema: {capped(error.message)}",
             file=str(path),
-            key_path=where,
+            key_path=capped(where),
         )
+    check_manifest_counts(document, path)
     return document
 
 
@@ -208,16 +230,27 @@ class GraphBundle:
 
 
 def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
-    """Open a bundle; with ``verify`` every file's sha256 is checked first."""
+    """Open a bundle; with ``verify`` every file's sha256 is checked first. The tensor file's
+    header is parsed and checked against the manifest before the tensors are loaded; any
+    defect raises :class:`BundleIntegrityError` naming the file."""
     root = Path(path)
     manifest = read_manifest(root, verify=verify)
     if verify:
         verify_files(root, manifest)
+    check_tensor_file(root, manifest, TENSOR_FILE)
     require("torch", "torch")
     from safetensors.torch import load as load_tensors
 
-    tensors = load_tensors((root / TENSOR_FILE).read_bytes())
-    _check_tensor_index(root, manifest, tensors)
+    tensor_path = root / TENSOR_FILE
+    try:
+        tensors = load_tensors(tensor_path.read_bytes())
+    except Exception as exc:  # the library's own errors: SafetensorError, OSError, ...
+        raise BundleIntegrityError(
+            f"the tensor file cannot be loaded ({capped(str(exc).splitlines()[0])})",
+            file=str(tensor_path),
+            hint="the bundle was altered or damaged; build it again",
+        ) from exc
+    check_tensor_values(manifest, tensors, tensor_path)
     vertex_types = {
         name: _vertex_tensors(name, e, tensors) for name, e in manifest["vertex_types"].items()
     }
@@ -228,26 +261,6 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
             key, tensors[entry["tensor"]], tensors.get(relation_key(key, "multiplicity"))
         )
     return GraphBundle(root, manifest, vertex_types, relations)
-
-
-def _check_tensor_index(root: Path, manifest: dict[str, Any], tensors: dict[str, Any]) -> None:
-    index = manifest["tensors"]
-    for key in sorted(set(index) ^ set(tensors)):
-        raise BundleIntegrityError(
-            f"tensor {key!r} is in only one of the manifest and the tensor file",
-            file=str(root / TENSOR_FILE),
-        )
-    for key, want in index.items():
-        got = tensors[key]
-        if (
-            str(got.dtype).removeprefix("torch.") != want["dtype"]
-            or list(got.shape) != want["shape"]
-        ):
-            raise BundleIntegrityError(
-                f"tensor {key!r} is {got.dtype} {list(got.shape)}, the manifest says "
-                f"{want['dtype']} {want['shape']}",
-                file=str(root / TENSOR_FILE),
-            )
 
 
 def _vertex_tensors(name: str, entry: dict[str, Any], tensors: dict[str, Any]) -> VertexTypeTensors:
@@ -272,6 +285,7 @@ def inspect_bundle(path: str | Path) -> dict[str, Any]:
     """A summary of a bundle, with whether each file's hash verifies; loads no tensors."""
     root = Path(path)
     manifest = read_manifest(root, verify=False)
+    check_tensor_file(root, manifest, TENSOR_FILE)
     try:
         read_manifest(root, verify=True)
         manifest_ok = True

@@ -46,6 +46,7 @@ class PropertySpec:
     minimum: float | None = None
     maximum: float | None = None
     multi: bool = False
+    date_format: str | None = None
 
 
 @dataclass(frozen=True)
@@ -306,6 +307,7 @@ def _properties(doc: dict[str, Any]) -> tuple[PropertySpec, ...]:
             minimum=(body or {}).get("min"),
             maximum=(body or {}).get("max"),
             multi=(body or {}).get("multi", False),
+            date_format=(body or {}).get("date_format"),
         )
         for name, body in doc.items()
     )

@@ -18,13 +18,15 @@ from typing import Any
 
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.csv as pacsv
 import pyarrow.parquet as pq
 
 from graphmill._columns import value_kinds_of
 from graphmill.connectors import _lexical
-from graphmill.connectors._declared import ILL_TYPED, apply_declared, ill_typed_text
+from graphmill.connectors._csv import csv_batches, physical_line, read_header, require_columns
+from graphmill.connectors._declared import apply_declared, ill_typed_text
 from graphmill.connectors._fingerprints import FileFingerprints
+from graphmill.connectors._lexical import ILL_TYPED
+from graphmill.connectors._table_columns import first_missing, key_text, property_values
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -37,8 +39,6 @@ from graphmill.connectors.base import (
 )
 from graphmill.errors import GraphmillError, InputError, SourceUnavailableError, SpecError
 from graphmill.spec import PipelineSpec, PropertySpec, RelationSpec
-
-BLOCK_SIZE = 16 << 20
 
 
 class TableFilesSource(GraphSource):
@@ -106,10 +106,10 @@ class TableFilesSource(GraphSource):
         for entry in self._unit_entries(unit):
             path = self.spec.resolve_path(entry["path"])
             with contextlib.suppress(GraphmillError, OSError, pa.ArrowException):
-                if _format_of(path, entry) == "parquet":
+                if _format(path, entry) == "parquet":
                     names.update(pq.read_schema(path).names)
                 else:
-                    names.update(_csv_header(path, entry))
+                    names.update(read_header(path, entry.get("delimiter", ",")))
         return sorted(names)
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
@@ -169,59 +169,75 @@ class TableFilesSource(GraphSource):
         if select_column:
             wanted.append(select_column)
         for batch, first_row in _read_batches(path, entry, sorted(set(wanted))):
-            for source_name in key_columns:
-                ids = batch.column(source_name)
-                missing = pc.is_null(ids)
-                if pa.types.is_string(ids.type):
-                    missing = pc.or_(missing, pc.equal(ids, ""))
-                flags = missing.to_numpy(zero_copy_only=False)
-                if flags.any():
-                    raise InputError(
-                        f"column {source_name!r} is empty",
-                        file=str(path),
-                        record=f"row {first_row + int(flags.argmax())}",
-                        hint="every row needs an id; fill it in or remove the row",
-                    )
-            if select_column:
-                batch = batch.filter(pc.equal(batch.column(select_column), select_value))
+            keys: dict[str, pa.Array] = {}
+            selectors = [select_column] if select_column else []
+            for source_name in dict.fromkeys(key_columns + selectors):
+                ids = key_text(batch.column(source_name), source_name, str(path), first_row + 1)
+                keys[source_name] = ids
+                if source_name in key_columns:
+                    missing = first_missing(ids)
+                    if missing is not None:
+                        raise _missing_id(path, entry, source_name, first_row + missing)
+            keep = pc.equal(keys[select_column], select_value) if select_column else None
             columns: dict[str, pa.Array] = {}
             kinds: dict[str, dict[str, int]] = {}
             raw: dict[str, pa.Array] = {}
             for source_name, name in zip(key_columns, key_names, strict=True):
-                ids = batch.column(source_name)
-                columns[name] = ids if pa.types.is_string(ids.type) else pc.cast(ids, pa.string())
+                ids = keys[source_name]
+                columns[name] = ids if keep is None else ids.filter(keep)
             for prop in properties:
-                column = batch.column(prop.source_key)
-                columns[prop.name], kinds[prop.name] = _typed(column, prop)
+                values = batch.column(prop.source_key)
+                if keep is not None:
+                    values = values.filter(keep)
                 # the gate: ill-typed values become null, counted, their text kept
-                columns[prop.name], kinds[prop.name], text = _ill_typed(
-                    column, columns[prop.name], kinds[prop.name], prop
-                )
+                columns[prop.name], kinds[prop.name], text = _gated(values, prop, str(path))
                 if text is not None:
                     raw[prop.name] = text
             yield Page(pa.record_batch(columns), value_kinds=kinds, raw=raw or None)
 
 
-def _typed(column: pa.Array, prop: PropertySpec) -> tuple[pa.Array, dict[str, int]]:
-    if not pa.types.is_string(column.type):
-        return column, value_kinds_of(column)
-    values = _lexical.blank_to_null(column)
-    counts = _lexical.kind_counts(values)
-    kind = prop.kind or _lexical.infer_kind(counts)
-    return _lexical.parse_kind(values, kind), counts
+def _missing_id(path: Path, entry: dict[str, Any], column: str, row: int) -> InputError:
+    """A null or empty ID at 0-based data row ``row``, located by line (CSV) or row."""
+    what = f"column {column!r} is empty in data row {row + 1}"
+    hint = "every row needs an ID; fill it in or remove the row"
+    if _format(path, entry) == "csv":
+        line = physical_line(path, entry.get("delimiter", ","), row)
+        if line is not None:
+            return InputError(what, file=str(path), line=line, hint=hint)
+    return InputError(what, file=str(path), record=f"row {row + 1}", hint=hint)
 
 
-def _ill_typed(
-    column: pa.Array, typed: pa.Array, counts: dict[str, int], prop: PropertySpec
+def _typed(column: pa.Array, prop: PropertySpec, file: str) -> tuple[pa.Array, dict[str, int]]:
+    if not _is_text(column.type):
+        values, lost = property_values(column, prop.source_key, file)
+        counts = value_kinds_of(values)
+        return values, {**counts, ILL_TYPED: lost} if lost else counts
+    values = _lexical.blank_to_null(pc.cast(column, pa.string()))
+    return _lexical.typed_values(values, prop.kind, date_format=prop.date_format)
+
+
+def _format(path: Path, entry: dict[str, Any]) -> str:
+    return str(
+        entry.get("format") or ("parquet" if path.suffix.lower() in (".parquet", ".pq") else "csv")
+    )
+
+
+def _gated(
+    column: pa.Array, prop: PropertySpec, file: str
 ) -> tuple[pa.Array, dict[str, int], pa.Array | None]:
-    """Apply the gate of :mod:`graphmill.connectors._declared` after typing: typed Parquet
-    columns under a declared kind; text cells that did not parse as their kind (declared or
-    inferred) counted as ``ill-typed`` with their text, instead of under their own kind."""
-    if not pa.types.is_string(column.type):
-        return apply_declared(typed, prop.kind)
+    """Type a column, then apply the gate of :mod:`graphmill.connectors._declared`: typed
+    (Parquet) columns under a declared kind; text cells that did not parse as their kind
+    (declared or inferred) counted as ``ill-typed`` with their text kept."""
+    typed, counts = _typed(column, prop, file)
+    if not _is_text(column.type):
+        typed, gated, raw = apply_declared(typed, prop.kind)
+        lost = counts.get(ILL_TYPED, 0)  # unsigned integers beyond int64
+        if lost:
+            gated = {**gated, ILL_TYPED: gated.get(ILL_TYPED, 0) + lost}
+        return typed, gated, raw
     if prop.kind == "string":
         return typed, ({"string": sum(counts.values())} if counts else {}), None
-    text = _lexical.blank_to_null(column)
+    text = _lexical.blank_to_null(pc.cast(column, pa.string()))
     raw = ill_typed_text(text, typed)
     if raw is None:
         return typed, counts, None
@@ -229,11 +245,14 @@ def _ill_typed(
     return typed, {**good, ILL_TYPED: len(raw) - raw.null_count}, raw
 
 
+def _is_text(t: pa.DataType) -> bool:
+    return pa.types.is_string(t) or pa.types.is_large_string(t) or pa.types.is_string_view(t)
+
+
 def _read_batches(
     path: Path, entry: dict[str, Any], columns: list[str]
 ) -> Iterator[tuple[pa.RecordBatch, int]]:
-    """Batches of the needed columns, each with the 1-based data row number of its first row."""
-    fmt = _format_of(path, entry)
+    """Batches of the needed columns, each with the 0-based data row index of its first row."""
     if not path.is_file():
         raise SourceUnavailableError(
             "file not found" if not path.exists() else "not a readable file",
@@ -241,69 +260,33 @@ def _read_batches(
             hint="check source paths in the spec (relative paths start at the spec's folder)",
         )
     try:
-        if fmt == "parquet":
-            parquet = pq.ParquetFile(path)
-            _require_columns(parquet.schema_arrow.names, columns, path)
-            row = 1
-            for batch in parquet.iter_batches(columns=columns):
-                yield batch, row
-                row += batch.num_rows
-            return
-        header = _csv_header(path, entry)
-        _require_columns(header, columns, path)
-        reader = pacsv.open_csv(
-            path,
-            read_options=pacsv.ReadOptions(block_size=BLOCK_SIZE),
-            parse_options=pacsv.ParseOptions(
-                delimiter=entry.get("delimiter", ","), newlines_in_values=True
-            ),
-            convert_options=pacsv.ConvertOptions(
-                include_columns=columns,
-                column_types={c: pa.string() for c in columns},
-                strings_can_be_null=False,
-            ),
-        )
-        row = 1
-        for batch in reader:
-            yield batch, row
-            row += batch.num_rows
+        if _format(path, entry) == "parquet":
+            yield from _parquet_batches(path, columns)
+        else:
+            yield from csv_batches(path, entry.get("delimiter", ","), columns)
     except PermissionError as exc:
         raise SourceUnavailableError("permission denied", file=str(path)) from exc
-    except (pa.ArrowInvalid, OSError) as exc:
+    except UnicodeDecodeError as exc:  # a column name in Parquet metadata that is not UTF-8
         raise InputError(
-            _first_line(str(exc)), file=str(path), hint="fix the file or its entry in the spec"
+            f"cannot read the file: text in its metadata is not UTF-8 ({exc.reason})",
+            file=str(path),
+            hint="write the file again",
+        ) from exc
+    except (pa.ArrowException, OSError) as exc:
+        text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise InputError(
+            f"cannot read the file: {text[:200]}",
+            file=str(path),
+            hint="fix the file or its entry in the spec",
         ) from exc
 
 
-def _format_of(path: Path, entry: dict[str, Any]) -> str:
-    suffix = path.suffix.lower()
-    return str(entry.get("format") or ("parquet" if suffix in (".parquet", ".pq") else "csv"))
-
-
-def _csv_header(path: Path, entry: dict[str, Any]) -> list[str]:
-    import csv
-
-    try:
-        with open(path, newline="", encoding="utf-8") as fh:
-            return next(csv.reader(fh, delimiter=entry.get("delimiter", ",")), [])
-    except UnicodeDecodeError as exc:
-        raise InputError("not UTF-8 text", file=str(path), line=1) from exc
-
-
-def _require_columns(present: list[str], needed: list[str], path: Path) -> None:
-    missing = [c for c in needed if c not in present]
-    if missing:
-        import difflib  # the gate: the same did-you-mean as absent-property's
-
-        close = difflib.get_close_matches(missing[0], present, n=1, cutoff=0.6)
-        guess = f"did you mean {close[0]!r}? " if close else ""
-        raise InputError(
-            f"missing column {missing[0]!r} ({guess}the file has: {', '.join(present)})",
-            file=str(path),
-            line=1,
-            hint="rename the column in the file or change the column name in the spec",
-        )
-
-
-def _first_line(text: str) -> str:
-    return text.strip().splitlines()[0] if text.strip() else "cannot parse"
+def _parquet_batches(path: Path, columns: list[str]) -> Iterator[tuple[pa.RecordBatch, int]]:
+    if path.stat().st_size == 0:
+        raise InputError("the file is empty (0 bytes)", file=str(path), hint="write it again")
+    parquet = pq.ParquetFile(path)
+    require_columns(parquet.schema_arrow.names, columns, path, line=None)
+    row = 0
+    for batch in parquet.iter_batches(columns=columns):
+        yield batch, row
+        row += batch.num_rows

@@ -140,7 +140,7 @@ def log_values(values: np.ndarray) -> np.ndarray:
     negative = np.flatnonzero(values < 0)
     if len(negative):
         raise BadValue(
-            f"value {plain(values[negative[0]])!r} is negative; the log encoding needs values >= 0",
+            f"value {float(values[negative[0]]):g} is negative; the log encoding needs values >= 0",
             position=int(negative[0]),
             hint="use standardize or min-max for this property, or fix the value",
         )

@@ -8,6 +8,8 @@ import datetime as dt
 import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from graphmill.connectors import open_source
 from graphmill.errors import InputError, SourceUnavailableError, SpecError
@@ -142,7 +144,9 @@ def test_empty_id_names_the_line(tmp_path, write):
     write("people.csv", PEOPLE + ",person,1,1,,\n")
     write("links.csv", LINKS)
     spec = spec_for(tmp_path)
-    with pytest.raises(InputError, match=r"people.csv, record row 4: column 'ref' is empty"):
+    # Row 4 starts on physical line 6: the header, two rows, and a row whose quoted note
+    # spans lines 4 and 5 come before it.
+    with pytest.raises(InputError, match=r"people.csv:6: column 'ref' is empty in data row 4"):
         pull(spec, open_source(spec))
 
 
@@ -171,3 +175,236 @@ def test_ambiguous_relation_reference_is_refused(tmp_path):
         open_source(spec_from_dict(doc, base_dir=tmp_path))
     doc["source"]["edge_files"][0]["relation"] = "a.r.b"
     assert open_source(spec_from_dict(doc, base_dir=tmp_path)) is not None
+
+
+# --- typing that cannot crash -------------------------------------------------------------
+
+
+def people_spec(tmp_path, props: dict, people: str = "people.csv"):
+    """Only vertices of one type, read from ``people`` (column ``kind`` selects the type)."""
+    return spec_from_dict(
+        {
+            "spec_version": 1,
+            "source": {
+                "kind": "table-files",
+                "vertex_files": [{"path": people, "id_column": "ref", "type_column": "kind"}],
+            },
+            "vertex_types": {"person": {"properties": props}},
+            "relations": [],
+            "output": {"bundle": "out/b"},
+        },
+        base_dir=tmp_path,
+    )
+
+
+def _pull_people(tmp_path, write, text: str, props: dict, *, data: bytes | None = None):
+    if data is not None:
+        (tmp_path / "people.csv").write_bytes(data)
+    else:
+        write("people.csv", text)
+    spec = people_spec(tmp_path, props)
+    pull(spec, open_source(spec))
+    snap = Snapshot.open(spec.output.snapshot)
+    return snap.vertices("person"), snap.value_kinds("vertices", "person")
+
+
+def test_integers_follow_the_xsd_lexical_space_and_int64(tmp_path, write):
+    # xsd:integer allows a leading '+' (XML Schema Part 2, 3.3.13); int64 runs from -2**63 to
+    # 2**63 - 1: the minimum is valid, one past either end is ill-typed (null and counted).
+    people, kinds = _pull_people(
+        tmp_path,
+        write,
+        "ref,kind,n\n"
+        "a,person,+7\n"
+        "b,person,-9223372036854775808\n"
+        "c,person,9223372036854775807\n"
+        "d,person,9223372036854775808\n"
+        "e,person,-9223372036854775809\n"
+        "f,person,-0009223372036854775808\n"
+        "g,person,123456789012345678901234567890\n"
+        "h,person,seven\n",
+        {"n": {"kind": "integer"}},
+    )
+    assert people.column("n").to_pylist() == [
+        7,
+        -(2**63),
+        2**63 - 1,
+        None,
+        None,
+        -(2**63),
+        None,
+        None,
+    ]
+    assert kinds["n"] == {"ill-typed": 3, "integer": 4, "string": 1}
+
+
+def test_a_declared_date_format_reads_dates_and_datetimes(tmp_path, write):
+    people, kinds = _pull_people(
+        tmp_path,
+        write,
+        "ref,kind,day,at,zoned\n"
+        "a,person,03/04/2021,03/04/2021 10:30,03/04/2021 10:30 +0200\n"
+        "b,person,31/02/2021,2021-04-03T10:30:00,x\n"  # no 31 February; ISO is not the format
+        "c,person,,,\n",
+        {
+            "day": {"kind": "date", "date_format": "%d/%m/%Y"},
+            "at": {"kind": "datetime", "date_format": "%d/%m/%Y %H:%M"},
+            "zoned": {"kind": "datetime", "date_format": "%d/%m/%Y %H:%M %z"},
+        },
+    )
+    assert people.column("day").to_pylist() == [dt.date(2021, 4, 3), None, None]
+    assert people.column("at").to_pylist() == [
+        dt.datetime(2021, 4, 3, 10, 30, tzinfo=dt.UTC),  # no zone in the format: UTC
+        None,
+        None,
+    ]
+    assert people.column("zoned").to_pylist() == [
+        dt.datetime(2021, 4, 3, 8, 30, tzinfo=dt.UTC),
+        None,
+        None,
+    ]
+    assert kinds["day"] == {"date": 1, "ill-typed": 1}
+    assert kinds["at"] == {"datetime": 1, "ill-typed": 1}
+
+
+def test_iso_dates_that_do_not_exist_are_ill_typed(tmp_path, write):
+    people, kinds = _pull_people(
+        tmp_path,
+        write,
+        "ref,kind,day,at\n"
+        "a,person,2021-02-29,2021-02-29T00:00:00Z\n"  # 2021 is not a leap year
+        "b,person,2020-02-29,2020-02-29T23:59:59.25-01:00\n"
+        "c,person,2021-13-01,2021-01-01T24:00:00Z\n",
+        {"day": {"kind": "date"}, "at": {"kind": "datetime"}},
+    )
+    assert people.column("day").to_pylist() == [None, dt.date(2020, 2, 29), None]
+    assert people.column("at").to_pylist() == [
+        None,
+        dt.datetime(2020, 3, 1, 0, 59, 59, 250000, tzinfo=dt.UTC),
+        None,
+    ]
+    assert kinds["day"] == {"date": 1, "ill-typed": 2}
+    assert kinds["at"] == {"datetime": 1, "ill-typed": 2}
+
+
+def test_a_byte_order_mark_is_not_part_of_the_first_column(tmp_path, write):
+    people, _ = _pull_people(
+        tmp_path,
+        write,
+        "",
+        {"n": {"kind": "integer"}},
+        data=b"\xef\xbb\xbfref,kind,n\na,person,1\n",
+    )
+    assert people.column("vertex_id").to_pylist() == ["a"]
+
+
+@pytest.mark.parametrize(
+    ("data", "line", "says"),
+    [
+        (b"ref,kind,n\na,person,1\nb,person,2,3\n", 3, "the row has 4 cells, the header has 3"),
+        (b'ref,kind,n\na,person,"1\n\nb,person,2\n', 2, "not closed"),
+        (b'ref,kind,n\na,person,"x\ny"\nb,person,\xff\n', 4, "in column 'n') is not UTF-8"),
+        (b"ref,kind,n,n\na,person,1,2\n", 1, "column 'n' appears 2 times"),
+    ],
+)
+def test_csv_defects_name_the_physical_line(tmp_path, write, data, line, says):
+    with pytest.raises(InputError) as info:
+        _pull_people(tmp_path, write, "", {"n": {"kind": "integer"}}, data=data)
+    assert f"people.csv:{line}:" in str(info.value) and says in str(info.value)
+
+
+def test_an_empty_file_is_called_empty(tmp_path, write):
+    with pytest.raises(InputError, match=r"people\.csv: the file is empty"):
+        _pull_people(tmp_path, write, "", {"n": None}, data=b"")
+
+
+def test_parquet_column_types_are_normalised(tmp_path, write):
+    table = pa.table(
+        {
+            "ref": pa.array([1, 2, 3]),  # integer IDs become text
+            "kind": pa.array(["person"] * 3).dictionary_encode(),
+            "small": pa.array([1, 2, None], pa.int8()),
+            "huge": pa.array([1, 2**64 - 1, None], pa.uint64()),
+            "money": pa.array([1, 2, 3], pa.decimal128(5, 0)),
+            "seen": pa.array([0, 1, 2], pa.timestamp("ns", tz="Europe/Paris")),
+            "day": pa.array([0, 1, 2], pa.date64()),
+            "tags": pa.array([["x"], [], None], pa.large_list(pa.large_string())),
+            "code": pa.array(["a", "b", "a"]).dictionary_encode(),
+        }
+    )
+    pq.write_table(table, tmp_path / "people.parquet")
+    props = dict.fromkeys(["small", "huge", "money", "seen", "day", "code"])
+    spec = people_spec(tmp_path, {**props, "tags": {"multi": True}}, "people.parquet")
+    pull(spec, open_source(spec))
+    snap = Snapshot.open(spec.output.snapshot)
+    people = snap.vertices("person")
+    schema = people.schema
+    assert people.column("vertex_id").to_pylist() == ["1", "2", "3"]
+    assert schema.field("small").type == pa.int64()
+    assert people.column("huge").to_pylist() == [1, None, None]
+    assert snap.value_kinds("vertices", "person")["huge"] == {"ill-typed": 1, "integer": 1}
+    assert schema.field("money").type == pa.float64()
+    assert schema.field("seen").type == pa.timestamp("us", tz="UTC")
+    assert schema.field("day").type == pa.date32()
+    assert people.column("tags").to_pylist() == [["x"], [], None]
+    assert people.column("code").to_pylist() == ["a", "b", "a"]
+
+
+def test_of_two_rows_with_one_id_the_bundle_keeps_the_first_in_snapshot_order(tmp_path, write):
+    """The README's rule: rows sort by ID, then by the declared properties in declaration
+    order (ascending, missing last); the build keeps the first row of each ID."""
+    from graphmill.transform import build_bundle
+
+    write(
+        "people.csv",
+        "ref,kind,n,note\na,person,30,late\na,person,25,early\nb,person,,x\nb,person,7,y\n",
+    )
+    spec = people_spec(tmp_path, {"n": {"kind": "integer"}, "note": None})
+    pull(spec, open_source(spec))
+    build_bundle(spec, Snapshot.open(spec.output.snapshot))
+    kept = pq.read_table(spec.output.bundle / "tables/vertices/person.parquet")
+    assert kept.column("vertex_id").to_pylist() == ["a", "b"]
+    assert kept.column("n").to_pylist() == [25, 7]
+
+
+GOOD_CSV = (
+    b"ref,kind,n,x,day\n"
+    b"a,person,1,1.5,2020-01-02\n"
+    b'b,person,+2,"q,\n""r""",2021-02-28\n'
+    b"c,person,-3,,2020-02-29\n"
+)
+NOISE = [b'"', b",", b"\n", b"\r\n", b"\r", b"\xff", b"\xef\xbb\xbf", b"", b"+", b"9" * 25, b"\x00"]
+
+
+@settings(
+    max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(
+    st.lists(st.tuples(st.integers(0, len(GOOD_CSV)), st.sampled_from(NOISE), st.integers(0, 3)))
+)
+def test_damaged_csv_gives_a_snapshot_or_one_input_error(tmp_path_factory, edits):
+    """Bytes spliced anywhere into a good file: a snapshot, or an InputError with the file
+    (and a line when it is about a line); never another exception."""
+    data = GOOD_CSV
+    for at, noise, cut in edits:
+        data = data[:at] + noise + data[at + cut :]
+    root = tmp_path_factory.mktemp("fuzz")
+    (root / "people.csv").write_bytes(data)
+    spec = people_spec(
+        root, {"n": {"kind": "integer"}, "x": {"kind": "float"}, "day": {"kind": "date"}}
+    )
+    try:
+        pull(spec, open_source(spec))
+    except InputError as error:
+        assert error.file is not None and str(root / "people.csv") in str(error)
+        assert "\n" not in str(error)
+        assert not spec.output.snapshot.exists()
+
+
+def test_a_header_broken_by_a_quote_and_carriage_return_is_an_input_error(tmp_path):
+    # found by the test above: text after a closing quote, then a lone CR (Python's csv
+    # reader refused it with an error of its own)
+    (tmp_path / "people.csv").write_bytes(b'"ref,kind,n"a,b\r"\nc\n')
+    spec = people_spec(tmp_path, {"n": None})
+    with pytest.raises(InputError, match=r"people\.csv:1: "):
+        pull(spec, open_source(spec))

@@ -192,6 +192,7 @@ def test_negative_value_for_log_is_a_one_line_error_naming_the_record() -> None:
     text = str(info.value)
     assert "\n" not in text and "record v1" in text and "features.t[0]" in text
     assert "negative" in text and "standardize or min-max" in text
+    assert "value -2 is negative" in text and "np." not in text  # a number, not a numpy repr
 
 
 def test_a_string_that_is_no_number_is_named() -> None:

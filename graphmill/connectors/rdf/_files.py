@@ -103,6 +103,11 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
     position = exc.args[1] if len(exc.args) > 1 and isinstance(exc.args[1], tuple) else ()
     line = exc.lineno if isinstance(exc.lineno, int) else None
     column = position[2] if len(position) > 2 and isinstance(position[2], int) else None
+    if "dot" in reason and column == 1 and line is not None and line > 1:
+        # the parser notices a missing final dot at the next statement: name the line
+        # that lacks it instead
+        line, column = _previous_statement_line(item, line), None
+        reason = "the statement lacks its final dot"
     where = f" (column {column})" if column is not None else ""
     return InputError(
         f"not valid {item.format}{where}: {reason}",
@@ -112,6 +117,19 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
     )
 
 
+def _previous_statement_line(item: RdfInput, line: int) -> int:
+    """The last line before ``line`` that holds more than blanks and comments."""
+    opener = gzip.open if item.gzipped else open
+    found = line - 1
+    with opener(item.path, "rb") as fh:
+        for number, text in enumerate(fh, start=1):
+            if number >= line:
+                break
+            if text.strip() and not text.lstrip().startswith(b"#"):
+                found = number
+    return found
+
+
 @contextlib.contextmanager
 def reading(item: RdfInput) -> Iterator[None]:
     """Turn parser and I/O errors met while reading ``item`` into graphmill errors."""
@@ -119,12 +137,38 @@ def reading(item: RdfInput) -> Iterator[None]:
         yield
     except SyntaxError as exc:
         raise _syntax_error(exc, item) from exc
+    except MemoryError as exc:
+        if "buffer maximal size" not in str(exc):
+            raise
+        raise _oversized_term(item) from exc
     except (gzip.BadGzipFile, EOFError, UnicodeDecodeError) as exc:
         raise InputError(
             f"not a readable gzip file: {exc}", file=item.shown, hint="check the download"
         ) from exc
     except OSError as exc:
         raise SourceUnavailableError(f"cannot read the file: {exc}", file=item.shown) from exc
+
+
+#: The longest term (a literal, an IRI) pyoxigraph's parsers take: 16 MiB (measured, 0.5.x).
+TERM_LIMIT = 16 << 20
+
+
+def _oversized_term(item: RdfInput) -> InputError:
+    """The parser's buffer overflowed: name the first line that is too long, if one is."""
+    opener = gzip.open if item.gzipped else open
+    line = None
+    with opener(item.path, "rb") as fh:
+        for number, text in enumerate(fh, start=1):
+            if len(text) >= TERM_LIMIT:
+                line = number
+                break
+    return InputError(
+        f"a term (a literal or an IRI) is longer than the RDF parser's limit of "
+        f"{TERM_LIMIT >> 20} MiB",
+        file=item.shown,
+        line=line,
+        hint="shorten or drop that value (keep large documents outside the graph)",
+    )
 
 
 @contextlib.contextmanager
