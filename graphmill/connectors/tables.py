@@ -23,7 +23,7 @@ import pyarrow.parquet as pq
 from graphmill._columns import value_kinds_of
 from graphmill.connectors import _lexical
 from graphmill.connectors._csv import csv_batches, physical_line, read_header, require_columns
-from graphmill.connectors._declared import apply_declared, ill_typed_text
+from graphmill.connectors._declared import accepted_kinds, apply_declared, ill_typed_text
 from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors._lexical import ILL_TYPED
 from graphmill.connectors._table_columns import first_missing, key_text, property_values
@@ -241,7 +241,10 @@ def _gated(
     raw = ill_typed_text(text, typed)
     if raw is None:
         return typed, counts, None
-    good = _lexical.kind_counts(text.filter(pc.is_valid(typed)))
+    if prop.kind is not None:  # what parsed is of the declared kind (or integer under float)
+        good = {k: n for k, n in counts.items() if k in accepted_kinds(prop.kind)}
+    else:
+        good = _lexical.kind_counts(text.filter(pc.is_valid(typed)))
     return typed, {**good, ILL_TYPED: len(raw) - raw.null_count}, raw
 
 
