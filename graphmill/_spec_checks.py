@@ -86,7 +86,7 @@ def check_table_files(spec: PipelineSpec) -> None:
             )
         if len(found) > 1:
             raise SpecError(
-                f"several relations are named {quote_value(ref)}: "
+                f"several relations named {quote_value(ref)}: "
                 + ", ".join(r.key.dotted for r in found),
                 key_path=f"source.edge_files[{i}].relation",
                 hint="use the dotted form 'source_type.name.target_type'",
