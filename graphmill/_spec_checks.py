@@ -214,8 +214,8 @@ def check_edges(spec: PipelineSpec) -> None:
 #: Every cross-check, in the order they run.
 CHECKS: tuple[Callable[[PipelineSpec], None], ...] = (
     check_source_kind,
-    check_table_files,
     check_relations,
+    check_table_files,
     check_property_ranges,
     check_features,
     check_label,
