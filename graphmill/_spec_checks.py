@@ -160,7 +160,7 @@ def check_severities(spec: PipelineSpec) -> None:
             raise SpecError(
                 f"unknown rule id {quote_value(rule_id)}{guess}",
                 key_path=f"checks.severity.{rule_id}",
-                hint=None if guess else f"rule ids are: {listed(RULES, limit=420)}",
+                hint=None if guess else f"rule ids are: {listed(RULES, limit=280)}",
             )
 
 

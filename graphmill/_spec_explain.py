@@ -186,21 +186,25 @@ def _explain(error: Any) -> tuple[str, list[Any], str | None]:
         wanted = error.validator_value
         words = [wanted] if isinstance(wanted, str) else list(wanted)
         expected = " or ".join(_TYPE_WORDS.get(w, w) for w in words)
-        return (f"{quote_value(value)} is not {expected}", path, hint)
+        return (
+            f"{quote_value(value)} is not {expected}",
+            path,
+            hint if "string" in words else None,
+        )
     if kind == "pattern":
         expected = error.schema.get("description", error.validator_value)
         if len(str(expected)) > 200:
             expected = str(expected)[:199] + "…"
         return (f"{quote_value(value)} does not have the expected form ({expected})", path, hint)
     if kind in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
-        words = {
+        bound = {
             "minimum": "at least",
             "maximum": "at most",
             "exclusiveMinimum": "above",
             "exclusiveMaximum": "below",
         }[kind]
         return (
-            f"{quote_value(value)} is out of range: it must be {words} {error.validator_value}",
+            f"{quote_value(value)} is out of range: it must be {bound} {error.validator_value}",
             path,
             None,
         )

@@ -41,7 +41,7 @@ _VOCABULARY = frozenset({"categories", "one-hot", "multi-hot"})
 
 def _suggest_for_kind(kind: str) -> str:
     fitting = [e for e, kinds in ENCODING_KINDS.items() if kind in kinds]
-    return f"for a {kind} property use one of: {', '.join(fitting)}"
+    return f"for kind {kind!r} use one of: {', '.join(fitting)}"
 
 
 def check_features(spec: PipelineSpec) -> None:

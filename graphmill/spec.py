@@ -190,8 +190,10 @@ def load_spec(path: str | Path) -> PipelineSpec:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         start = exc.start + (3 if data.startswith(b"\xef\xbb\xbf") else 0)
+        utf16 = data.startswith((b"\xff\xfe", b"\xfe\xff"))
         raise SpecError(
-            f"the spec is not UTF-8 text: byte {start} (0x{data[start]:02x}) is not valid UTF-8",
+            f"the spec is not UTF-8 text: byte {start} (0x{data[start]:02x}) is not valid UTF-8"
+            + (" (the file starts with a UTF-16 byte-order mark)" if utf16 else ""),
             file=where,
             line=data.count(b"\n", 0, start) + 1,
             hint="save the spec as UTF-8",
@@ -341,7 +343,9 @@ def _yaml_words(document: Any) -> Any:
     a bare ``off`` under ``checks.severity`` reads as ``false`` and means ``off``."""
     checks = document.get("checks") if isinstance(document, dict) else None
     severity = checks.get("severity") if isinstance(checks, dict) else None
-    if not isinstance(severity, dict) or False not in severity.values():
+    if not isinstance(checks, dict) or not isinstance(severity, dict):
+        return document
+    if not any(v is False for v in severity.values()):
         return document
     fixed = {k: ("off" if v is False else v) for k, v in severity.items()}
     return {**document, "checks": {**checks, "severity": fixed}}

@@ -19,7 +19,7 @@ from graphmill.spec import FeatureSpec
 from graphmill.transform._encoders import BadValue
 from graphmill.transform._features import encode_feature
 
-UTC = dt.timezone.utc
+UTC = dt.UTC
 TYPICAL = {
     "integer": pa.array([1, 5, 3], pa.int64()),
     "float": pa.array([0.5, 1.5, 2.5], pa.float64()),

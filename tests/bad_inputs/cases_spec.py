@@ -50,7 +50,10 @@ RDF: dict[str, Any] = {
 GREMLIN = {**RDF, "source": {"kind": "gremlin", "url": "ws://127.0.0.1:9/gremlin"}}
 GREMLIN.pop("rdf")
 SPARQL = {**RDF, "source": {"kind": "sparql-endpoint", "query_url": "http://127.0.0.1:9/q"}}
-GRAPH_NT = "<http://example.org/p1> <http://www.w3.org/1999/02/22-rdf-syntax-ns#type> <http://example.org/Person> .\n"
+GRAPH_NT = (
+    "<http://example.org/p1> <http://www.w3.org/1999/02/22-rdf-syntax-ns#type> "
+    "<http://example.org/Person> .\n"
+)
 
 CASES: list[Case] = []
 
@@ -123,9 +126,18 @@ ENUMS: list[tuple[dict[str, Any], str, tuple[str, ...]]] = [
         ),
     ),
     (TABLE, "features.person.0.missing", ("indicator", "fill")),
-    (TABLE, "vertex_types.person.properties.age.kind", (
-        "integer", "float", "boolean", "string", "datetime", "date",
-    )),
+    (
+        TABLE,
+        "vertex_types.person.properties.age.kind",
+        (
+            "integer",
+            "float",
+            "boolean",
+            "string",
+            "datetime",
+            "date",
+        ),
+    ),
     (TABLE, "source.vertex_files.0.format", ("csv", "parquet")),
     (TABLE, "checks.severity.self-loop", ("error", "warning", "info", "off")),
     (RDF, "rdf.several_types", ("first-declared", "every-type", "reject")),
@@ -156,10 +168,20 @@ for part in ("year", "month", "day", "day_of_week", "hour", "epoch_days"):
         f"did you mean {part!r}?",
         TABLE,
     )
-add("source-kind-misspelt", _edit(TABLE, "source.kind", "table-file"), "source.kind",
-    "did you mean 'table-files'?", TABLE)
-add("source-kind-unknown", _edit(RDF, "source.kind", "graphml"), "source.kind",
-    "unknown source kind 'graphml'", RDF)
+add(
+    "source-kind-misspelt",
+    _edit(TABLE, "source.kind", "table-file"),
+    "source.kind",
+    "did you mean 'table-files'?",
+    TABLE,
+)
+add(
+    "source-kind-unknown",
+    _edit(RDF, "source.kind", "graphml"),
+    "source.kind",
+    "unknown source kind 'graphml'",
+    RDF,
+)
 
 # --- every required key missing ---------------------------------------------------------------
 
@@ -193,12 +215,22 @@ for base, dotted in REQUIRED:
     if shown.startswith("relations.0."):
         shown = shown.replace("relations.0.", "relations[0].")
     leaf = dotted.rsplit(".", 1)[-1]
-    add(f"required-{dotted}", _edit(base, dotted, delete=True), shown,
-        f"missing required key {leaf!r}", base)
+    add(
+        f"required-{dotted}",
+        _edit(base, dotted, delete=True),
+        shown,
+        f"missing required key {leaf!r}",
+        base,
+    )
 for key, base in (("type", TABLE), ("relation", TABLE)):
     files = "vertex_files" if key == "type" else "edge_files"
-    add(f"required-one-of-{key}", _edit(base, f"source.{files}.0.{key}", delete=True),
-        f"source.{files}[0]", "give exactly one of", base)
+    add(
+        f"required-one-of-{key}",
+        _edit(base, f"source.{files}.0.{key}", delete=True),
+        f"source.{files}[0]",
+        "give exactly one of",
+        base,
+    )
     both = _edit(base, f"source.{files}.0.{key}_column", "kind")
     add(f"both-of-{key}", both, f"source.{files}[0]", "both are given", base)
 
@@ -215,39 +247,122 @@ CROSS = [
 ]
 for name, dotted, value, shown in CROSS:
     add(f"xref-{name}", _edit(TABLE, dotted, value), shown, "did you mean", TABLE)
-add("xref-features-vertex-type", _edit(TABLE, "features", {"persn": TABLE["features"]["person"]}),
-    "features.persn", "did you mean 'person'?", TABLE)
-add("xref-second-feature-index", _edit(TABLE, "features.person.1", {"property": "tem",
-    "encoding": "one-hot"}), "features.person[1].property", "did you mean 'team'?", TABLE)
-add("xref-severity-rule", _edit(TABLE, "checks.severity", {"self-lop": "error"}),
-    "checks.severity.self-lop", "did you mean 'self-loop'?", TABLE)
-add("xref-severity-rule-far", _edit(TABLE, "checks.severity", {"zzz": "error"}),
-    "checks.severity.zzz", "rule ids are", TABLE)
-add("xref-expect-vertex-type", _edit(TABLE, "checks.expect.vertex_types", {"persn": {}}),
-    "checks.expect.vertex_types.persn", "did you mean 'person'?", TABLE)
-add("xref-expect-relation", _edit(TABLE, "checks.expect.relations", {"person.knws.person": {}}),
-    "checks.expect.relations.person.knws.person", "did you mean 'person.knows.person'?", TABLE)
-add("xref-expect-property-type", _edit(TABLE, "checks.expect.properties", {"persn": ["age"]}),
-    "checks.expect.properties.persn", "did you mean 'person'?", TABLE)
-add("xref-expect-property", _edit(TABLE, "checks.expect.properties", {"person": ["age", "tem"]}),
-    "checks.expect.properties.person[1]", "did you mean 'team'?", TABLE)
-add("xref-leakage", _edit(TABLE, "features.person.1", {"property": "team", "encoding": "one-hot"}),
-    "features.person[1].property", "target leakage", TABLE)
-add("xref-duplicate-relation", _edit(TABLE, "relations.1", TABLE["relations"][0]),
-    "relations[1]", "declared twice", TABLE)
-add("xref-add-reverse-clash", _edit(_edit(TABLE, "relations.1", {"from": "person",
-    "name": "rev_knows", "to": "person"}), "edges.add_reverse", True), "edges.add_reverse",
-    "would add person.rev_knows.person", TABLE)
-add("xref-stratified-without-label", _edit(_edit(TABLE, "label", None, delete=True),
-    "split.method", "stratified"), "split.method", "needs a label", TABLE)
-add("xref-fractions-sum", _edit(TABLE, "split.fractions.test", 0.5), "split.fractions",
-    "add up to 1.25", TABLE)
-add("xref-rdf-prefix", _edit(RDF, "vertex_types.person.match", "zz:Person"),
-    "vertex_types.person.match", "prefix 'zz' is not declared", RDF)
-add("xref-rdf-graph-property", _edit(RDF, "rdf.graph_property", "age"), "rdf.graph_property",
-    "also a property", RDF)
-add("xref-rdf-edge-properties", _edit(RDF, "relations.0.properties", {"since": None}),
-    "relations[0].properties", "no edge properties", RDF)
+add(
+    "xref-features-vertex-type",
+    _edit(TABLE, "features", {"persn": TABLE["features"]["person"]}),
+    "features.persn",
+    "did you mean 'person'?",
+    TABLE,
+)
+add(
+    "xref-second-feature-index",
+    _edit(TABLE, "features.person.1", {"property": "tem", "encoding": "one-hot"}),
+    "features.person[1].property",
+    "did you mean 'team'?",
+    TABLE,
+)
+add(
+    "xref-severity-rule",
+    _edit(TABLE, "checks.severity", {"self-lop": "error"}),
+    "checks.severity.self-lop",
+    "did you mean 'self-loop'?",
+    TABLE,
+)
+add(
+    "xref-severity-rule-far",
+    _edit(TABLE, "checks.severity", {"zzz": "error"}),
+    "checks.severity.zzz",
+    "rule ids are",
+    TABLE,
+)
+add(
+    "xref-expect-vertex-type",
+    _edit(TABLE, "checks.expect.vertex_types", {"persn": {}}),
+    "checks.expect.vertex_types.persn",
+    "did you mean 'person'?",
+    TABLE,
+)
+add(
+    "xref-expect-relation",
+    _edit(TABLE, "checks.expect.relations", {"person.knws.person": {}}),
+    "checks.expect.relations.person.knws.person",
+    "did you mean 'person.knows.person'?",
+    TABLE,
+)
+add(
+    "xref-expect-property-type",
+    _edit(TABLE, "checks.expect.properties", {"persn": ["age"]}),
+    "checks.expect.properties.persn",
+    "did you mean 'person'?",
+    TABLE,
+)
+add(
+    "xref-expect-property",
+    _edit(TABLE, "checks.expect.properties", {"person": ["age", "tem"]}),
+    "checks.expect.properties.person[1]",
+    "did you mean 'team'?",
+    TABLE,
+)
+add(
+    "xref-leakage",
+    _edit(TABLE, "features.person.1", {"property": "team", "encoding": "one-hot"}),
+    "features.person[1].property",
+    "target leakage",
+    TABLE,
+)
+add(
+    "xref-duplicate-relation",
+    _edit(TABLE, "relations.1", TABLE["relations"][0]),
+    "relations[1]",
+    "declared twice",
+    TABLE,
+)
+add(
+    "xref-add-reverse-clash",
+    _edit(
+        _edit(TABLE, "relations.1", {"from": "person", "name": "rev_knows", "to": "person"}),
+        "edges.add_reverse",
+        True,
+    ),
+    "edges.add_reverse",
+    "would add person.rev_knows.person",
+    TABLE,
+)
+add(
+    "xref-stratified-without-label",
+    _edit(_edit(TABLE, "label", None, delete=True), "split.method", "stratified"),
+    "split.method",
+    "needs a label",
+    TABLE,
+)
+add(
+    "xref-fractions-sum",
+    _edit(TABLE, "split.fractions.test", 0.5),
+    "split.fractions",
+    "add up to 1.25",
+    TABLE,
+)
+add(
+    "xref-rdf-prefix",
+    _edit(RDF, "vertex_types.person.match", "zz:Person"),
+    "vertex_types.person.match",
+    "prefix 'zz' is not declared",
+    RDF,
+)
+add(
+    "xref-rdf-graph-property",
+    _edit(RDF, "rdf.graph_property", "age"),
+    "rdf.graph_property",
+    "also a property",
+    RDF,
+)
+add(
+    "xref-rdf-edge-properties",
+    _edit(RDF, "relations.0.properties", {"since": None}),
+    "relations[0].properties",
+    "no edge properties",
+    RDF,
+)
 
 # --- an encoding or option that cannot apply to the property ----------------------------------
 
@@ -273,25 +388,51 @@ for encoding in ("categories", "one-hot", "standardize"):
 for key, value in (("datetime_parts", ["year"]), ("max_categories", 3)):
     doc = _edit(TABLE, f"features.person.0.{key}", value)
     add(f"option-{key}-with-standardize", doc, f"features.person[0].{key}", "has no effect", TABLE)
-add("encoding-twice", _edit(TABLE, "features.person.1", TABLE["features"]["person"][0]),
-    "features.person[1]", "encoded as 'standardize' twice", TABLE)
+add(
+    "encoding-twice",
+    _edit(TABLE, "features.person.1", TABLE["features"]["person"][0]),
+    "features.person[1]",
+    "encoded as 'standardize' twice",
+    TABLE,
+)
 
 # --- every min/max pair inverted, and bounds on what is not a number ---------------------------
 
-add("range-vertex-property", _edit(TABLE, "vertex_types.person.properties.age",
-    {"kind": "integer", "min": 120, "max": 0}), "vertex_types.person.properties.age.min",
-    "min 120 is above max 0", TABLE)
-add("range-edge-property", _edit(TABLE, "relations.0.properties", {"since": {"min": 2030,
-    "max": 1990}}), "relations[0].properties.since.min", "min 2030 is above max 1990", TABLE)
-add("range-contract-vertex-type", _edit(TABLE, "checks.expect.vertex_types",
-    {"person": {"min": 10, "max": 1}}), "checks.expect.vertex_types.person.min",
-    "min 10 is above max 1", TABLE)
-add("range-contract-relation", _edit(TABLE, "checks.expect.relations",
-    {"person.knows.person": {"min": 7, "max": 2}}),
-    "checks.expect.relations.person.knows.person.min", "min 7 is above max 2", TABLE)
-add("range-on-string", _edit(TABLE, "vertex_types.person.properties.team",
-    {"kind": "string", "min": 1}), "vertex_types.person.properties.team.min",
-    "apply to numbers", TABLE)
+add(
+    "range-vertex-property",
+    _edit(TABLE, "vertex_types.person.properties.age", {"kind": "integer", "min": 120, "max": 0}),
+    "vertex_types.person.properties.age.min",
+    "min 120 is above max 0",
+    TABLE,
+)
+add(
+    "range-edge-property",
+    _edit(TABLE, "relations.0.properties", {"since": {"min": 2030, "max": 1990}}),
+    "relations[0].properties.since.min",
+    "min 2030 is above max 1990",
+    TABLE,
+)
+add(
+    "range-contract-vertex-type",
+    _edit(TABLE, "checks.expect.vertex_types", {"person": {"min": 10, "max": 1}}),
+    "checks.expect.vertex_types.person.min",
+    "min 10 is above max 1",
+    TABLE,
+)
+add(
+    "range-contract-relation",
+    _edit(TABLE, "checks.expect.relations", {"person.knows.person": {"min": 7, "max": 2}}),
+    "checks.expect.relations.person.knows.person.min",
+    "min 7 is above max 2",
+    TABLE,
+)
+add(
+    "range-on-string",
+    _edit(TABLE, "vertex_types.person.properties.team", {"kind": "string", "min": 1}),
+    "vertex_types.person.properties.team.min",
+    "apply to numbers",
+    TABLE,
+)
 
 # --- every bad delimiter, in a vertex file and an edge file ------------------------------------
 
@@ -303,8 +444,13 @@ for files in ("vertex_files", "edge_files"):
         ("two-characters", ";;", "longer than 1 character"),
         ("empty", "", "empty"),
     ):
-        add(f"delimiter-{files}-{label}", _edit(TABLE, f"source.{files}.0.delimiter", value),
-            f"source.{files}[0].delimiter", says, TABLE)
+        add(
+            f"delimiter-{files}-{label}",
+            _edit(TABLE, f"source.{files}.0.delimiter", value),
+            f"source.{files}[0].delimiter",
+            says,
+            TABLE,
+        )
 
 # --- a wrong type for every key ----------------------------------------------------------------
 
@@ -380,19 +526,39 @@ for dotted in (
     "checks.max_null_rate",
 ):
     add(f"nan-{dotted}", _edit(TABLE, dotted, float("nan")), dotted, "NaN", TABLE)
-add("nan-retries", _edit(GREMLIN, "source.retries.initial_wait_s", float("nan")),
-    "source.retries.initial_wait_s", "NaN", GREMLIN)
+add(
+    "nan-retries",
+    _edit(GREMLIN, "source.retries.initial_wait_s", float("nan")),
+    "source.retries.initial_wait_s",
+    "NaN",
+    GREMLIN,
+)
 
 # --- words YAML 1.1 reads as booleans ----------------------------------------------------------
 
 GOOD_TEXT = yaml.safe_dump(TABLE, sort_keys=False)
 for key, word in (("self_loops", "no"), ("duplicates", "off"), ("undirected", "yes")):
-    add(f"yaml-boolean-{key}", GOOD_TEXT + f"edges: {{{key}: {word}}}\n", f"edges.{key}",
-        "YAML reads a bare", TABLE)
-add("yaml-boolean-severity-on", GOOD_TEXT + "checks: {severity: {self-loop: on}}\n",
-    "checks.severity.self-loop", "YAML reads a bare", TABLE)
-add("yaml-boolean-vertex-type-name", GOOD_TEXT.replace("  person:\n", "  yes:\n", 1),
-    "vertex_types", "YAML reads a bare", TABLE)
+    add(
+        f"yaml-boolean-{key}",
+        GOOD_TEXT + f"edges: {{{key}: {word}}}\n",
+        f"edges.{key}",
+        "YAML reads a bare",
+        TABLE,
+    )
+add(
+    "yaml-boolean-severity-on",
+    GOOD_TEXT + "checks: {severity: {self-loop: on}}\n",
+    "checks.severity.self-loop",
+    "YAML reads a bare",
+    TABLE,
+)
+add(
+    "yaml-boolean-vertex-type-name",
+    GOOD_TEXT.replace("  person:\n", "  yes:\n", 1),
+    "vertex_types",
+    "YAML reads a bare",
+    TABLE,
+)
 
 # --- YAML that does not parse: the line --------------------------------------------------------
 
@@ -407,28 +573,53 @@ SYNTAX = [
 ]
 for name, text, line in SYNTAX:
     add(f"yaml-{name}", text, f"{SPEC}:{line}", "not valid YAML", TABLE)
-add("yaml-too-deep", "spec_version: 1\nname: " + "[" * 3000 + "]" * 3000 + "\n", None,
-    "nested too deeply", TABLE)
+add(
+    "yaml-too-deep",
+    "spec_version: 1\nname: " + "[" * 3000 + "]" * 3000 + "\n",
+    None,
+    "nested too deeply",
+    TABLE,
+)
 
 # --- the shape of the file itself --------------------------------------------------------------
 
 add("top-level-list", "- spec_version: 1\n", None, "must be a YAML mapping", TABLE)
 add("top-level-scalar", "people\n", None, "must be a YAML mapping", TABLE)
 add("empty-file", "", None, "must be a YAML mapping", TABLE)
-add("not-utf8-latin1", GOOD_TEXT.replace("name: people", "name: caf\xe9").encode("latin-1"),
-    f"{SPEC}:2", "not UTF-8 text", TABLE)
-add("not-utf8-utf16", GOOD_TEXT.encode("utf-16"), f"{SPEC}:1", "not UTF-8 text", TABLE)
+add(
+    "not-utf8-latin1",
+    GOOD_TEXT.replace("name: people", "name: caf\xe9").encode("latin-1"),
+    f"{SPEC}:2",
+    "not UTF-8 text",
+    TABLE,
+)
+add("not-utf8-utf16", GOOD_TEXT.encode("utf-16"), f"{SPEC}:1", "UTF-16 byte-order mark", TABLE)
 add("not-utf8-binary", b"\xff\xfe\x00\x01" * 64, f"{SPEC}:1", "not UTF-8 text", TABLE)
-add("bom-then-key-typo", b"\xef\xbb\xbf" + GOOD_TEXT.replace("spec_version", "spec_vesion").encode(),
-    "spec_vesion", "unknown key 'spec_vesion'; did you mean 'spec_version'?", TABLE)
-add("bom-then-bad-utf8", b"\xef\xbb\xbfspec_version: 1\nname: \xc3\x28\n", f"{SPEC}:2",
-    "byte 25", TABLE)
+add(
+    "bom-then-key-typo",
+    b"\xef\xbb\xbf" + GOOD_TEXT.replace("spec_version", "spec_vesion").encode(),
+    "spec_vesion",
+    "unknown key 'spec_vesion'; did you mean 'spec_version'?",
+    TABLE,
+)
+add(
+    "bom-then-bad-utf8",
+    b"\xef\xbb\xbfspec_version: 1\nname: \xc3\x28\n",
+    f"{SPEC}:2",
+    "byte 25",
+    TABLE,
+)
 
 # --- huge values: the message stays short ------------------------------------------------------
 
 HUGE = "q" * 5_000_000
-add("huge-name", GOOD_TEXT.replace("name: people", f"name: {HUGE}"), "name",
-    "does not have the expected form", TABLE)
+add(
+    "huge-name",
+    GOOD_TEXT.replace("name: people", f"name: {HUGE}"),
+    "name",
+    "does not have the expected form",
+    TABLE,
+)
 add("huge-enum-value", _edit(TABLE, "edges.duplicates", HUGE), "edges.duplicates", "…", TABLE)
 add("huge-source-kind", _edit(TABLE, "source.kind", HUGE), "source.kind", "…", TABLE)
 add("huge-unknown-key", _edit(TABLE, HUGE, 1), "(top level)", "unknown key", TABLE)
