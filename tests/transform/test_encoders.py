@@ -194,6 +194,19 @@ def test_dates_are_midnight_utc() -> None:
     assert out.matrix[0, :3].tolist() == [day.weekday(), 0, (day - dt.date(1970, 1, 1)).days]
 
 
+def test_iso_text_without_an_offset_is_utc_and_with_one_is_converted() -> None:
+    # reference: Python's datetime.fromisoformat; naive text is taken as UTC
+    for texts in (
+        ["2021-03-14T15:00:00", "2021-03-14T23:30:00"],
+        ["2021-03-14T15:00:00+02:00", "2021-03-14T15:00:00Z"],
+    ):
+        hour = feature("t", "datetime", datetime_parts=("hour",))
+        out = encode(pa.table({"t": texts}), [hour])
+        parsed = [dt.datetime.fromisoformat(t) for t in texts]
+        want = [(p if p.tzinfo is None else p.astimezone(UTC)).hour for p in parsed]
+        assert out.matrix[:, 0].tolist() == want
+
+
 def test_negative_value_for_log_is_a_one_line_error_naming_the_record() -> None:
     with pytest.raises(InputError) as info:
         encode(pa.table({"a": [1.0, -2.0]}), [feature("a", "log")])
