@@ -10,10 +10,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, NamedTuple
 
-import yaml
-
 from graphmill._spec_checks import cross_check, refuse_nan
 from graphmill._spec_explain import check_against_schema
+from graphmill._spec_yaml import read_spec_document
 from graphmill.errors import SpecError
 
 RESERVED_COLUMNS = ("vertex_id", "source_id", "target_id")
@@ -179,44 +178,8 @@ def load_spec(path: str | Path) -> PipelineSpec:
     every schema or cross-reference problem.
     """
     file = Path(path)
-    where = str(file)
-    try:
-        data = file.read_bytes()
-    except FileNotFoundError as exc:
-        raise SpecError("spec file not found", file=where, hint="check the path") from exc
-    except OSError as exc:
-        raise SpecError(f"cannot read the spec: {exc.strerror or exc}", file=where) from exc
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        start = exc.start + (3 if data.startswith(b"\xef\xbb\xbf") else 0)
-        utf16 = data.startswith((b"\xff\xfe", b"\xfe\xff"))
-        raise SpecError(
-            f"the spec is not UTF-8 text: byte {start} (0x{data[start]:02x}) is not valid UTF-8"
-            + (" (the file starts with a UTF-16 byte-order mark)" if utf16 else ""),
-            file=where,
-            line=data.count(b"\n", 0, start) + 1,
-            hint="save the spec as UTF-8",
-        ) from None
-    document = _parse_yaml(text, where)
+    document = read_spec_document(file)
     return spec_from_dict(document, base_dir=file.resolve().parent, spec_file=file)
-
-
-def _parse_yaml(text: str, where: str) -> Any:
-    try:
-        return yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
-        problem = str(getattr(exc, "problem", None) or exc).split("\n")[0]
-        raise SpecError(
-            f"not valid YAML: {problem[:200]}",
-            file=where,
-            line=(mark.line + 1) if mark is not None else None,
-        ) from None
-    except RecursionError:
-        raise SpecError(
-            "the YAML is nested too deeply to read", file=where, hint="flatten the spec"
-        ) from None
 
 
 def spec_from_dict(

@@ -380,3 +380,14 @@ def test_names_declared_elsewhere_check_in_any_order(tmp_path):
     assert error.key_path == "source.kind" and "table-files" in line
     spec = spec_from_dict(variant(edges={"add_reverse": True}), base_dir=tmp_path)
     assert spec.edges.add_reverse
+
+
+def test_a_key_given_twice_is_refused_with_both_lines(write):
+    text = "spec_version: 1\nname: a\nvertex_types: {}\nname: b\n"
+    with pytest.raises(SpecError) as info:
+        load_spec(write("spec.yaml", text))
+    assert info.value.line == 4 and "first on line 2" in info.value.one_line()
+    # YAML merge keys ('<<') are not repeats: the explicit key wins, as YAML says
+    merged = yaml.safe_dump(MINIMAL) + "rdf: {<<: {several_types: reject}, languages: [en]}\n"
+    spec = load_spec(write("merged.yaml", merged))
+    assert spec.rdf.several_types == "reject"

@@ -624,3 +624,20 @@ add("huge-enum-value", _edit(TABLE, "edges.duplicates", HUGE), "edges.duplicates
 add("huge-source-kind", _edit(TABLE, "source.kind", HUGE), "source.kind", "…", TABLE)
 add("huge-unknown-key", _edit(TABLE, HUGE, 1), "(top level)", "unknown key", TABLE)
 add("huge-vertex-type-name", _edit(TABLE, f"vertex_types.{HUGE}", {}), "vertex_types", "…", TABLE)
+
+# --- a key given twice (YAML alone would keep the last one silently) ---------------------------
+
+add(
+    "duplicate-top-level-key",
+    GOOD_TEXT + "output: {bundle: elsewhere}\n",
+    f"{SPEC}:{GOOD_TEXT.count(chr(10)) + 1}",
+    "the key 'output' is given twice",
+    TABLE,
+)
+add(
+    "duplicate-nested-key",
+    GOOD_TEXT.replace("  method: random\n", "  method: random\n  method: stratified\n"),
+    SPEC,
+    "the key 'method' is given twice",
+    TABLE,
+)
