@@ -3,8 +3,9 @@
 Contract: :func:`read_spec_document` returns the parsed document of a UTF-8 file (a leading
 byte-order mark is dropped). A missing or unreadable file, bytes that are not UTF-8 (with the
 byte offset and line), YAML that does not parse (with the line), a key given twice in one
-mapping (both lines; YAML would silently keep the last) and nesting too deep to parse all
-raise :class:`~graphmill.errors.SpecError` (exit 2) naming the file.
+mapping (both lines; YAML would silently keep the last), aliases that expand to a huge
+document and nesting too deep to parse all raise :class:`~graphmill.errors.SpecError`
+(exit 2) naming the file.
 """
 
 from __future__ import annotations
@@ -19,8 +20,19 @@ from graphmill.errors import SpecError, quote_value
 UTF8_BOM = b"\xef\xbb\xbf"
 
 
+#: The most nodes a spec may expand to once YAML aliases are followed (a spec has hundreds;
+#: a few nested aliases can otherwise expand to billions and hang every later step).
+MAX_EXPANDED_NODES = 1_000_000
+
+
 class _Loader(yaml.SafeLoader):
-    """PyYAML's safe loader, refusing a key given twice in one mapping."""
+    """PyYAML's safe loader, refusing a key given twice in one mapping and documents whose
+    aliases expand beyond :data:`MAX_EXPANDED_NODES` nodes."""
+
+    def construct_document(self, node: Any) -> Any:
+        if _expanded_size(node, {}) > MAX_EXPANDED_NODES:
+            raise _TooLarge(node.start_mark.line + 1)
+        return super().construct_document(node)
 
     def construct_mapping(self, node: Any, deep: bool = False) -> Any:
         seen: dict[Any, int] = {}
@@ -34,6 +46,27 @@ class _Loader(yaml.SafeLoader):
             if isinstance(key, str | int | float | bool):
                 seen[key] = line
         return super().construct_mapping(node, deep=deep)
+
+
+def _expanded_size(node: Any, memo: dict[int, int]) -> int:
+    """Nodes under ``node`` with every alias expanded (memoised: linear in the document)."""
+    if id(node) in memo:
+        return memo[id(node)]
+    memo[id(node)] = 1  # a recursive alias counts once instead of looping
+    if isinstance(node, yaml.MappingNode):
+        size = 1 + sum(_expanded_size(k, memo) + _expanded_size(v, memo) for k, v in node.value)
+    elif isinstance(node, yaml.SequenceNode):
+        size = 1 + sum(_expanded_size(item, memo) for item in node.value)
+    else:
+        size = 1
+    memo[id(node)] = size
+    return size
+
+
+class _TooLarge(Exception):  # noqa: N818 - internal signal, turned into SpecError
+    def __init__(self, line: int) -> None:
+        super().__init__(line)
+        self.line = line
 
 
 class _DuplicateKey(Exception):  # noqa: N818 - internal signal, turned into SpecError
@@ -77,6 +110,14 @@ def parse_yaml(text: str, where: str | None = None) -> Any:
             file=where,
             line=dup.again,
             hint="remove or merge one of them",
+        ) from None
+    except _TooLarge as big:
+        raise SpecError(
+            f"the YAML expands to more than {MAX_EXPANDED_NODES:,} values once its aliases "
+            "(*name) are followed",
+            file=where,
+            line=big.line,
+            hint="use fewer nested aliases",
         ) from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)

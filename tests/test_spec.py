@@ -391,3 +391,11 @@ def test_a_key_given_twice_is_refused_with_both_lines(write):
     merged = yaml.safe_dump(MINIMAL) + "rdf: {<<: {several_types: reject}, languages: [en]}\n"
     spec = load_spec(write("merged.yaml", merged))
     assert spec.rdf.several_types == "reject"
+
+
+def test_aliases_that_expand_to_a_huge_document_are_refused_at_once(write):
+    # nine levels of ten aliases each: 10**9 values once expanded ("billion laughs")
+    lines = ["a0: &a0 [x, x, x, x, x, x, x, x, x, x]"]
+    lines += [f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]" for i in range(1, 10)]
+    with pytest.raises(SpecError, match="expands to more than"):
+        load_spec(write("spec.yaml", "\n".join(lines) + "\n"))

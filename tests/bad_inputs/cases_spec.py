@@ -641,3 +641,7 @@ add(
     "the key 'method' is given twice",
     TABLE,
 )
+LAUGHS = ["a0: &a0 [x, x, x, x, x, x, x, x, x, x]"] + [
+    f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]" for i in range(1, 9)
+]
+add("yaml-alias-expansion", "\n".join(LAUGHS) + "\n", f"{SPEC}:1", "expands to more than", TABLE)
