@@ -13,7 +13,7 @@ from typing import Any, NamedTuple
 from graphmill._spec_checks import cross_check, refuse_nan
 from graphmill._spec_explain import check_against_schema
 from graphmill._spec_yaml import read_spec_document
-from graphmill.errors import SpecError
+from graphmill.errors import SpecError, quote_value
 
 RESERVED_COLUMNS = ("vertex_id", "source_id", "target_id")
 
@@ -127,7 +127,8 @@ class RdfOptions:
         if "://" in term or term.startswith("urn:"):
             return term
         raise SpecError(
-            f"{term!r} is not a full IRI and its prefix {prefix!r} is not declared",
+            f"{quote_value(term)} is not a full IRI and its prefix {quote_value(prefix)} is "
+            "not declared",
             hint="declare it under rdf.prefixes or write the full IRI in <...>",
         )
 
@@ -241,15 +242,19 @@ def spec_from_dict(
         only_labeled=split_doc.get("only_labeled", True),
     )
     out = doc["output"]
-    bundle = _absolute(out["bundle"], base)
-    snapshot = _absolute(out["snapshot"], base) if "snapshot" in out else Path(f"{bundle}.snapshot")
+    bundle = _absolute(out["bundle"], base, "output.bundle", where)
+    snapshot = (
+        _absolute(out["snapshot"], base, "output.snapshot", where)
+        if "snapshot" in out
+        else Path(f"{bundle}.snapshot")
+    )
     output = OutputSpec(
         snapshot=snapshot,
         bundle=bundle,
-        report=_absolute(out["report"], base)
+        report=_absolute(out["report"], base, "output.report", where)
         if "report" in out
         else Path(f"{snapshot}.report.json"),
-        junit=_absolute(out["junit"], base) if "junit" in out else None,
+        junit=_absolute(out["junit"], base, "output.junit", where) if "junit" in out else None,
     )
     checks_doc = doc.get("checks", {})
     spec = PipelineSpec(
@@ -282,8 +287,16 @@ def spec_from_dict(
     return spec
 
 
-def _absolute(path: str, base: Path) -> Path:
-    p = Path(path).expanduser()
+def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:
+    try:
+        p = Path(path).expanduser()
+    except RuntimeError:  # ~name of a user this machine does not know
+        raise SpecError(
+            f"cannot expand {quote_value(path)}: no such user's home folder",
+            file=where,
+            key_path=key,
+            hint="write the path without ~user",
+        ) from None
     return p if p.is_absolute() else base / p
 
 

@@ -645,3 +645,11 @@ LAUGHS = ["a0: &a0 [x, x, x, x, x, x, x, x, x, x]"] + [
     f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]" for i in range(1, 9)
 ]
 add("yaml-alias-expansion", "\n".join(LAUGHS) + "\n", f"{SPEC}:1", "expands to more than", TABLE)
+for key in ("bundle", "snapshot", "report", "junit"):
+    add(
+        f"output-{key}-unknown-user",
+        _edit(TABLE, f"output.{key}", "~no_such_user_gm/x"),
+        f"output.{key}",
+        "no such user",
+        TABLE,
+    )
