@@ -93,6 +93,40 @@ def check_table_files(spec: PipelineSpec) -> None:
             )
 
 
+def check_table_columns(spec: PipelineSpec) -> None:
+    """With ``type_column`` / ``relation_column``, rows are told apart by ``match`` values,
+    so no two vertex types (relations) may share one."""
+    if spec.source_kind != "table-files":
+        return
+    for files, column, things in (
+        (
+            "vertex_files",
+            "type_column",
+            [(f"vertex_types.{n}", t.match) for n, t in spec.vertex_types.items()],
+        ),
+        (
+            "edge_files",
+            "relation_column",
+            [(f"relations[{i}]", r.match) for i, r in enumerate(spec.relations)],
+        ),
+    ):
+        users = [i for i, e in enumerate(spec.source.get(files, [])) if column in e]
+        if not users:
+            continue
+        first: dict[str, str] = {}
+        for where, match in things:
+            if match in first:
+                raise SpecError(
+                    f"{first[match]} and {where} both match {quote_value(match)}, so "
+                    f"source.{files}[{users[0]}].{column} cannot tell their rows apart",
+                    key_path=f"{where}.match",
+                    hint="give each a distinct 'match', or use one file per type with 'type'"
+                    if column == "type_column"
+                    else "give each a distinct 'match', or one file per relation with 'relation'",
+                )
+            first[match] = where
+
+
 def check_relations(spec: PipelineSpec) -> None:
     """Relations join declared vertex types, each (from, name, to) once."""
     seen: set[Any] = set()
@@ -216,6 +250,7 @@ CHECKS: tuple[Callable[[PipelineSpec], None], ...] = (
     check_source_kind,
     check_relations,
     check_table_files,
+    check_table_columns,
     check_property_ranges,
     check_features,
     check_label,

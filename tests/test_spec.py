@@ -399,3 +399,19 @@ def test_aliases_that_expand_to_a_huge_document_are_refused_at_once(write):
     lines += [f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]" for i in range(1, 10)]
     with pytest.raises(SpecError, match="expands to more than"):
         load_spec(write("spec.yaml", "\n".join(lines) + "\n"))
+
+
+def test_rows_told_apart_by_a_column_need_distinct_match_values(tmp_path):
+    doc = variant()
+    doc["source"]["edge_files"][0] = {
+        "path": "e.csv",
+        "source_column": "a",
+        "target_column": "b",
+        "relation_column": "rel",
+    }
+    doc["relations"].append({"from": "person", "name": "likes", "to": "person", "match": "knows"})
+    error, line = refused(doc, tmp_path)
+    assert error.key_path == "relations[1].match"
+    assert "source.edge_files[0].relation_column cannot tell their rows apart" in line
+    doc["relations"][1]["match"] = "likes"
+    assert len(spec_from_dict(doc, base_dir=tmp_path).relations) == 2

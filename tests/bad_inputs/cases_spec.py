@@ -653,3 +653,38 @@ for key in ("bundle", "snapshot", "report", "junit"):
         "no such user",
         TABLE,
     )
+
+# --- rows told apart by a column, but two declared things share the value ----------------------
+
+BY_COLUMN = _edit(
+    TABLE,
+    "source.vertex_files.0",
+    {"path": "people.csv", "id_column": "ref", "type_column": "team"},
+)
+add(
+    "type-column-shared-match",
+    _edit(BY_COLUMN, "vertex_types.robot", {"match": "person"}),
+    "vertex_types.robot.match",
+    "cannot tell their rows apart",
+    TABLE,
+)
+add(
+    "relation-column-shared-match",
+    _edit(
+        _edit(
+            TABLE,
+            "source.edge_files.0",
+            {
+                "path": "knows.csv",
+                "source_column": "a",
+                "target_column": "b",
+                "relation_column": "a",
+            },
+        ),
+        "relations.1",
+        {"from": "person", "name": "likes", "to": "person", "match": "knows"},
+    ),
+    "relations[1].match",
+    "cannot tell their rows apart",
+    TABLE,
+)
