@@ -194,7 +194,9 @@ def check_severities(spec: PipelineSpec) -> None:
             raise SpecError(
                 f"unknown rule id {quote_value(rule_id)}{guess}",
                 key_path=f"checks.severity.{rule_id}",
-                hint=None if guess else f"rule ids are: {listed(RULES, limit=280)}",
+                hint=None
+                if guess
+                else f"rule ids (all in the README's Checks table): {listed(RULES, limit=200)}",
             )
 
 

@@ -65,8 +65,9 @@ class GraphmillError(Exception):
             parts.append(self.file if self.line is None else f"{self.file}:{self.line}")
         elif self.line is not None:
             parts.append(f"line {self.line}")
-        if self.key_path:
-            parts.append(self.key_path)
+        if self.key_path:  # a key path built from a huge key stays short too
+            path = self.key_path
+            parts.append(path if len(path) <= 120 else path[:119] + "…")
         if self.record:
             parts.append(f"record {self.record}")
         return ", ".join(parts)

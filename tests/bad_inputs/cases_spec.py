@@ -272,7 +272,7 @@ add(
     "xref-severity-rule-far",
     _edit(TABLE, "checks.severity", {"zzz": "error"}),
     "checks.severity.zzz",
-    "rule ids are",
+    "rule ids (all in the README",
     TABLE,
 )
 add(
@@ -686,5 +686,19 @@ add(
     ),
     "relations[1].match",
     "cannot tell their rows apart",
+    TABLE,
+)
+add(
+    "huge-rule-id",
+    _edit(TABLE, "checks.severity", {"z" * 1_000_000: "error"}),
+    "checks.severity.zzzz",
+    "unknown rule id",
+    TABLE,
+)
+add(
+    "huge-contract-relation",
+    _edit(TABLE, "checks.expect.relations", {f"person.{'k' * 1_000_000}.person": {}}),
+    "checks.expect.relations.person.kkk",
+    "undeclared relation",
     TABLE,
 )
