@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 from collections.abc import Iterable, Mapping
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -128,8 +129,11 @@ def conform(column: pa.Array | pa.ChunkedArray, target: pa.DataType) -> pa.Array
         inner = conform(column, target.value_type)
         if isinstance(inner, pa.ChunkedArray):
             inner = inner.combine_chunks()
-        offsets = pa.array(range(len(inner) + 1), pa.int32())
-        wrapped = pa.ListArray.from_arrays(offsets, inner, mask=inner.is_null())
+        # a missing value becomes a missing list with no child slot, so that flattening and
+        # parent indices agree (a masked slot over a child would count in one, not the other)
+        present = np.asarray(inner.is_valid().to_numpy(zero_copy_only=False), dtype=np.int32)
+        offsets = pa.array(np.concatenate([[0], np.cumsum(present)]).astype(np.int32))
+        wrapped = pa.ListArray.from_arrays(offsets, inner.drop_null(), mask=inner.is_null())
         return wrapped.cast(target)
     if pa.types.is_string(target) and not pa.types.is_string(column.type):
         if pa.types.is_timestamp(column.type):

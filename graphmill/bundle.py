@@ -38,7 +38,6 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from graphmill._atomic import sha256_file
-from graphmill._output_kinds import read_stale_note
 from graphmill._bundle_checks import (
     MAX_MANIFEST_BYTES,
     capped,
@@ -49,6 +48,7 @@ from graphmill._bundle_checks import (
     read_bounded,
     short_value,
 )
+from graphmill._output_kinds import read_stale_note
 from graphmill.errors import BundleIntegrityError, InputError, require
 from graphmill.spec import RelationKey
 

@@ -8,6 +8,7 @@ these by :func:`map_exceptions`, so no traceback reaches a user.
 from __future__ import annotations
 
 import contextlib
+import reprlib
 from collections.abc import Iterator
 from enum import IntEnum
 from typing import Any
@@ -64,19 +65,20 @@ class GraphmillError(Exception):
             parts.append(self.file if self.line is None else f"{self.file}:{self.line}")
         elif self.line is not None:
             parts.append(f"line {self.line}")
-        if self.key_path:
-            parts.append(self.key_path)
+        if self.key_path:  # a key path built from a huge key stays short too
+            path = self.key_path
+            parts.append(path if len(path) <= 120 else path[:119] + "…")
         if self.record:
             parts.append(f"record {self.record}")
         return ", ".join(parts)
 
     def one_line(self) -> str:
         """The message as one line: location, problem, advice."""
-        text = self.message.rstrip(".")
+        text = _sentence(self.message)
         where = self.location
-        out = f"{where}: {text}." if where else f"{text}."
+        out = f"{where}: {text}" if where else text
         if self.hint:
-            out += f" {self.hint.rstrip('.')}."
+            out += f" {_sentence(self.hint)}"
         return " ".join(out.split())
 
     def to_dict(self) -> dict[str, Any]:
@@ -95,6 +97,41 @@ class GraphmillError(Exception):
 
     def __str__(self) -> str:
         return self.one_line()
+
+
+#: The longest a quoted value may be in a message, in characters, before it is cut.
+QUOTE_LIMIT = 80
+
+
+def quote_value(value: Any, limit: int = QUOTE_LIMIT) -> str:
+    """``repr(value)`` for a message, cut to about ``limit`` characters with an ellipsis.
+
+    Long strings are cut before ``repr`` so that a 5 MB value costs no 5 MB copy.
+
+    >>> quote_value("abc")
+    "'abc'"
+    >>> quote_value("x" * 100, limit=10)
+    "'xxxxxxxxx…'"
+    """
+    if isinstance(value, str | bytes) and len(value) > limit:
+        cut = value[: limit - 1]
+        return repr(cut)[:-1] + "…" + repr(cut)[-1]
+    text = repr(value) if not isinstance(value, dict | list | tuple) else _short_repr(value, limit)
+    return text if len(text) <= limit else text[: limit - 1] + "…"
+
+
+def _short_repr(value: Any, limit: int) -> str:
+    """repr of a container without rendering more than about ``limit`` characters of it."""
+    shortener = reprlib.Repr()
+    shortener.maxstring = shortener.maxother = limit
+    shortener.maxlevel = 3
+    return shortener.repr(value)
+
+
+def _sentence(text: str) -> str:
+    """``text`` ending in one full stop (or its own question mark)."""
+    text = text.rstrip(".")
+    return text if text.endswith(("?", "!")) else f"{text}."
 
 
 class SpecError(GraphmillError):

@@ -6,16 +6,15 @@
 
 from __future__ import annotations
 
-import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, NamedTuple
 
-import yaml
-
-from graphmill._output_paths import check_output_paths, expand_path
-from graphmill._schemas import schema_validator
-from graphmill.errors import SourceUnavailableError, SpecError
+from graphmill._output_paths import check_output_paths
+from graphmill._spec_checks import cross_check, refuse_nan
+from graphmill._spec_explain import check_against_schema
+from graphmill._spec_yaml import read_spec_document
+from graphmill.errors import SpecError, quote_value
 
 RESERVED_COLUMNS = ("vertex_id", "source_id", "target_id")
 
@@ -130,7 +129,8 @@ class RdfOptions:
         if "://" in term or term.startswith("urn:"):
             return term
         raise SpecError(
-            f"{term!r} is not a full IRI and its prefix {prefix!r} is not declared",
+            f"{quote_value(term)} is not a full IRI and its prefix {quote_value(prefix)} is "
+            "not declared",
             hint="declare it under rdf.prefixes or write the full IRI in <...>",
         )
 
@@ -174,23 +174,14 @@ class PipelineSpec:
 
 
 def load_spec(path: str | Path) -> PipelineSpec:
-    """Read, validate and cross-check a spec file."""
+    """Read, validate and cross-check a spec file (UTF-8, an optional byte-order mark).
+
+    Raises :class:`SpecError` (exit 2) naming the file, and the line or key path, for a
+    missing or unreadable file, bytes that are not UTF-8, YAML that does not parse, and
+    every schema or cross-reference problem.
+    """
     file = Path(path)
-    try:
-        text = file.read_text(encoding="utf-8")
-    except FileNotFoundError as exc:
-        raise SpecError("spec file not found", file=str(file), hint="check the path") from exc
-    except (OSError, UnicodeDecodeError) as exc:
-        raise SourceUnavailableError(f"cannot read the spec: {exc}", file=str(file)) from exc
-    try:
-        document = yaml.safe_load(text)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        raise SpecError(
-            f"not valid YAML: {getattr(exc, 'problem', exc)}",
-            file=str(file),
-            line=(mark.line + 1) if mark is not None else None,
-        ) from exc
+    document = read_spec_document(file)
     return spec_from_dict(document, base_dir=file.resolve().parent, spec_file=file)
 
 
@@ -199,9 +190,10 @@ def spec_from_dict(
 ) -> PipelineSpec:
     """Validate a spec given as a mapping (as parsed from YAML)."""
     where = str(spec_file) if spec_file else None
-    _check_against_schema(document, where)
+    refuse_nan(document, where)
+    doc: dict[str, Any] = _yaml_words(document)
+    check_against_schema(doc, where)
     base = (base_dir or Path.cwd()).resolve()
-    doc: dict[str, Any] = document
     rdf_doc = doc.get("rdf", {})
     graphs = rdf_doc.get("graphs", "default")
     rdf = RdfOptions(
@@ -252,15 +244,19 @@ def spec_from_dict(
         only_labeled=split_doc.get("only_labeled", True),
     )
     out = doc["output"]
-    bundle = _absolute(out["bundle"], base)
-    snapshot = _absolute(out["snapshot"], base) if "snapshot" in out else Path(f"{bundle}.snapshot")
+    bundle = _absolute(out["bundle"], base, "output.bundle", where)
+    snapshot = (
+        _absolute(out["snapshot"], base, "output.snapshot", where)
+        if "snapshot" in out
+        else Path(f"{bundle}.snapshot")
+    )
     output = OutputSpec(
         snapshot=snapshot,
         bundle=bundle,
-        report=_absolute(out["report"], base)
+        report=_absolute(out["report"], base, "output.report", where)
         if "report" in out
         else Path(f"{snapshot}.report.json"),
-        junit=_absolute(out["junit"], base) if "junit" in out else None,
+        junit=_absolute(out["junit"], base, "output.junit", where) if "junit" in out else None,
     )
     checks_doc = doc.get("checks", {})
     spec = PipelineSpec(
@@ -289,13 +285,22 @@ def spec_from_dict(
         spec_file=spec_file,
         raw=doc,
     )
-    _cross_check(spec, where)
+    cross_check(spec, where)
     check_output_paths(spec, where)
     return spec
 
 
-def _absolute(path: str, base: Path) -> Path:
-    return expand_path(path, base)
+def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:
+    try:
+        p = Path(path).expanduser()
+    except RuntimeError:  # ~name of a user this machine does not know
+        raise SpecError(
+            f"cannot expand {quote_value(path)}: no such user's home folder",
+            file=where,
+            key_path=key,
+            hint="write the path without ~user",
+        ) from None
+    return p if p.is_absolute() else base / p
 
 
 def _properties(doc: dict[str, Any]) -> tuple[PropertySpec, ...]:
@@ -313,95 +318,14 @@ def _properties(doc: dict[str, Any]) -> tuple[PropertySpec, ...]:
     )
 
 
-def _key_path(parts: Any) -> str:
-    out = ""
-    for part in parts:
-        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
-    return out or "(top level)"
-
-
-def _check_against_schema(document: Any, where: str | None) -> None:
-    if not isinstance(document, dict):
-        raise SpecError("the spec must be a YAML mapping at the top level", file=where)
-    validator = schema_validator("spec")
-    errors = sorted(validator.iter_errors(document), key=lambda e: (len(e.path), list(e.path)))
-    if not errors:
-        return
-    error = _most_useful(errors)
-    raise SpecError(_explain(error), file=where, key_path=_key_path(error.absolute_path))
-
-
-def _most_useful(errors: list[Any]) -> Any:
-    """Prefer an unknown-key error, then the deepest error; descend into oneOf/allOf context."""
-    for err in errors:
-        if err.validator in ("additionalProperties", "unevaluatedProperties"):
-            return err
-    deepest = max(errors, key=lambda e: len(e.absolute_path))
-    while deepest.context:
-        deepest = max(deepest.context, key=lambda e: len(e.absolute_path))
-    return deepest
-
-
-def _explain(error: Any) -> str:
-    if error.validator in ("additionalProperties", "unevaluatedProperties"):
-        allowed = sorted(error.schema.get("properties", {}))
-        extra = [k for k in error.instance if k not in allowed]
-        bad = extra[0] if extra else "?"
-        close = difflib.get_close_matches(bad, allowed, n=1)
-        guess = f"; did you mean {close[0]!r}?" if close else ""
-        return f"unknown key {bad!r}{guess} (expected one of: {', '.join(allowed)})"
-    if error.validator == "required":
-        return f"missing required key: {error.message.split(' ')[0]}"
-    if error.validator == "enum":
-        return f"{error.instance!r} is not one of {', '.join(map(repr, error.validator_value))}"
-    if error.validator == "pattern":
-        expected = error.schema.get("description", error.validator_value)
-        return f"{error.instance!r} does not have the expected form ({expected})"
-    return error.message
-
-
-def _cross_check(spec: PipelineSpec, where: str | None) -> None:
-    def fail(message: str, key_path: str) -> None:
-        raise SpecError(message, file=where, key_path=key_path)
-
-    types = spec.vertex_types
-    seen: set[RelationKey] = set()
-    for i, rel in enumerate(spec.relations):
-        for side, name in (("from", rel.key.source_type), ("to", rel.key.target_type)):
-            if name not in types:
-                fail(
-                    f"relation refers to undeclared vertex type {name!r}", f"relations[{i}].{side}"
-                )
-        if rel.key in seen:
-            fail(f"relation {rel.key.dotted} is declared twice", f"relations[{i}]")
-        seen.add(rel.key)
-    for vt_name in spec.raw.get("features", {}):
-        if vt_name not in types:
-            fail(f"features for undeclared vertex type {vt_name!r}", f"features.{vt_name}")
-    for i, feat in enumerate(spec.features):
-        if types[feat.vertex_type].property(feat.property) is None:
-            fail(
-                f"feature uses property {feat.property!r}, which vertex type "
-                f"{feat.vertex_type!r} does not declare",
-                f"features.{feat.vertex_type}[{i}].property",
-            )
-    if spec.label is not None:
-        if spec.label.vertex_type not in types:
-            fail(f"label on undeclared vertex type {spec.label.vertex_type!r}", "label.vertex_type")
-        if types[spec.label.vertex_type].property(spec.label.property) is None:
-            fail(f"label property {spec.label.property!r} is not declared", "label.property")
-    total = spec.split.train + spec.split.validation + spec.split.test
-    if abs(total - 1.0) > 1e-9:
-        fail(f"split fractions add up to {total:g}, not 1", "split.fractions")
-    if spec.split.method == "stratified" and spec.label is None and "split" in spec.raw:
-        fail("a stratified split needs a label", "split.method")
-    if spec.source_kind in ("rdf-file", "rdf-store"):
-        try:
-            for vt in types.values():
-                spec.rdf.expand(vt.match)
-                for prop in vt.properties:
-                    spec.rdf.expand(prop.source_key)
-            for rel in spec.relations:
-                spec.rdf.expand(rel.match)
-        except SpecError as exc:
-            fail(exc.message, "rdf.prefixes")
+def _yaml_words(document: Any) -> Any:
+    """``document`` with the YAML 1.1 booleans users write for words put back as words:
+    a bare ``off`` under ``checks.severity`` reads as ``false`` and means ``off``."""
+    checks = document.get("checks") if isinstance(document, dict) else None
+    severity = checks.get("severity") if isinstance(checks, dict) else None
+    if not isinstance(checks, dict) or not isinstance(severity, dict):
+        return document
+    if not any(v is False for v in severity.values()):
+        return document
+    fixed = {k: ("off" if v is False else v) for k, v in severity.items()}
+    return {**document, "checks": {**checks, "severity": fixed}}

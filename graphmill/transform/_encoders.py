@@ -28,7 +28,6 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from graphmill._columns import DATETIME_TYPE, is_multi, kind_of_type
-from graphmill._text import plain
 
 MICROS_PER_DAY = 86_400_000_000
 # A spread this small is rounding noise, not information; treated as zero (then as 1).
@@ -79,7 +78,10 @@ def datetime_values(column: pa.Array) -> pa.Array:
     if pa.types.is_date(t):
         column = column.cast(pa.timestamp("us"))
     elif pa.types.is_string(t) or pa.types.is_large_string(t):
-        column = _cast_or_locate(column, pa.timestamp("us", tz="UTC"))
+        try:  # text without an offset is taken as UTC, like a naive timestamp
+            column = column.cast(pa.timestamp("us"))
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            column = _cast_or_locate(column, pa.timestamp("us", tz="UTC"))
     elif not pa.types.is_timestamp(t):
         raise BadValue(f"{kind_of_type(t)} values are not datetimes")
     if column.type.tz is None:

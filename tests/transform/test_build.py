@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 import graphmill.transform
 from graphmill.bundle import load_bundle
 from graphmill.errors import InputError, SpecError
-from graphmill.spec import RelationKey
+from graphmill.spec import RelationKey, spec_from_dict
 from graphmill.transform import build_bundle
 
 from ._snapshots import bundle_bytes, publish, spec_document
@@ -250,11 +250,10 @@ def test_add_reverse_refuses_a_name_the_spec_already_uses(tmp_path: Path) -> Non
         [{"from": "a", "name": "r", "to": "b"}, {"from": "b", "name": "rev_r", "to": "a"}],
         edges={"add_reverse": True},
     )
-    tables = {"a": pa.table({"vertex_id": ["1"]}), "b": pa.table({"vertex_id": ["2"]})}
-    spec, snapshot = publish(document, tables)
-    with pytest.raises(SpecError, match=r"would add b\.rev_r\.a"):
-        build_bundle(spec, snapshot)
-    assert not spec.output.bundle.exists()
+    # refused when the spec is loaded, before anything is pulled or built
+    with pytest.raises(SpecError, match=r"would add b\.rev_r\.a") as caught:
+        spec_from_dict(document)
+    assert caught.value.key_path == "edges.add_reverse"
 
 
 def test_credentials_in_the_source_location_are_not_published() -> None:

@@ -147,6 +147,14 @@ def test_multi_hot_matches_python_sets() -> None:
     assert out.matrix[:, 4].tolist() == [0, 0, 1, 0, 0, 0]
 
 
+def test_multi_hot_of_a_single_valued_column_with_missing_values() -> None:
+    # each value is a one-element set; a missing value is a missing set (once an IndexError)
+    values = ["red", None, "blue", "red"]
+    out = encode(pa.table({"s": values}), [feature("s", "multi-hot")])
+    assert out.names == ["s=red", "s=blue", "s=<unknown>", "s__missing"]
+    assert out.matrix.tolist() == [[1, 0, 0, 0], [0, 0, 0, 1], [0, 1, 0, 0], [1, 0, 0, 0]]
+
+
 def test_boolean_zero_one_and_missing_is_zero() -> None:
     out = encode(pa.table({"b": [True, False, None]}), [feature("b", "boolean")])
     assert out.matrix.tolist() == [[1, 0], [0, 0], [0, 1]]
@@ -184,6 +192,19 @@ def test_dates_are_midnight_utc() -> None:
     )
     day = dt.date(2021, 3, 14)
     assert out.matrix[0, :3].tolist() == [day.weekday(), 0, (day - dt.date(1970, 1, 1)).days]
+
+
+def test_iso_text_without_an_offset_is_utc_and_with_one_is_converted() -> None:
+    # reference: Python's datetime.fromisoformat; naive text is taken as UTC
+    for texts in (
+        ["2021-03-14T15:00:00", "2021-03-14T23:30:00"],
+        ["2021-03-14T15:00:00+02:00", "2021-03-14T15:00:00Z"],
+    ):
+        hour = feature("t", "datetime", datetime_parts=("hour",))
+        out = encode(pa.table({"t": texts}), [hour])
+        parsed = [dt.datetime.fromisoformat(t) for t in texts]
+        want = [(p if p.tzinfo is None else p.astimezone(UTC)).hour for p in parsed]
+        assert out.matrix[:, 0].tolist() == want
 
 
 def test_negative_value_for_log_is_a_one_line_error_naming_the_record() -> None:

@@ -3,6 +3,7 @@ manifest summary, and severity overrides."""
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import re
@@ -16,6 +17,7 @@ from rich.console import Console
 import graphmill.validate as validate
 from graphmill._schemas import load_schema, validate_document
 from graphmill.errors import InputError, SpecError
+from graphmill.spec import CheckSpec
 from graphmill.validate import rule_catalogue, run_checks
 from graphmill.validate._findings import Evaluation, Finding, subject_label
 from graphmill.validate._junit import junit_xml, xml_text
@@ -185,7 +187,12 @@ def test_a_snapshot_pulled_under_another_spec_is_refused_in_one_line(tmp_path):
 
 
 def test_unknown_rule_id_in_overrides_is_a_spec_error_with_a_suggestion(tmp_path):
-    spec = make_spec(tmp_path, checks={"severity": {"self-lop": "error"}})
+    with pytest.raises(SpecError) as at_load:
+        make_spec(tmp_path, checks={"severity": {"self-lop": "error"}})
+    assert at_load.value.key_path == "checks.severity.self-lop"
+    # a spec built without load_spec (dataclasses.replace) is still refused when checked
+    spec = make_spec(tmp_path)
+    spec = dataclasses.replace(spec, checks=CheckSpec(severity={"self-lop": "error"}))
     with pytest.raises(SpecError) as caught:
         validate.resolve_severities(spec)
     error = caught.value

@@ -347,9 +347,8 @@ def test_unknown_extension(tmp_path, kind):
 def test_relation_properties_are_refused(tmp_path, kind):
     shutil.copy(DATA, tmp_path / "people.trig")
     relation = {**RELATIONS[0], "properties": {"since": {"from": "ex:since"}}}
-    spec = rdf_spec(tmp_path, kind, ["people.trig"], {"Person": PERSON}, [relation])
-    with pytest.raises(SpecError) as caught:
-        open_source(spec)
+    with pytest.raises(SpecError) as caught:  # refused when the spec is loaded
+        open_source(rdf_spec(tmp_path, kind, ["people.trig"], {"Person": PERSON}, [relation]))
     assert caught.value.key_path == "relations[0].properties"
 
 
