@@ -112,9 +112,7 @@ class Pipeline:
         log.info("pull: %s source into %s", self.spec.source_kind, self.spec.output.snapshot)
         snapshot = self.spec.output.snapshot
         with output_errors("output.snapshot", snapshot, Path(f"{snapshot}.staging")):
-            info = _pull(
-                self.spec, open_source(self.spec), progress=self.progress, fresh=fresh
-            )
+            info = _pull(self.spec, open_source(self.spec), progress=self.progress, fresh=fresh)
         log.info(
             "pull: %s (%d resumed), %s",
             plural(info.units_total, "work unit"),
