@@ -295,7 +295,8 @@ def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:
         p = Path(path).expanduser()
     except RuntimeError:  # ~name of a user this machine does not know
         raise SpecError(
-            f"cannot expand {quote_value(path)}: no such user's home folder",
+            f"cannot expand {quote_value(path)}: {quote_value(path.split('/', 1)[0])} names no "
+            "user on this machine",
             file=where,
             key_path=key,
             hint="write the path without ~user",

@@ -211,4 +211,4 @@ def test_a_negative_value_under_log_encoding_prints_a_plain_number(tmp_path, wri
     )
     done = run_cli("run", str(spec))
     assert "np.float64" not in done.stderr + done.stdout
-    assert "value -5.0 is negative" in done.stderr, done.stderr
+    assert "value -5 is negative" in done.stderr, done.stderr

@@ -650,7 +650,7 @@ for key in ("bundle", "snapshot", "report", "junit"):
         f"output-{key}-unknown-user",
         _edit(TABLE, f"output.{key}", "~no_such_user_gm/x"),
         f"output.{key}",
-        "no such user",
+        "names no user",
         TABLE,
     )
 

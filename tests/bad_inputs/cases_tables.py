@@ -447,7 +447,7 @@ for name, props, says in [
     (
         "date-format-without-kind",
         "{n_date: {date_format: '%d/%m/%Y'}}",
-        "missing required key: 'kind'",
+        "missing required key 'kind'",
     ),
     (
         "date-format-without-directive",
