@@ -29,7 +29,9 @@ from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey, load_spec
 
 _LAZY = {
+    "Comparison": "graphmill.compare",
     "GraphBundle": "graphmill.bundle",
+    "compare_bundles": "graphmill.compare",
     "inspect_bundle": "graphmill.bundle",
     "load_bundle": "graphmill.bundle",
 }
@@ -45,6 +47,7 @@ __all__ = [
     "AuthenticationError",
     "BundleIntegrityError",
     "ChecksFailedError",
+    "Comparison",
     "ExitCode",
     "GraphBundle",
     "GraphSource",
@@ -68,6 +71,7 @@ __all__ = [
     "__version__",
     "build",
     "check",
+    "compare_bundles",
     "inspect_bundle",
     "load_bundle",
     "load_spec",

@@ -27,7 +27,12 @@ from graphmill.spec import PipelineSpec, RelationKey
 from graphmill.transform._edges import EdgeArrays, apply_edge_policy
 from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
-from graphmill.transform._pseudonyms import SCHEME, pseudonym_key, pseudonymizer
+from graphmill.transform._pseudonyms import (
+    SCHEME,
+    key_fingerprint,
+    pseudonym_key,
+    pseudonymizer,
+)
 from graphmill.transform._vertices import add_vertex_type
 from graphmill.transform._writer import BundleContent, write_bundle
 
@@ -107,6 +112,7 @@ def build_bundle(
                 "scheme": SCHEME if key is not None else None,
                 "key_env": spec.pseudonym_key_env if key is not None else None,
                 "index_order": "pseudonym" if key is not None else "vertex_id",
+                "key_fingerprint": key_fingerprint(key) if key is not None else None,
             },
             "counts": {
                 "vertices": info.vertex_counts,
