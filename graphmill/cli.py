@@ -23,8 +23,12 @@ COMMANDS = {
     "build": "turn the snapshot into the bundle (Parquet tables, tensors, manifest)",
     "run": "pull, check, and build if the checks pass",
     "inspect": "summarise a bundle and verify its hashes",
-    "schema": "print one of the shipped JSON Schemas (spec, report, manifest, snapshot)",
+    "schema": "print one of the shipped JSON Schemas (spec, report, manifest, snapshot, ...)",
+    "compare": "compare two versions of a bundle; exit 1 if the spec's drift gate fails",
+    "lineage": "verify a chain of bundles, oldest first, each built after the one before",
+    "card": "write a bundle's dataset card: one self-contained HTML page",
 }
+VERSION_COMMANDS = ("compare", "lineage", "card")  # arguments and dispatch: graphmill.compare
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -42,8 +46,14 @@ def _parser() -> argparse.ArgumentParser:
         cmd = sub.add_parser(name, help=text, description=text, parents=[common])
         if name == "inspect":
             cmd.add_argument("bundle", help="bundle folder")
+        elif name in VERSION_COMMANDS:
+            from graphmill.compare._cli import add_arguments
+
+            add_arguments(name, cmd)
         elif name == "schema":
-            cmd.add_argument("name", choices=["spec", "report", "manifest", "snapshot"])
+            from graphmill._schemas import SCHEMA_NAMES
+
+            cmd.add_argument("name", choices=list(SCHEMA_NAMES))
         else:
             cmd.add_argument("spec", help="pipeline spec (YAML)")
         if name == "check":
@@ -101,6 +111,10 @@ def _dispatch(args: argparse.Namespace) -> int:
 
         print(json.dumps(load_schema(args.name), indent=2))
         return ExitCode.OK
+    if args.command in VERSION_COMMANDS:
+        from graphmill.compare._cli import run_command
+
+        return run_command(args, console)
     if args.command == "inspect":
         from graphmill.bundle import inspect_bundle
 

@@ -65,13 +65,8 @@ def counts_drift(a: dict[str, int], b: dict[str, int]) -> dict[str, Any]:
     appeared = sorted(set(b) - set(a))
     vanished = sorted(set(a) - set(b))
     n_a, n_b = max(sum(a.values()), 1), max(sum(b.values()), 1)
-    moves = sorted(
-        (
-            {"category": k, "old_share": a.get(k, 0) / n_a, "new_share": b.get(k, 0) / n_b}
-            for k in set(a) | set(b)
-        ),
-        key=lambda m: (-abs(m["new_share"] - m["old_share"]), m["category"]),
-    )[:5]
+    shares = {k: (a.get(k, 0) / n_a, b.get(k, 0) / n_b) for k in set(a) | set(b)}
+    largest = sorted(shares, key=lambda k: (-abs(shares[k][1] - shares[k][0]), k))[:5]
     shift = share_shift(a, b)
     return {
         "new_categories": appeared[:LISTED],
@@ -81,8 +76,12 @@ def counts_drift(a: dict[str, int], b: dict[str, int]) -> dict[str, Any]:
         "total_variation": round(shift["total_variation"], 6),
         "psi": round(shift["psi"], 6),
         "largest_shifts": [
-            {**m, "old_share": round(m["old_share"], 6), "new_share": round(m["new_share"], 6)}
-            for m in moves
+            {
+                "category": k,
+                "old_share": round(shares[k][0], 6),
+                "new_share": round(shares[k][1], 6),
+            }
+            for k in largest
         ],
     }
 

@@ -18,7 +18,9 @@ PSI_BINS = 10
 PSI_FLOOR = 1e-4  # share given to an empty bin so that ln(a/e) stays finite
 
 
-def psi_from_shares(expected: Sequence[float], actual: Sequence[float]) -> float:
+def psi_from_shares(
+    expected: Sequence[float] | np.ndarray, actual: Sequence[float] | np.ndarray
+) -> float:
     """Population stability index: sum over bins of (a - e) * ln(a / e).
 
     ``expected`` are the reference (old) shares, ``actual`` the new ones; empty bins get

@@ -8,7 +8,6 @@ from typing import Any
 import pyarrow as pa
 
 from graphmill.transform import build_bundle
-
 from tests.transform._snapshots import publish, spec_document
 
 KEEP_ALL = {"duplicates": "keep", "self_loops": "keep", "undirected": "as-is"}

@@ -13,7 +13,6 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from graphmill import compare_bundles
-
 from tests.compare._versions import build_version
 
 POOL = [f"p{i}" for i in range(12)] + ["ü", "€x"]
@@ -26,11 +25,13 @@ colours = st.one_of(st.none(), st.sampled_from(["red", "blue", "green"]))
 def version(draw: Any) -> dict[str, Any]:
     people = draw(st.dictionaries(st.sampled_from(POOL), st.tuples(scores, colours), max_size=10))
     places = draw(st.lists(st.sampled_from(PLACES), unique=True, max_size=4))
-    pool = list(people) + ["ghost"]  # an unknown endpoint: dropped as dangling by the build
+    pool = [*people, "ghost"]  # an unknown endpoint: dropped as dangling by the build
     pair = st.tuples(st.sampled_from(pool), st.sampled_from(pool))
     knows = draw(st.lists(pair, max_size=15))
     visits = draw(
-        st.lists(st.tuples(st.sampled_from(pool), st.sampled_from(places + ["nowhere"])), max_size=10)
+        st.lists(
+            st.tuples(st.sampled_from(pool), st.sampled_from([*places, "nowhere"])), max_size=10
+        )
     )
     return {"people": people, "places": places, "knows": knows, "visits": visits}
 
