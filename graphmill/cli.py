@@ -62,7 +62,12 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument(
                 "--even-if-failing",
                 action="store_true",
-                help="build the bundle even when checks report errors",
+                help="build the bundle even when checks (or the drift gate) report errors",
+            )
+            cmd.add_argument(
+                "--previous",
+                metavar="BUNDLE",
+                help="compare with this earlier version (overrides drift_gate.previous)",
             )
     return parser
 
@@ -145,10 +150,10 @@ def _dispatch(args: argparse.Namespace) -> int:
                 report.render(console)
             return ExitCode.OK if report.passed else ExitCode.CHECKS_FAILED
         if args.command == "build":
-            built = pipeline.build(even_if_failing=args.even_if_failing)
+            built = pipeline.build(even_if_failing=args.even_if_failing, previous=args.previous)
             _emit(args, console, built.to_dict(), _render_build)
             return ExitCode.OK
-        result = pipeline.run(even_if_failing=args.even_if_failing)
+        result = pipeline.run(even_if_failing=args.even_if_failing, previous=args.previous)
         if args.json:
             print(json.dumps(result.to_dict(), sort_keys=True))
         else:

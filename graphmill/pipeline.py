@@ -82,8 +82,17 @@ class Pipeline:
             report.write_junit(self.spec.output.junit)
         return report
 
-    def build(self, *, report: Report | None = None, even_if_failing: bool = False) -> BuildInfo:
-        """Build the bundle from the snapshot. Refuses when the checks fail, unless asked."""
+    def build(
+        self,
+        *,
+        report: Report | None = None,
+        even_if_failing: bool = False,
+        previous: str | Path | None = None,
+    ) -> BuildInfo:
+        """Build the bundle from the snapshot. Refuses when the checks fail, unless asked.
+
+        ``previous`` (or the spec's ``drift_gate.previous``): the version to compare with; a
+        failing drift gate publishes nothing, unless ``even_if_failing``."""
         from graphmill.transform import build_bundle
         from graphmill.validate import run_checks
 
@@ -96,17 +105,24 @@ class Pipeline:
                 "checks.severity, or build with --even-if-failing",
             )
         return build_bundle(
-            self.spec, snapshot, checks_summary=report.summary(), progress=self.progress
+            self.spec,
+            snapshot,
+            checks_summary=report.summary(),
+            progress=self.progress,
+            previous=Path(previous) if previous is not None else None,
+            even_if_drifting=even_if_failing,
         )
 
-    def run(self, *, even_if_failing: bool = False) -> RunResult:
+    def run(
+        self, *, even_if_failing: bool = False, previous: str | Path | None = None
+    ) -> RunResult:
         """Pull, check and, if the checks pass (or ``even_if_failing``), build."""
         started = time.perf_counter()
         pulled = self.pull()
         report = self.check()
         built = None
         if report.passed or even_if_failing:
-            built = self.build(report=report, even_if_failing=even_if_failing)
+            built = self.build(report=report, even_if_failing=even_if_failing, previous=previous)
         return RunResult(pulled, report, built, time.perf_counter() - started)
 
 
