@@ -164,6 +164,9 @@ def build_bundle(
                 even_if_drifting=even_if_drifting,
             )
             info.drift = comparison.document["gate"]
+        from graphmill.card import CARD_FILE, card_html
+
+        (scratch / CARD_FILE).write_text(card_html(scratch, manifest), encoding="utf-8")
     info.seconds = time.perf_counter() - started
     return info
 
