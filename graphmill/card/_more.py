@@ -82,7 +82,12 @@ def provenance_section(m: dict[str, Any]) -> str:
             "identifiers",
             "pseudonyms (" + str(ids["scheme"]) + ")" if ids["pseudonymized"] else "original IDs",
         ],
-        ["manifest sha256", Raw(f"<span class='hash'>{escape(m['manifest_sha256'])}</span>")],
+        [
+            "manifest sha256",
+            _hash(m.get("manifest_sha256"))
+            if m.get("manifest_sha256")
+            else "in manifest.json, which hashes this card too (graphmill inspect shows it)",
+        ],
         [
             "spec sha256",
             Raw(f"<span class='hash'>{escape(lineage.get('spec_sha256', '–'))}</span>"),

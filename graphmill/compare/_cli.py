@@ -27,7 +27,11 @@ def add_arguments(name: str, cmd: argparse.ArgumentParser) -> None:
         cmd.add_argument("bundles", nargs="+", help="bundle folders, oldest first")
     else:
         cmd.add_argument("bundle", help="bundle folder")
-        cmd.add_argument("--out", metavar="PATH", help="where to write (default: BUNDLE/card.html)")
+        cmd.add_argument(
+            "--out",
+            metavar="PATH",
+            help="where to write (default: BUNDLE.card.html beside the folder)",
+        )
 
 
 def run_command(args: argparse.Namespace, console: Any) -> int:

@@ -164,9 +164,9 @@ def build_bundle(
                 even_if_drifting=even_if_drifting,
             )
             info.drift = comparison.document["gate"]
-        from graphmill.card import CARD_FILE, card_html
+        from graphmill.card import seal_with_card
 
-        (scratch / CARD_FILE).write_text(card_html(scratch, manifest), encoding="utf-8")
+        seal_with_card(scratch, manifest)
     info.seconds = time.perf_counter() - started
     return info
 
