@@ -207,8 +207,12 @@ def multiset_overlap(a: np.ndarray, b: np.ndarray) -> int:
     """Size of the multiset intersection: sum over values of min(count in a, count in b)."""
     ua, ca = _runs(_sorted(a))
     ub, cb = _runs(_sorted(b))
-    _, ia, ib = np.intersect1d(ua, ub, assume_unique=True, return_indices=True)
-    return int(np.minimum(ca[ia], cb[ib]).sum())
+    if len(ua) == 0 or len(ub) == 0:
+        return 0
+    # both sorted: a binary search of each distinct value of a in b, no further sort
+    at = np.minimum(np.searchsorted(ub, ua), len(ub) - 1)
+    hit = ub[at] == ua
+    return int(np.minimum(ca[hit], cb[at[hit]]).sum())
 
 
 def column_values(path: Path, column: str) -> pa.ChunkedArray:
