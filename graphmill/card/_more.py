@@ -50,6 +50,22 @@ def comparison_section(m: dict[str, Any]) -> str:
             )
     if drift:
         body += table(["property", "kind", "PSI", "KS", "values changed"], drift)
+    label = c.get("label")
+    if label:
+        shares = ", ".join(
+            f"{escape(k)} {label['old'].get(k, 0):,} → {label['new'].get(k, 0):,}"
+            for k in sorted(set(label["old"]) | set(label["new"]))
+        )
+        body += (
+            f"<p>Classes of {escape(label['vertex_type'])}.{escape(label['property'])}: "
+            f"{shares} (total variation {label['total_variation']:.3f}).</p>"
+        )
+    for vt, e in c["vertex_types"].items():
+        if e.get("part_moves"):
+            body += (
+                f"<p>{e['part_moves']['changed']:,} of {e['kept']:,} kept {escape(vt)} vertices "
+                "are in another part than before.</p>"
+            )
     gate = c["gate"]
     word = "passed" if gate["passed"] else "failed"
     body += f"<p class='verdict {word}'>Drift gate {word}: {gate['evaluated']} limits evaluated"
