@@ -34,6 +34,8 @@ _LAZY = {
     "compare_bundles": "graphmill.compare",
     "inspect_bundle": "graphmill.bundle",
     "load_bundle": "graphmill.bundle",
+    "verify_lineage": "graphmill.compare",
+    "write_card": "graphmill.card",
 }
 
 
@@ -77,4 +79,6 @@ __all__ = [
     "load_spec",
     "pull",
     "run",
+    "verify_lineage",
+    "write_card",
 ]

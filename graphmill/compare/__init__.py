@@ -7,6 +7,7 @@ values drifted, with an optional gate (``drift_gate`` in the spec).
 """
 
 from graphmill.compare._compare import compare_bundles, compare_sides, open_side
+from graphmill.compare._lineage import verify_lineage
 from graphmill.compare._result import Comparison
 
-__all__ = ["Comparison", "compare_bundles", "compare_sides", "open_side"]
+__all__ = ["Comparison", "compare_bundles", "compare_sides", "open_side", "verify_lineage"]
