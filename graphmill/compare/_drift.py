@@ -14,7 +14,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from graphmill.compare._stats import ks_statistic, psi_numeric, share_shift, summary
+from graphmill.compare._stats import ks_counts, ks_statistic, psi_numeric, share_shift, summary
 
 LISTED = 20  # categories and findings listed by name before "and N more"
 
@@ -110,7 +110,7 @@ def label_drift(
 
 
 def degree_drift(old: np.ndarray, new: np.ndarray) -> dict[str, Any]:
-    ks = ks_statistic(old.astype(np.float64), new.astype(np.float64))
+    ks = ks_counts(old, new)
     return {
         "ks": None if ks is None else round(ks, 6),
         "old_mean": round(float(old.mean()), 6) if len(old) else None,

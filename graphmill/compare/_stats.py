@@ -61,6 +61,17 @@ def ks_statistic(old: np.ndarray, new: np.ndarray) -> float | None:
     return float(np.max(np.abs(cdf_a - cdf_b)))
 
 
+def ks_counts(old: np.ndarray, new: np.ndarray) -> float | None:
+    """:func:`ks_statistic` of two samples of small non-negative integers (degrees), from
+    their cumulative value counts: linear time, no sort."""
+    if len(old) == 0 or len(new) == 0:
+        return None
+    size = int(max(old.max(), new.max())) + 1
+    cdf_a = np.cumsum(np.bincount(old, minlength=size)) / len(old)
+    cdf_b = np.cumsum(np.bincount(new, minlength=size)) / len(new)
+    return float(np.max(np.abs(cdf_a - cdf_b)))
+
+
 def share_shift(old: dict[str, int], new: dict[str, int]) -> dict[str, float]:
     """Total variation distance (half the L1 distance of the shares) and PSI of two count maps.
 

@@ -12,12 +12,14 @@ from hypothesis import strategies as st
 from scipy.stats import ks_2samp
 
 from graphmill.compare._stats import (
+    ks_counts,
     ks_statistic,
     psi_from_shares,
     psi_numeric,
     quantile_edges,
     share_shift,
 )
+from graphmill.compare._tables import multiset_overlap
 
 samples = st.lists(st.integers(-20, 20).map(float), min_size=1, max_size=60).map(np.array)
 
@@ -83,3 +85,26 @@ def test_share_shift_total_variation() -> None:
 def test_empty_samples_have_no_statistic() -> None:
     assert ks_statistic(np.array([]), np.array([1.0])) is None
     assert psi_numeric(np.array([1.0]), np.array([])) is None
+
+
+@given(
+    st.lists(st.integers(0, 30), min_size=1, max_size=80).map(np.array),
+    st.lists(st.integers(0, 30), min_size=1, max_size=80).map(np.array),
+)
+@settings(max_examples=100, deadline=None)
+def test_ks_of_integer_counts_equals_the_general_statistic(a: np.ndarray, b: np.ndarray) -> None:
+    assert ks_counts(a, b) == pytest.approx(ks_statistic(a.astype(float), b.astype(float)))
+
+
+@given(
+    st.lists(st.integers(0, 9), max_size=40).map(np.array),
+    st.lists(st.integers(0, 9), max_size=40).map(np.array),
+)
+@settings(max_examples=100, deadline=None)
+def test_multiset_overlap_equals_counter_intersection(a: np.ndarray, b: np.ndarray) -> None:
+    from collections import Counter
+
+    expected = sum((Counter(a.tolist()) & Counter(b.tolist())).values())
+    assert multiset_overlap(a.astype(np.int64), b.astype(np.int64)) == expected
+    unique_a, unique_b = np.unique(a).astype(np.int64), np.unique(b).astype(np.int64)
+    assert multiset_overlap(unique_a, unique_b) == len(set(a.tolist()) & set(b.tolist()))
