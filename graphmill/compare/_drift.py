@@ -14,7 +14,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from graphmill.compare._stats import ks_counts, ks_statistic, psi_numeric, share_shift, summary
+from graphmill.compare._stats import ks_counts, ks_sorted, psi_sorted, share_shift, summary
 
 LISTED = 20  # categories and findings listed by name before "and N more"
 
@@ -39,8 +39,9 @@ def finite_values(column: pa.ChunkedArray) -> np.ndarray:
 
 
 def numeric_drift(old: pa.ChunkedArray, new: pa.ChunkedArray) -> dict[str, Any]:
-    a, b = finite_values(old), finite_values(new)
-    psi, ks = psi_numeric(a, b), ks_statistic(a, b)
+    a, b = np.sort(finite_values(old)), np.sort(finite_values(new))
+    psi = psi_sorted(a, b) if len(a) and len(b) else None
+    ks = ks_sorted(a, b) if len(a) and len(b) else None
     return {
         "psi": None if psi is None else round(psi, 6),
         "ks": None if ks is None else round(ks, 6),

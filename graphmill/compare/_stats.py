@@ -43,10 +43,16 @@ def psi_numeric(old: np.ndarray, new: np.ndarray, bins: int = PSI_BINS) -> float
     """PSI of ``new`` against ``old`` over ``bins`` quantile bins of ``old``; None if empty."""
     if len(old) == 0 or len(new) == 0:
         return None
+    return psi_sorted(np.sort(old), np.sort(new), bins)
+
+
+def psi_sorted(old: np.ndarray, new: np.ndarray, bins: int = PSI_BINS) -> float:
+    """:func:`psi_numeric` of two sorted, non-empty samples: bin counts by binary search of
+    the few bin edges, not of every value."""
     edges = quantile_edges(old, bins)
-    old_counts = np.bincount(np.searchsorted(edges, old, side="right"), minlength=len(edges) + 1)
-    new_counts = np.bincount(np.searchsorted(edges, new, side="right"), minlength=len(edges) + 1)
-    return psi_from_shares(old_counts / len(old), new_counts / len(new))
+    cuts_old = np.concatenate([[0], np.searchsorted(old, edges, side="right"), [len(old)]])
+    cuts_new = np.concatenate([[0], np.searchsorted(new, edges, side="right"), [len(new)]])
+    return psi_from_shares(np.diff(cuts_old) / len(old), np.diff(cuts_new) / len(new))
 
 
 def ks_statistic(old: np.ndarray, new: np.ndarray) -> float | None:
@@ -54,7 +60,11 @@ def ks_statistic(old: np.ndarray, new: np.ndarray) -> float | None:
     distribution functions (as ``scipy.stats.ks_2samp(...).statistic``); None if empty."""
     if len(old) == 0 or len(new) == 0:
         return None
-    a, b = np.sort(old), np.sort(new)
+    return ks_sorted(np.sort(old), np.sort(new))
+
+
+def ks_sorted(a: np.ndarray, b: np.ndarray) -> float:
+    """:func:`ks_statistic` of two sorted, non-empty samples."""
     points = np.concatenate([a, b])
     cdf_a = np.searchsorted(a, points, side="right") / len(a)
     cdf_b = np.searchsorted(b, points, side="right") / len(b)

@@ -81,25 +81,26 @@ def match_vertices(con: Any, old: BundleSide, new: BundleSide, vertex_type: str)
     key = _quoted(old.id_column(vertex_type))
     con.read_parquet(str(old.vertex_file(vertex_type))).to_view("gm_old_v", replace=True)
     con.read_parquet(str(new.vertex_file(vertex_type))).to_view("gm_new_v", replace=True)
+    shared = comparable_properties(old, new, vertex_type)
+    # one join: the index pairs and, per shared property, whether the value differs
+    flags = "".join(
+        f", o.{_quoted(p)} IS DISTINCT FROM n.{_quoted(p)} AS gm_changed_{i}"
+        for i, p in enumerate(shared)
+    )
     con.sql(
         "CREATE OR REPLACE TEMP TABLE gm_map AS SELECT o.index AS old_index, "
-        f"n.index AS new_index FROM gm_old_v o JOIN gm_new_v n ON o.{key} = n.{key}"
+        f"n.index AS new_index{flags} FROM gm_old_v o JOIN gm_new_v n ON o.{key} = n.{key}"
     )
-    index_map = con.sql("SELECT * FROM gm_map ORDER BY old_index").to_arrow_table()
+    index_map = con.sql(
+        "SELECT old_index, new_index FROM gm_map ORDER BY old_index"
+    ).to_arrow_table()
     index_map = index_map.cast(pa.schema([("old_index", pa.int64()), ("new_index", pa.int64())]))
     old_n = con.sql("SELECT count(*) FROM gm_old_v").fetchall()[0][0]
     new_n = con.sql("SELECT count(*) FROM gm_new_v").fetchall()[0][0]
-    shared = comparable_properties(old, new, vertex_type)
     changed: dict[str, int] = {}
     if shared:
-        counts = ", ".join(
-            f"count(*) FILTER (WHERE o.{_quoted(p)} IS DISTINCT FROM n.{_quoted(p)})"
-            for p in shared
-        )
-        row = con.sql(
-            f"SELECT {counts} FROM gm_map m JOIN gm_old_v o ON o.index = m.old_index "
-            "JOIN gm_new_v n ON n.index = m.new_index"
-        ).fetchall()[0]
+        sums = ", ".join(f"count(*) FILTER (WHERE gm_changed_{i})" for i in range(len(shared)))
+        row = con.sql(f"SELECT {sums} FROM gm_map").fetchall()[0]
         changed = {p: int(v) for p, v in zip(shared, row, strict=True)}
     return VertexMatch(
         int(old_n), int(new_n), index_map, changed, _part_moves(con, old, new, vertex_type)
