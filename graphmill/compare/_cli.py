@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -80,4 +81,7 @@ def _compare(args: argparse.Namespace, console: Any) -> int:
         print(json.dumps(result.to_dict(), sort_keys=True))
     else:
         result.render(console)
+    if not result.passed:  # the one line on stderr, as for every failure
+        errors = result.document["gate"]["counts"]["error"]
+        print(f"graphmill: drift gate failed with {errors} error finding(s)", file=sys.stderr)
     return int(result.exit_code)
