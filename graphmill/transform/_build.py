@@ -148,6 +148,7 @@ def build_bundle(
                 spec.raw, snapshot.document, before.manifest["manifest_sha256"] if before else None
             ),
             "comparison": None,
+            "purpose": spec.raw.get("purpose"),
         }
     )
     with atomic_directory(spec.output.bundle) as scratch:

@@ -43,6 +43,7 @@ def _version(root: Path, n: int, shift: float, previous: Path | None = None) -> 
         features={"person": [{"property": "score", "encoding": "standardize"}]},
         label={"vertex_type": "person", "property": "colour"},
         split={"method": "stratified", "fractions": {"train": 0.6, "validation": 0.2, "test": 0.2}},
+        purpose="Predict a person's colour from whom they know.",
     )
     knows = [(ids[i], ids[(i * 7 + 3) % n]) for i in range(n)] + [
         (ids[0], ids[i]) for i in range(1, n, 3)
