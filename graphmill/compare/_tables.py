@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from graphmill.errors import require
@@ -103,7 +104,11 @@ def match_vertices(con: Any, old: BundleSide, new: BundleSide, vertex_type: str)
         row = con.sql(f"SELECT {sums} FROM gm_map").fetchall()[0]
         changed = {p: int(v) for p, v in zip(shared, row, strict=True)}
     return VertexMatch(
-        int(old_n), int(new_n), index_map, changed, _part_moves(con, old, new, vertex_type)
+        int(old_n),
+        int(new_n),
+        index_map,
+        changed,
+        _part_moves(old, new, vertex_type, index_map, (int(old_n), int(new_n))),
     )
 
 
@@ -117,20 +122,32 @@ def comparable_properties(old: BundleSide, new: BundleSide, vertex_type: str) ->
     ]
 
 
+PART_NAMES = ("train", "validation", "test", "(none)")
+
+
+def _part_codes(path: Path, count: int) -> np.ndarray:
+    """Part code (index into :data:`PART_NAMES`) of each of ``count`` vertices; 3 = none."""
+    table = pq.read_table(path, columns=["index", "part"])
+    codes = np.full(count, 3, dtype=np.int64)
+    found = pc.index_in(table.column("part"), value_set=pa.array(PART_NAMES[:3]))
+    codes[table.column("index").to_numpy()] = pc.fill_null(found, 3).to_numpy()
+    return codes
+
+
 def _part_moves(
-    con: Any, old: BundleSide, new: BundleSide, vertex_type: str
+    old: BundleSide, new: BundleSide, vertex_type: str, index_map: pa.Table, counts: tuple[int, int]
 ) -> list[dict[str, Any]] | None:
+    """(old part, new part, kept vertices) for every pair that occurs, in part order."""
     old_parts, new_parts = old.parts_file(vertex_type), new.parts_file(vertex_type)
     if old_parts is None or new_parts is None:
         return None
-    con.read_parquet(str(old_parts)).to_view("gm_old_p", replace=True)
-    con.read_parquet(str(new_parts)).to_view("gm_new_p", replace=True)
-    rows = con.sql(
-        "SELECT coalesce(po.part, '(none)') AS a, coalesce(pn.part, '(none)') AS b, count(*) "
-        "FROM gm_map m LEFT JOIN gm_old_p po ON po.index = m.old_index "
-        "LEFT JOIN gm_new_p pn ON pn.index = m.new_index GROUP BY ALL ORDER BY a, b"
-    ).fetchall()
-    return [{"from": a, "to": b, "count": int(n)} for a, b, n in rows]
+    a = _part_codes(old_parts, counts[0])[index_map.column("old_index").to_numpy()]
+    b = _part_codes(new_parts, counts[1])[index_map.column("new_index").to_numpy()]
+    pairs = np.bincount(a * 4 + b, minlength=16)
+    return [
+        {"from": PART_NAMES[k // 4], "to": PART_NAMES[k % 4], "count": int(pairs[k])}
+        for k in np.flatnonzero(pairs)
+    ]
 
 
 @dataclass
