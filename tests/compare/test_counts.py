@@ -66,8 +66,8 @@ def test_counts_equal_pandas_recounts(old: dict[str, Any], new: dict[str, Any]) 
     with tempfile.TemporaryDirectory() as folder:
         a = build_version(Path(folder) / "a", **old)
         b = build_version(Path(folder) / "b", **new)
-        doc = compare_bundles(a, b).to_dict()
         result = compare_bundles(a, b)
+        doc = result.to_dict()
         for vt in ("person", "place"):
             va, vb = _frame(a, "vertices", vt), _frame(b, "vertices", vt)
             joined = va.merge(vb, on="vertex_id", how="outer", indicator=True)
