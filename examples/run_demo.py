@@ -3,7 +3,9 @@
 Steps: write the RDF dump where the spec's source expects it; ``Pipeline.from_file(spec).run()``
 (pull into the embedded store, check, build); show the check report; load the bundle and
 train the two-layer GCN of :mod:`gcn` on members; print its accuracy beside the
-majority-class baseline.
+majority-class baseline. Then a week later: derive a second dump (:mod:`next_week`), build it
+after the first (the comparison and lineage go into its manifest), show the comparison and
+where both dataset cards are.
 
 Run from anywhere: ``python examples/run_demo.py [--spec PATH] [--epochs N] [--seed S]``.
 """
@@ -11,9 +13,11 @@ Run from anywhere: ``python examples/run_demo.py [--spec PATH] [--epochs N] [--s
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import sys
 import time
 from pathlib import Path
+from typing import Any
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
@@ -21,11 +25,13 @@ sys.path.insert(0, str(HERE / "lending_coop"))
 
 import gcn  # noqa: E402
 import generate  # noqa: E402
+import next_week  # noqa: E402
 import torch  # noqa: E402
 from rich.console import Console  # noqa: E402
 
 import graphmill  # noqa: E402
 from graphmill.errors import GraphmillError  # noqa: E402
+from graphmill.spec import OutputSpec  # noqa: E402
 
 DEFAULT_SPEC = HERE / "lending_coop" / "spec.yaml"
 LABELED_TYPE = "member"
@@ -69,7 +75,32 @@ def demo(spec_path: Path, *, epochs: int, seed: int, console: Console) -> dict[s
         f"   majority-class baseline on test: {metrics['majority_test']:.3f} "
         f"(the GCN: {metrics['test']:.3f})"
     )
+    second_version(pipeline.spec, Path(result.build.bundle), dump, console)
     return metrics
+
+
+def second_version(spec: Any, first: Path, dump: Path, console: Console) -> Path:
+    """A week later: derive the second dump, build it after the first, show what changed."""
+    week2 = first.parent / "week2"
+    path = next_week.next_week(dump, week2)
+    console.print(
+        f"[bold]6. a week later[/bold]: {path} (new members, fewer transfers, balances up 60%)"
+    )
+    output = OutputSpec(
+        snapshot=week2 / "snapshot", bundle=week2 / "bundle", report=week2 / "report.json"
+    )
+    spec2 = dataclasses.replace(spec, source={**spec.source, "paths": [str(path)]}, output=output)
+    result = graphmill.Pipeline(spec2).run(previous=first)
+    if result.build is None:
+        console.print("[red]week 2: the checks failed[/red]")
+        return first
+    second = Path(result.build.bundle)
+    console.print(f"[bold]7. compared[/bold] {first} → {second}:")
+    graphmill.compare_bundles(first, second, rules=spec.drift_gate.rules).render(console)
+    console.print("[bold]8. dataset cards[/bold] (open in a browser):")
+    for bundle in (first, second):
+        console.print(f"   {(bundle / 'card.html').resolve().as_uri()}")
+    return second
 
 
 def main(argv: list[str] | None = None) -> int:

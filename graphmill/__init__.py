@@ -29,9 +29,13 @@ from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey, load_spec
 
 _LAZY = {
+    "Comparison": "graphmill.compare",
     "GraphBundle": "graphmill.bundle",
+    "compare_bundles": "graphmill.compare",
     "inspect_bundle": "graphmill.bundle",
     "load_bundle": "graphmill.bundle",
+    "verify_lineage": "graphmill.compare",
+    "write_card": "graphmill.card",
 }
 
 
@@ -45,6 +49,7 @@ __all__ = [
     "AuthenticationError",
     "BundleIntegrityError",
     "ChecksFailedError",
+    "Comparison",
     "ExitCode",
     "GraphBundle",
     "GraphSource",
@@ -68,9 +73,12 @@ __all__ = [
     "__version__",
     "build",
     "check",
+    "compare_bundles",
     "inspect_bundle",
     "load_bundle",
     "load_spec",
     "pull",
     "run",
+    "verify_lineage",
+    "write_card",
 ]

@@ -9,7 +9,7 @@ from typing import Any
 
 import jsonschema
 
-SCHEMA_NAMES = ("spec", "report", "manifest", "snapshot")
+SCHEMA_NAMES = ("spec", "report", "manifest", "snapshot", "comparison")
 
 
 @cache

@@ -25,8 +25,12 @@ COMMANDS = {
     "build": "turn the snapshot into the bundle (Parquet tables, tensors, manifest)",
     "run": "pull, check, and build if the checks pass",
     "inspect": "summarise a bundle and verify its hashes",
-    "schema": "print one of the shipped JSON Schemas (spec, report, manifest, snapshot)",
+    "schema": "print one of the shipped JSON Schemas (spec, report, manifest, snapshot, ...)",
+    "compare": "compare two versions of a bundle; exit 1 if the spec's drift gate fails",
+    "lineage": "verify a chain of bundles, oldest first, each built after the one before",
+    "card": "write a bundle's dataset card: one self-contained HTML page",
 }
+VERSION_COMMANDS = ("compare", "lineage", "card")  # arguments and dispatch: graphmill.compare
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -44,8 +48,14 @@ def _parser() -> argparse.ArgumentParser:
         cmd = sub.add_parser(name, help=text, description=text, parents=[common])
         if name == "inspect":
             cmd.add_argument("bundle", help="bundle folder")
+        elif name in VERSION_COMMANDS:
+            from graphmill.compare._cli import add_arguments
+
+            add_arguments(name, cmd)
         elif name == "schema":
-            cmd.add_argument("name", choices=["spec", "report", "manifest", "snapshot"])
+            from graphmill._schemas import SCHEMA_NAMES
+
+            cmd.add_argument("name", choices=list(SCHEMA_NAMES))
         else:
             cmd.add_argument("spec", help="pipeline spec (YAML)")
         if name == "check":
@@ -60,8 +70,13 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument(
                 "--even-if-failing",
                 action="store_true",
-                help="build the bundle even when checks report errors (the manifest says so; "
-                "the command still exits 1)",
+                help="build the bundle even when checks (or the drift gate) report errors (the "
+                "manifest says so; the command still exits 1)",
+            )
+            cmd.add_argument(
+                "--previous",
+                metavar="BUNDLE",
+                help="compare with this earlier version (overrides drift_gate.previous)",
             )
     return parser
 
@@ -148,6 +163,10 @@ def _dispatch(args: argparse.Namespace) -> int:
 
         print(json.dumps(load_schema(args.name), indent=2))
         return ExitCode.OK
+    if args.command in VERSION_COMMANDS:
+        from graphmill.compare._cli import run_command
+
+        return run_command(args, console)
     if args.command == "inspect":
         from graphmill.bundle import inspect_bundle
 
@@ -169,12 +188,14 @@ def _dispatch(args: argparse.Namespace) -> int:
         if args.command == "check":
             return _check(args, console, pipeline)
         if args.command == "build":
-            built = pipeline.build(even_if_failing=args.even_if_failing)
+            built = pipeline.build(even_if_failing=args.even_if_failing, previous=args.previous)
             passed = pipeline.last_report is None or pipeline.last_report.passed
             document = {**built.to_dict(), "checks_passed": passed}
             _emit(args, console, document, _render_build)
             return ExitCode.OK if passed else ExitCode.CHECKS_FAILED
-        result = pipeline.run(even_if_failing=args.even_if_failing, fresh=args.fresh)
+        result = pipeline.run(
+            even_if_failing=args.even_if_failing, fresh=args.fresh, previous=args.previous
+        )
         if args.json:
             print(json.dumps(result.to_dict(), sort_keys=True))
         else:

@@ -158,21 +158,31 @@ class Pipeline:
         self.last_report = report
         return report
 
-    def build(self, *, report: Report | None = None, even_if_failing: bool = False) -> BuildInfo:
+    def build(
+        self,
+        *,
+        report: Report | None = None,
+        even_if_failing: bool = False,
+        previous: str | Path | None = None,
+    ) -> BuildInfo:
         """Build the bundle from the snapshot. Refuses when the checks fail, unless asked.
 
-        With ``even_if_failing`` a bundle is built from failing checks; its manifest's
-        ``validation.passed`` is false (``inspect`` says so), and the CLI still exits 1. When
-        no bundle is built, an earlier one is moved aside to ``<bundle>.stale``.
+        With ``even_if_failing`` a bundle is built from failing checks (or a failing drift
+        gate); its manifest's ``validation.passed`` is false (``inspect`` says so), and the CLI
+        still exits 1. When no bundle is built, an earlier one is moved aside to
+        ``<bundle>.stale``. ``previous`` (or the spec's ``drift_gate.previous``): the version
+        to compare with; a failing drift gate publishes nothing, unless ``even_if_failing``.
         """
         self._ensure_outputs("bundle")
         try:
-            return self._build(report, even_if_failing)
+            return self._build(report, even_if_failing, previous)
         except BaseException as exc:
             self._retire(exc)
             raise
 
-    def _build(self, report: Report | None, even_if_failing: bool) -> BuildInfo:
+    def _build(
+        self, report: Report | None, even_if_failing: bool, previous: str | Path | None
+    ) -> BuildInfo:
         from graphmill.transform import build_bundle
 
         snapshot = self.snapshot()
@@ -189,7 +199,12 @@ class Pipeline:
         if not report.passed:
             log.info("build: the checks failed; building anyway (--even-if-failing)")
         info = build_bundle(
-            self.spec, snapshot, checks_summary=report.summary(), progress=self.progress
+            self.spec,
+            snapshot,
+            checks_summary=report.summary(),
+            progress=self.progress,
+            previous=Path(previous) if previous is not None else None,
+            even_if_drifting=even_if_failing,
         )
         log.info("build: wrote %s", info.bundle)
         for path in sorted(Path(info.bundle).rglob("*")):
@@ -212,7 +227,13 @@ class Pipeline:
             moved = f"The previous bundle was moved aside to {self.retired}"
             cause.hint = f"{cause.hint.rstrip('. ')}. {moved}" if cause.hint else moved
 
-    def run(self, *, even_if_failing: bool = False, fresh: bool = False) -> RunResult:
+    def run(
+        self,
+        *,
+        even_if_failing: bool = False,
+        fresh: bool = False,
+        previous: str | Path | None = None,
+    ) -> RunResult:
         """Pull (from scratch with ``fresh``), check and, if the checks pass (or
         ``even_if_failing``), build.
 
@@ -230,7 +251,7 @@ class Pipeline:
             raise
         built = None
         if report.passed or even_if_failing:
-            built = self.build(report=report, even_if_failing=even_if_failing)
+            built = self.build(report=report, even_if_failing=even_if_failing, previous=previous)
         else:
             self._retire(f"checks failed with {plural(report.counts['error'], 'error')}")
         result = RunResult(pulled, report, built, time.perf_counter() - started)

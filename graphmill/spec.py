@@ -6,6 +6,7 @@
 
 from __future__ import annotations
 
+import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, NamedTuple
@@ -136,6 +137,22 @@ class RdfOptions:
 
 
 @dataclass(frozen=True)
+class GateRule:
+    """One drift limit: a measured value above ``limit`` is a finding of ``severity``."""
+
+    limit: float
+    severity: str = "error"
+
+
+@dataclass(frozen=True)
+class DriftGateSpec:
+    """``drift_gate``: the previous version to compare a build with, and the limits."""
+
+    previous: Path | None = None
+    rules: dict[str, GateRule] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
 class OutputSpec:
     snapshot: Path
     bundle: Path
@@ -164,6 +181,7 @@ class PipelineSpec:
     base_dir: Path
     spec_file: Path | None = None
     raw: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
+    drift_gate: DriftGateSpec = field(default_factory=DriftGateSpec)
 
     def relation(self, key: RelationKey) -> RelationSpec:
         return next(r for r in self.relations if r.key == key)
@@ -284,10 +302,38 @@ def spec_from_dict(
         base_dir=base,
         spec_file=spec_file,
         raw=doc,
+        drift_gate=parse_drift_gate(doc.get("drift_gate"), base, where),
     )
     cross_check(spec, where)
     check_output_paths(spec, where)
     return spec
+
+
+def parse_drift_gate(
+    doc: dict[str, Any] | None, base: Path, where: str | None = None
+) -> DriftGateSpec:
+    """The ``drift_gate`` section (already schema-checked); rule names are checked here, since
+    the schema lists them only as a pattern."""
+    if not doc:
+        return DriftGateSpec()
+    from graphmill.compare._gate import RULES
+
+    rules = {}
+    for name, body in doc.get("rules", {}).items():
+        if name not in RULES:
+            close = difflib.get_close_matches(name, list(RULES), n=1)
+            guess = f"; did you mean {close[0]!r}?" if close else ""
+            raise SpecError(
+                f"unknown drift rule {name!r}{guess}",
+                file=where,
+                key_path=f"drift_gate.rules.{name}",
+                hint=f"the rules are: {', '.join(sorted(RULES))}",
+            )
+        severity = body.get("severity", "error")
+        rules[name] = GateRule(float(body["limit"]), "off" if severity is False else severity)
+    previous = doc.get("previous")
+    absolute = _absolute(previous, base, "drift_gate.previous", where) if previous else None
+    return DriftGateSpec(absolute, rules)
 
 
 def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:

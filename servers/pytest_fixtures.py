@@ -16,11 +16,13 @@ from typing import TypeVar
 import pytest
 
 from servers._base import ManagedServer
+from servers._browser import HeadlessChromium
 from servers._errors import ServerError, ServerUnavailableError
 from servers._gremlin import GremlinServer
 from servers._rdf import FusekiServer, OxigraphServer
 
 __all__ = [
+    "chromium",
     "fuseki_auth_server",
     "fuseki_server",
     "gremlin_secure_server",
@@ -91,3 +93,9 @@ def fuseki_auth_server() -> Iterator[FusekiServer]:
 def oxigraph_server() -> Iterator[OxigraphServer]:
     """Oxigraph server on an empty store."""
     yield from serve(OxigraphServer())
+
+
+@pytest.fixture(scope="session")
+def chromium() -> Iterator[HeadlessChromium]:
+    """Headless Chromium (Debian's package) with its DevTools protocol on 127.0.0.1."""
+    yield from serve(HeadlessChromium())  # type: ignore[type-var]  # same start/stop/kind

@@ -172,3 +172,32 @@ def test_the_generator_is_deterministic(demo: dict[str, Any], tmp_path: Path) ->
     again = generate.generate(tmp_path)
     assert again.path.read_bytes() == demo["counts"].path.read_bytes()
     assert again == generate.CoopCounts(**{**vars(demo["counts"]), "path": again.path})
+
+
+def test_a_week_later_the_demo_compares_two_versions(demo: dict[str, Any], tmp_path: Path) -> None:
+    """The second version (new members, fewer transfers, higher balances) is built after the
+    first; the comparison, both cards and the lineage chain are there."""
+    import io
+
+    import next_week
+    import run_demo
+    from rich.console import Console
+
+    from graphmill.compare._lineage import verify_lineage
+
+    first = Path(demo["result"].build.bundle)
+    out = io.StringIO()
+    second = run_demo.second_version(
+        demo["spec"], first, demo["counts"].path, Console(file=out, width=160)
+    )
+    assert second != first and "7. compared" in out.getvalue()
+    manifest = graphmill.load_bundle(second).manifest
+    comparison = manifest["comparison"]
+    member = comparison["vertex_types"]["member"]
+    assert (member["added"], member["removed"]) == (240, 0)  # next_week's default
+    assert comparison["relations"][SENDS]["removed"] > 0
+    assert comparison["vertex_types"]["member"]["numeric_drift"]["balance"]["psi"] > 0.1
+    assert [link["bundle"] for link in verify_lineage([first, second])] == [str(first), str(second)]
+    for bundle in (first, second):
+        assert (bundle / "card.html").is_file()
+    assert next_week.SENDS in (second.parent / "coop.nt").read_text()

@@ -32,3 +32,9 @@ def test_every_error_has_a_distinct_documented_exit_code():
     codes = [k.exit_code for k in kinds]
     assert len(set(codes)) == len(codes)
     assert errors.InputError.exit_code == errors.SpecError.exit_code == 2
+
+
+def test_versioning_tools_are_public():
+    # comparing versions, verifying a chain of them, writing a dataset card
+    for name in ("Comparison", "compare_bundles", "verify_lineage", "write_card"):
+        assert name in graphmill.__all__ and callable(getattr(graphmill, name)), name

@@ -27,7 +27,12 @@ from graphmill.spec import PipelineSpec, RelationKey
 from graphmill.transform._edges import EdgeArrays, apply_edge_policy
 from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
-from graphmill.transform._pseudonyms import SCHEME, pseudonym_key, pseudonymizer
+from graphmill.transform._pseudonyms import (
+    SCHEME,
+    key_fingerprint,
+    pseudonym_key,
+    pseudonymizer,
+)
 from graphmill.transform._vertices import add_vertex_type
 from graphmill.transform._writer import BundleContent, write_bundle
 
@@ -46,6 +51,7 @@ class BuildInfo:
     part_sizes: dict[str, int] = field(default_factory=dict)
     seconds: float = 0.0
     warnings: list[str] = field(default_factory=list)
+    drift: dict[str, Any] | None = None  # the drift gate's verdict, when built after a version
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -59,6 +65,7 @@ class BuildInfo:
             "part_sizes": self.part_sizes,
             "seconds": round(self.seconds, 3),
             "warnings": self.warnings,
+            "drift": self.drift,
         }
 
 
@@ -68,9 +75,21 @@ def build_bundle(
     *,
     checks_summary: dict[str, Any] | None = None,
     progress: Progress | None = None,
+    previous: Path | None = None,
+    even_if_drifting: bool = False,
 ) -> BuildInfo:
-    """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically."""
+    """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
+
+    With ``previous`` (default: ``spec.drift_gate.previous``) the new bundle is compared with
+    that bundle before publishing; the comparison and the previous manifest's hash go into the
+    manifest, and a failing drift gate publishes nothing (unless ``even_if_drifting``).
+    """
+    from graphmill.compare._compare import open_side
+    from graphmill.compare._lineage import lineage_entry
+
     started = time.perf_counter()
+    previous = previous or spec.drift_gate.previous
+    before = open_side(previous) if previous is not None else None
     progress = progress or SilentProgress()
     key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
     check_snapshot(spec, snapshot)
@@ -107,6 +126,7 @@ def build_bundle(
                 "scheme": SCHEME if key is not None else None,
                 "key_env": spec.pseudonym_key_env if key is not None else None,
                 "index_order": "pseudonym" if key is not None else "vertex_id",
+                "key_fingerprint": key_fingerprint(key) if key is not None else None,
             },
             "counts": {
                 "vertices": info.vertex_counts,
@@ -124,10 +144,30 @@ def build_bundle(
             },
             "validation": checks_summary,
             "warnings": info.warnings,
+            "lineage": lineage_entry(
+                spec.raw, snapshot.document, before.manifest["manifest_sha256"] if before else None
+            ),
+            "comparison": None,
+            "purpose": spec.raw.get("purpose"),
         }
     )
     with atomic_directory(spec.output.bundle, kind="bundle", key="output.bundle") as scratch:
-        write_bundle(scratch, content)
+        manifest = write_bundle(scratch, content)
+        if before is not None:
+            from graphmill.compare._with_build import record_comparison
+
+            manifest, comparison = record_comparison(
+                scratch,
+                manifest,
+                before,
+                spec.drift_gate.rules,
+                bundle_name=spec.output.bundle.name,
+                even_if_drifting=even_if_drifting,
+            )
+            info.drift = comparison.document["gate"]
+        from graphmill.card import seal_with_card
+
+        seal_with_card(scratch, manifest)
     info.seconds = time.perf_counter() - started
     return info
 

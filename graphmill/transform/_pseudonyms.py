@@ -14,6 +14,7 @@ on the project machine); hex encoding and the Arrow string array are built with 
 from __future__ import annotations
 
 import hashlib
+import hmac
 import os
 from collections.abc import Callable
 
@@ -48,6 +49,12 @@ def pseudonym_key(env_name: str) -> bytes:
             hint=f"set {env_name} to a longer random secret",
         )
     return key
+
+
+def key_fingerprint(key: bytes) -> str:
+    """A short keyed hash of a fixed text: equal for equal keys, so two bundles' pseudonyms can
+    be known to match, and revealing nothing about the key or any ID."""
+    return hmac.new(key, b"graphmill key fingerprint", hashlib.sha256).hexdigest()[:16]
 
 
 def pseudonymizer(vertex_type: str, key: bytes) -> Callable[[pa.Array], pa.Array]:
