@@ -9,6 +9,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
+from graphmill._text import plural
 from graphmill.errors import ExitCode
 
 
@@ -50,7 +51,7 @@ def run_command(args: argparse.Namespace, console: Any) -> int:
                 console.print(
                     f"[green]ok[/green] {link['bundle']} {link['manifest_sha256'][:12]} ← {before}"
                 )
-            console.print(f"chain of {len(links)} bundle(s) verified")
+            console.print(f"chain of {plural(len(links), 'bundle')} verified")
         return ExitCode.OK
     from graphmill.card import write_card
 
@@ -83,5 +84,8 @@ def _compare(args: argparse.Namespace, console: Any) -> int:
         result.render(console)
     if not result.passed:  # the one line on stderr, as for every failure
         errors = result.document["gate"]["counts"]["error"]
-        print(f"graphmill: drift gate failed with {errors} error finding(s)", file=sys.stderr)
+        print(
+            f"graphmill: drift gate failed with {plural(errors, 'error finding')}",
+            file=sys.stderr,
+        )
     return int(result.exit_code)

@@ -7,6 +7,7 @@ import json
 from pathlib import Path
 from typing import Any
 
+from graphmill._text import plural
 from graphmill.bundle import MANIFEST_FILE, seal_manifest
 from graphmill.compare._compare import compare_sides
 from graphmill.compare._result import Comparison
@@ -44,7 +45,7 @@ def record_comparison(
         first = next(f for f in gate["findings"] if f["severity"] == "error")
         where = " ".join(f"{k}={v}" for k, v in first["subject"].items())
         raise DriftGateError(
-            f"drift gate failed with {gate['counts']['error']} error finding(s), first "
+            f"drift gate failed with {plural(gate['counts']['error'], 'error finding')}, first "
             f"{first['rule']} {where}: {first['message']}; no bundle published",
             hint="run 'graphmill compare' on the two bundles to see all, widen "
             "drift_gate.rules, or build with --even-if-failing",
