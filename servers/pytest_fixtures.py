@@ -2,7 +2,7 @@
 
 Import them into a conftest (``from servers.pytest_fixtures import *``). Each fixture
 starts its server once per session and stops it at the end. Outside CI a missing
-prerequisite (no Java, no Maven for the first jar fetch, no oxigraph binary) skips the
+prerequisite (no Java, no Maven for the first jar fetch, no oxigraph or virtuoso-t binary) skips the
 test with the reason; under ``CI=true`` it fails, as does any server that does not start.
 """
 
@@ -19,6 +19,7 @@ from servers._base import ManagedServer
 from servers._errors import ServerError, ServerUnavailableError
 from servers._gremlin import GremlinServer
 from servers._rdf import FusekiServer, OxigraphServer
+from servers._virtuoso import VirtuosoServer
 
 __all__ = [
     "fuseki_auth_server",
@@ -26,6 +27,7 @@ __all__ = [
     "gremlin_secure_server",
     "gremlin_server",
     "oxigraph_server",
+    "virtuoso_server",
 ]
 
 S = TypeVar("S", bound=ManagedServer)
@@ -91,3 +93,9 @@ def fuseki_auth_server() -> Iterator[FusekiServer]:
 def oxigraph_server() -> Iterator[OxigraphServer]:
     """Oxigraph server on an empty store."""
     yield from serve(OxigraphServer())
+
+
+@pytest.fixture(scope="session")
+def virtuoso_server() -> Iterator[VirtuosoServer]:
+    """Virtuoso 7 on an empty database, with its default result cap of 10,000 rows."""
+    yield from serve(VirtuosoServer())

@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import threading
 from collections.abc import Iterator
+from dataclasses import replace
 from typing import Any, ClassVar
 
 import pyarrow as pa
@@ -28,7 +29,7 @@ from graphmill.connectors.sparql._settings import (
     endpoint_settings,
 )
 from graphmill.connectors.sparql._stream import StreamCursor, StreamReader
-from graphmill.errors import GraphmillError, MalformedResponseError
+from graphmill.errors import GraphmillError, MalformedResponseError, SpecError
 from graphmill.spec import PipelineSpec
 
 #: what ``paging: auto`` picks per server, and the result cap the server is known to apply
@@ -37,6 +38,11 @@ AUTO_PAGING: dict[str, tuple[str, int | None]] = {
     "fuseki": ("single-stream", None),
     "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
     "unknown": ("key-range", None),
+}
+#: servers whose TSV results are not SPARQL 1.1 TSV: ``auto`` asks them for JSON instead
+TSV_UNFIT = {
+    "virtuoso": "Virtuoso's TSV results are not SPARQL 1.1 TSV (no '?' in the header, IRIs "
+    "written as quoted strings like literals)",
 }
 _WHOLE = 1 << 62  # "no page limit" for unit_pages: one page per query
 
@@ -79,6 +85,24 @@ class SparqlEndpointSource(GraphSource):
         auto, self.known_cap = AUTO_PAGING[self.server.product]
         if self.settings.paging == "auto":
             self.paging = auto
+        self._fit_results_format()
+
+    def _fit_results_format(self) -> None:
+        """Ask a server whose TSV is not SPARQL 1.1 TSV for JSON (when ``results_format`` is
+        ``auto``), or refuse an explicit ``tsv`` there."""
+        assert self.settings is not None and self.client is not None
+        reason = TSV_UNFIT.get(self.server.product)
+        if reason is None or self.settings.results_format != "tsv":
+            return
+        if self.spec.source.get("results_format", "auto") == "tsv":
+            self.close()
+            raise SpecError(
+                f"{reason}, so IRIs, literals and datatypes cannot be told apart",
+                key_path="source.results_format",
+                hint="use results_format: json, or leave it auto",
+            )
+        self.settings = replace(self.settings, results_format="json")
+        self.client.settings = self.settings
 
     def close(self) -> None:
         if self.client is not None:
