@@ -4,7 +4,9 @@ A vertex type's members are streamed once (:class:`KeySampler`, memory bounded b
 ``cap``); the sampled IRIs, cut to their leading printable ASCII (so the server compares them
 the same way whether it orders strings by code point or by UTF-16 unit, and so they need no
 escapes), become the candidate bounds. A unit is then read range by range, each range's size
-chosen from the rows per member seen so far (:class:`RangePlanner`). Ranges are
+chosen from the rows per member seen so far (:class:`RangePlanner`). When a server's result
+cap cut the membership answer itself, the sample holds no bound inside some ranges; a range
+that is then found cut is sampled again on its own (:meth:`RangePlanner.refine`). Ranges are
 ``[None, b1)``, ``[b1, b2)``, ... ``[bk, None)``: whatever the bounds, they cover every IRI
 exactly once, so the snapshot does not depend on the sample. Blank-node subjects, which
 ``STR()`` cannot order, are read as one slice of their own.
@@ -84,6 +86,17 @@ class KeySample:
     def members(self) -> int:
         return self.iri_members + self.blank_members
 
+    def merged(self, finer: KeySample) -> KeySample:
+        """This sample plus the bounds of ``finer``, a sample of some of the same keys (one
+        slice's members, read again because the first answer was cut by a result cap)."""
+        bounds = tuple(sorted(set(self.bounds) | set(finer.bounds)))  # ASCII: code point order
+        return KeySample(
+            bounds=bounds,
+            iri_members=max(self.iri_members, finer.iri_members),
+            blank_members=self.blank_members,
+            weight=min(self.weight, finer.weight),
+        )
+
 
 @dataclass
 class RangeCursor:
@@ -155,6 +168,10 @@ class RangePlanner:
         high = bounds[end] if end < len(bounds) else None
         covered = max(1, min(end, len(bounds)) - start) * self.sample.weight
         return KeyRange(low=cursor.low, high=high), covered
+
+    def refine(self, finer: KeySample) -> None:
+        """Add the bounds of a finer sample of part of the keys (see ``KeySample.merged``)."""
+        self.sample = self.sample.merged(finer)
 
     def narrower(self, key_range: KeyRange) -> KeyRange | None:
         """About half of ``key_range`` (same low bound), or None if no sampled bound lies

@@ -20,8 +20,14 @@ import pyarrow.compute as pc
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._mapping import unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
-from graphmill.connectors.rdf._queries import VERTEX, KeyRange, unit_query, unit_variables
-from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
+from graphmill.connectors.rdf._queries import (
+    VALUE,
+    VERTEX,
+    KeyRange,
+    unit_query,
+    unit_variables,
+)
+from graphmill.connectors.sparql._http import LEXICAL_SUFFIX, ServerInfo, SparqlClient
 from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
 from graphmill.connectors.sparql._settings import (
     EndpointSettings,
@@ -44,6 +50,8 @@ TSV_UNFIT = {
     "virtuoso": "Virtuoso's TSV results are not SPARQL 1.1 TSV (no '?' in the header, IRIs "
     "written as quoted strings like literals)",
 }
+#: servers that write xsd:double / xsd:float values with too few digits in their results
+ROUNDS_FLOATS = frozenset({"virtuoso"})  # 6 significant digits (Virtuoso 7.2.5, measured)
 _WHOLE = 1 << 62  # "no page limit" for unit_pages: one page per query
 
 
@@ -127,6 +135,22 @@ class SparqlEndpointSource(GraphSource):
             self._failure = exc
             raise
 
+    def _select(self, unit: WorkUnit, **options: Any) -> str:
+        """``unit_query``; on a server that rounds floating-point values in its results, a
+        facet's SELECT also projects ``STR(?value)`` (see ``LEXICAL_SUFFIX``)."""
+        query = unit_query(self.spec, unit, **options)
+        if self.server.product not in ROUNDS_FLOATS or unit.facet is None:
+            return query
+        head = f"?{VERTEX} ?{VALUE} WHERE {{"
+        lexical = f"(STR(?{VALUE}) AS ?{VALUE}{LEXICAL_SUFFIX})"
+        assert head in query, query
+        return query.replace(head, f"?{VERTEX} ?{VALUE} {lexical} WHERE {{", 1)
+
+    def _cap(self) -> int | None:
+        """The server's result cap: the one it announced, else the one known for it."""
+        announced = self.client.result_cap if self.client is not None else None
+        return announced or self.known_cap
+
     def _where(self, unit: WorkUnit) -> str:
         return f"{self.url} ({unit.unit_id})"
 
@@ -136,7 +160,7 @@ class SparqlEndpointSource(GraphSource):
 
     def _truncated(self, unit: WorkUnit, rows: int, key_range: KeyRange | None) -> bool:
         """Whether the answer of ``rows`` rows was cut short: ask for row ``rows + 1``."""
-        if not looks_capped(rows, self.known_cap):
+        if not looks_capped(rows, self._cap()):
             return False
         probe = unit_query(self.spec, unit, key_range=key_range, limit=1, offset=rows)
         return self._terms(unit, probe).num_rows > 0
@@ -162,7 +186,7 @@ class SparqlEndpointSource(GraphSource):
         assert self.client is not None
         reader = StreamReader(
             self.client,
-            unit_query(self.spec, unit),
+            self._select(unit),
             unit_variables(self.spec, unit),
             page_rows=self._page_rows(),
             where=self._where(unit),
@@ -182,7 +206,7 @@ class SparqlEndpointSource(GraphSource):
         limit = int(state["limit"]) if state.get("limit") else self._page_rows()
         first = unit_variables(self.spec, unit)[0]
         while True:
-            query = unit_query(self.spec, unit, ordered=True, limit=limit, offset=offset)
+            query = self._select(unit, ordered=True, limit=limit, offset=offset)
             terms = self._terms(unit, query)
             rows = terms.num_rows
             if 0 < rows < limit and self._truncated_at(unit, offset, rows):
@@ -203,7 +227,7 @@ class SparqlEndpointSource(GraphSource):
                 return
 
     def _truncated_at(self, unit: WorkUnit, offset: int, rows: int) -> bool:
-        if not looks_capped(rows, self.known_cap):
+        if not looks_capped(rows, self._cap()):
             return False
         probe = unit_query(self.spec, unit, ordered=True, limit=1, offset=offset + rows)
         return self._terms(unit, probe).num_rows > 0
@@ -227,17 +251,36 @@ class SparqlEndpointSource(GraphSource):
                 self._samples[vertex_type] = sink.sample()
             return self._samples[vertex_type]
 
+    def _resampled(self, owner: str, planner: RangePlanner, key_range: KeyRange) -> KeyRange | None:
+        """Sample the members inside ``key_range`` (the first sample came from an answer the
+        server cut short, so it may hold no bound there); the narrower range that allows."""
+        if key_range.blank_nodes:
+            return None
+        assert self.client is not None
+        members = WorkUnit("vertices", owner)
+        sink = self.client.select(
+            unit_query(self.spec, members, key_range=key_range),
+            lambda: KeySampler(VERTEX),
+            where=self._where(members),
+        )
+        assert isinstance(sink, KeySampler)
+        finer = sink.sample()
+        planner.refine(finer)
+        with self._lock:
+            self._samples[owner] = self._samples[owner].merged(finer)
+        return planner.narrower(key_range)
+
     def _read_ranges(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
         """key-range: one SELECT per slice of subjects, one page per slice."""
         state = RangeCursor.decode(cursor)
         if state.finished:
             return
         if state.row_cap is None:
-            state.row_cap = self.known_cap
+            state.row_cap = self._cap()
         owner = unit.name if unit.table == "vertices" else unit.relation.source_type
         planner = RangePlanner(self._sample(owner), self._page_rows())
         if planner.whole_unit_fits(state):
-            terms = self._terms(unit, unit_query(self.spec, unit))
+            terms = self._terms(unit, self._select(unit))
             if not self._truncated(unit, terms.num_rows, None):
                 state.finished = True
                 page = self._page(unit, terms, state.encode())
@@ -247,14 +290,14 @@ class SparqlEndpointSource(GraphSource):
             state.row_cap = terms.num_rows
         while not state.finished:
             key_range, members = planner.next_range(state)
-            terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+            terms = self._terms(unit, self._select(unit, key_range=key_range))
             while self._truncated(unit, terms.num_rows, key_range):
                 state.row_cap = terms.num_rows
-                smaller = planner.narrower(key_range)
+                smaller = planner.narrower(key_range) or self._resampled(owner, planner, key_range)
                 if smaller is None:
                     raise self._capped_error(unit, terms.num_rows)
                 key_range, members = smaller, members / 2
-                terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+                terms = self._terms(unit, self._select(unit, key_range=key_range))
             state.advance(key_range, terms.num_rows, members)
             page = self._page(unit, terms, state.encode())
             if page is not None:
