@@ -75,12 +75,15 @@ class KeySampler:
 
 @dataclass(frozen=True)
 class KeySample:
-    """Sorted candidate bounds; each stands for about ``weight`` member IRIs."""
+    """Sorted candidate bounds; each stands for about ``weight`` member IRIs. ``complete`` is
+    False when a result cap cut the membership answer: the member counts are then lower
+    bounds, and blank-node members may exist unseen."""
 
     bounds: tuple[str, ...]
     iri_members: int
     blank_members: int
     weight: float
+    complete: bool = True
 
     @property
     def members(self) -> int:
@@ -95,6 +98,7 @@ class KeySample:
             iri_members=max(self.iri_members, finer.iri_members),
             blank_members=self.blank_members,
             weight=min(self.weight, finer.weight),
+            complete=self.complete,
         )
 
 
@@ -147,12 +151,14 @@ class RangePlanner:
     def whole_unit_fits(self, cursor: RangeCursor) -> bool:
         """True when one unfiltered query can answer the unit (nothing read yet, and the
         members times one row each fit a page)."""
-        return cursor.low is None and not cursor.rows and self.sample.members <= self.target_rows
+        fits = self.sample.complete and self.sample.members <= self.target_rows
+        return cursor.low is None and not cursor.rows and fits
 
     def next_range(self, cursor: RangeCursor) -> tuple[KeyRange, float]:
         """The next slice after ``cursor`` and the estimated members it covers."""
-        if self.sample.blank_members and not cursor.blanks_done:
-            return KeyRange(blank_nodes=True), float(self.sample.blank_members)
+        maybe_blanks = self.sample.blank_members or not self.sample.complete
+        if maybe_blanks and not cursor.blanks_done:
+            return KeyRange(blank_nodes=True), float(max(1, self.sample.blank_members))
         bounds = self.sample.bounds
         # the slice [bounds[start], bounds[start + step]) holds ``step`` sampled members
         start = 0 if cursor.low is None else bisect.bisect_left(bounds, cursor.low)

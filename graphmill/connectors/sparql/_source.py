@@ -248,7 +248,10 @@ class SparqlEndpointSource(GraphSource):
                     where=self._where(members),
                 )
                 assert isinstance(sink, KeySampler)
-                self._samples[vertex_type] = sink.sample()
+                sample = sink.sample()
+                if self._truncated(members, sample.members, None):
+                    sample = replace(sample, complete=False)  # cut by a result cap
+                self._samples[vertex_type] = sample
             return self._samples[vertex_type]
 
     def _resampled(self, owner: str, planner: RangePlanner, key_range: KeyRange) -> KeyRange | None:
