@@ -146,3 +146,16 @@ def _iri_rows(root: Path) -> dict[str, list[dict]]:
         if not (e["source_id"].startswith("_:") or e["target_id"].startswith("_:"))
     ]
     return {"things": things, "edges": edges}
+
+
+def test_explicit_tsv_is_refused_on_virtuoso(virtuoso, tmp_path):
+    """Virtuoso's TSV has no '?' in its header and writes IRIs as quoted strings, like
+    literals (measured): asked for explicitly, it is a spec error naming the key."""
+    from graphmill.errors import SpecError
+
+    source = endpoint(virtuoso.query_url, results_format="tsv")
+    with pytest.raises(SpecError, match=r"not SPARQL 1\.1 TSV") as failure:
+        pull_spec(dataset_spec(source, tmp_path))
+    assert failure.value.exit_code == 2
+    assert "source.results_format" in failure.value.one_line()
+    assert not (tmp_path / "snapshot").exists()
