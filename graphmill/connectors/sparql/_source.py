@@ -20,14 +20,9 @@ import pyarrow.compute as pc
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
 from graphmill.connectors.rdf._mapping import unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
-from graphmill.connectors.rdf._queries import (
-    VALUE,
-    VERTEX,
-    KeyRange,
-    unit_query,
-    unit_variables,
-)
-from graphmill.connectors.sparql._http import LEXICAL_SUFFIX, ServerInfo, SparqlClient
+from graphmill.connectors.rdf._queries import VERTEX, KeyRange, unit_query, unit_variables
+from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
+from graphmill.connectors.sparql._quirks import fit_results_format, with_float_text
 from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
 from graphmill.connectors.sparql._settings import (
     EndpointSettings,
@@ -35,7 +30,7 @@ from graphmill.connectors.sparql._settings import (
     endpoint_settings,
 )
 from graphmill.connectors.sparql._stream import StreamCursor, StreamReader
-from graphmill.errors import GraphmillError, MalformedResponseError, SpecError
+from graphmill.errors import GraphmillError, MalformedResponseError
 from graphmill.spec import PipelineSpec
 
 #: what ``paging: auto`` picks per server, and the result cap the server is known to apply
@@ -45,13 +40,6 @@ AUTO_PAGING: dict[str, tuple[str, int | None]] = {
     "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
     "unknown": ("key-range", None),
 }
-#: servers whose TSV results are not SPARQL 1.1 TSV: ``auto`` asks them for JSON instead
-TSV_UNFIT = {
-    "virtuoso": "Virtuoso's TSV results are not SPARQL 1.1 TSV (no '?' in the header, IRIs "
-    "written as quoted strings like literals)",
-}
-#: servers that write xsd:double / xsd:float values with too few digits in their results
-ROUNDS_FLOATS = frozenset({"virtuoso"})  # 6 significant digits (Virtuoso 7.2.5, measured)
 _WHOLE = 1 << 62  # "no page limit" for unit_pages: one page per query
 
 
@@ -93,23 +81,12 @@ class SparqlEndpointSource(GraphSource):
         auto, self.known_cap = AUTO_PAGING[self.server.product]
         if self.settings.paging == "auto":
             self.paging = auto
-        self._fit_results_format()
-
-    def _fit_results_format(self) -> None:
-        """Ask a server whose TSV is not SPARQL 1.1 TSV for JSON (when ``results_format`` is
-        ``auto``), or refuse an explicit ``tsv`` there."""
-        assert self.settings is not None and self.client is not None
-        reason = TSV_UNFIT.get(self.server.product)
-        if reason is None or self.settings.results_format != "tsv":
-            return
-        if self.spec.source.get("results_format", "auto") == "tsv":
+        asked = str(self.spec.source.get("results_format", "auto"))
+        try:
+            self.settings = fit_results_format(self.settings, self.server.product, asked)
+        except GraphmillError:
             self.close()
-            raise SpecError(
-                f"{reason}, so IRIs, literals and datatypes cannot be told apart",
-                key_path="source.results_format",
-                hint="use results_format: json, or leave it auto",
-            )
-        self.settings = replace(self.settings, results_format="json")
+            raise
         self.client.settings = self.settings
 
     def close(self) -> None:
@@ -136,15 +113,9 @@ class SparqlEndpointSource(GraphSource):
             raise
 
     def _select(self, unit: WorkUnit, **options: Any) -> str:
-        """``unit_query``; on a server that rounds floating-point values in its results, a
-        facet's SELECT also projects ``STR(?value)`` (see ``LEXICAL_SUFFIX``)."""
-        query = unit_query(self.spec, unit, **options)
-        if self.server.product not in ROUNDS_FLOATS or unit.facet is None:
-            return query
-        head = f"?{VERTEX} ?{VALUE} WHERE {{"
-        lexical = f"(STR(?{VALUE}) AS ?{VALUE}{LEXICAL_SUFFIX})"
-        assert head in query, query
-        return query.replace(head, f"?{VERTEX} ?{VALUE} {lexical} WHERE {{", 1)
+        """``unit_query``, with the text of floating-point values where the server rounds
+        them (:func:`~graphmill.connectors.sparql._quirks.with_float_text`)."""
+        return with_float_text(unit_query(self.spec, unit, **options), self.server.product, unit)
 
     def _cap(self) -> int | None:
         """The server's result cap: the one it announced, else the one known for it."""
