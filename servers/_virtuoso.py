@@ -108,7 +108,7 @@ class VirtuosoServer(SparqlServer):
         # a bare word to isql (no quoting there): letters and digits, starting with a letter
         self._password = password or "gm" + secrets.token_hex(16)
         if not re.fullmatch(r"[A-Za-z][A-Za-z0-9]{7,}", self._password):
-            raise ValueError("the virtuoso password must be 8+ letters and digits, a letter first")
+            raise ServerError("the virtuoso password must be 8+ letters and digits, a letter first")
         for path in self.preload:
             if any(c in str(path) for c in _UNSAFE_PATH_CHARS):
                 raise ServerError(f"cannot bulk-load {path}: rename it without ' \\ , or newlines")

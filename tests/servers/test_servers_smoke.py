@@ -11,7 +11,14 @@ from typing import TYPE_CHECKING, Any
 import httpx
 import pytest
 
-from servers.manage import FusekiServer, GremlinServer, OxigraphServer, SparqlServer, VirtuosoServer
+from servers.manage import (
+    FusekiServer,
+    GremlinServer,
+    OxigraphServer,
+    ServerError,
+    SparqlServer,
+    VirtuosoServer,
+)
 from servers.pytest_fixtures import started
 
 if TYPE_CHECKING:
@@ -217,3 +224,18 @@ def test_virtuoso_from_the_command_line_bulk_loads(tmp_path: Path) -> None:
         process.send_signal(signal.SIGTERM)
         process.wait(timeout=60)
     assert process.returncode == 0
+
+
+def test_virtuoso_names_a_file_its_bulk_loader_refuses(tmp_path: Path) -> None:
+    import shutil
+
+    from servers.pytest_fixtures import in_ci
+
+    if shutil.which("virtuoso-t") is None and not in_ci():
+        pytest.skip("virtuoso-t is not installed (apt-get install virtuoso-opensource)")
+    bad = tmp_path / "bad.nt"
+    bad.write_text('<http://example.org/a> <http://example.org/b> "unterminated .\n')
+    server = VirtuosoServer(preload=[bad])
+    with pytest.raises(ServerError, match=r"LOAD-ERROR .*bad\.nt.*Unterminated"):
+        server.start()
+    assert not server.running and server.run_dir is None  # stopped and cleaned up
