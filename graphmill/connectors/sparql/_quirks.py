@@ -8,7 +8,10 @@ Measured on Virtuoso 7.2.5 (Debian's package; see ``servers/README.md``):
 * its result documents print ``xsd:double`` / ``xsd:float`` values with 6 significant
   digits, while ``STR()`` gives up to 16, so a facet's SELECT also projects the value's
   ``STR()`` and the client takes that text for those datatypes (:func:`with_float_text`,
-  ``_http.restore_lexical``).
+  ``_http.restore_lexical``);
+* it has no default graph of its own: a query without ``FROM`` sees every graph, so a triple
+  held in two graphs comes back twice; every SELECT sent to it is DISTINCT
+  (``UNION_DEFAULT_GRAPH``).
 
 Its result cap (``X-SPARQL-MaxRows``) and its sorted-window refusal (SR353) are handled where
 every server's caps are: ``_http`` and ``_failures``.
@@ -31,6 +34,8 @@ TSV_UNFIT = {
 }
 #: servers that write xsd:double / xsd:float values with too few digits in their results
 ROUNDS_FLOATS = frozenset({"virtuoso"})
+#: servers whose default graph is the union of every graph: their SELECTs get DISTINCT
+UNION_DEFAULT_GRAPH = frozenset({"virtuoso"})
 
 
 def fit_results_format(settings: EndpointSettings, product: str, asked: str) -> EndpointSettings:

@@ -22,7 +22,11 @@ from graphmill.connectors.rdf._mapping import unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
 from graphmill.connectors.rdf._queries import VERTEX, KeyRange, unit_query, unit_variables
 from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
-from graphmill.connectors.sparql._quirks import fit_results_format, with_float_text
+from graphmill.connectors.sparql._quirks import (
+    UNION_DEFAULT_GRAPH,
+    fit_results_format,
+    with_float_text,
+)
 from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
 from graphmill.connectors.sparql._settings import (
     EndpointSettings,
@@ -115,7 +119,13 @@ class SparqlEndpointSource(GraphSource):
     def _select(self, unit: WorkUnit, **options: Any) -> str:
         """``unit_query``, with the text of floating-point values where the server rounds
         them (:func:`~graphmill.connectors.sparql._quirks.with_float_text`)."""
-        return with_float_text(unit_query(self.spec, unit, **options), self.server.product, unit)
+        return with_float_text(self._query(unit, **options), self.server.product, unit)
+
+    def _query(self, unit: WorkUnit, **options: Any) -> str:
+        """``unit_query``, with DISTINCT on a server whose default graph is a union of graphs
+        (a triple held in two graphs would otherwise come back twice)."""
+        distinct = True if self.server.product in UNION_DEFAULT_GRAPH else None
+        return unit_query(self.spec, unit, distinct=distinct, **options)
 
     def _cap(self) -> int | None:
         """The server's result cap: the one it announced, else the one known for it."""
@@ -133,7 +143,7 @@ class SparqlEndpointSource(GraphSource):
         """Whether the answer of ``rows`` rows was cut short: ask for row ``rows + 1``."""
         if not looks_capped(rows, self._cap()):
             return False
-        probe = unit_query(self.spec, unit, key_range=key_range, limit=1, offset=rows)
+        probe = self._query(unit, key_range=key_range, limit=1, offset=rows)
         return self._terms(unit, probe).num_rows > 0
 
     def _page(self, unit: WorkUnit, terms: pa.Table, cursor: str) -> Page | None:
@@ -200,7 +210,7 @@ class SparqlEndpointSource(GraphSource):
     def _truncated_at(self, unit: WorkUnit, offset: int, rows: int) -> bool:
         if not looks_capped(rows, self._cap()):
             return False
-        probe = unit_query(self.spec, unit, ordered=True, limit=1, offset=offset + rows)
+        probe = self._query(unit, ordered=True, limit=1, offset=offset + rows)
         return self._terms(unit, probe).num_rows > 0
 
     def _page_rows(self) -> int:
@@ -214,7 +224,7 @@ class SparqlEndpointSource(GraphSource):
                 assert self.client is not None
                 members = WorkUnit("vertices", vertex_type)
                 sink = self.client.select(
-                    unit_query(self.spec, members),
+                    self._query(members),
                     lambda: KeySampler(VERTEX),
                     where=self._where(members),
                 )
@@ -233,7 +243,7 @@ class SparqlEndpointSource(GraphSource):
         assert self.client is not None
         members = WorkUnit("vertices", owner)
         sink = self.client.select(
-            unit_query(self.spec, members, key_range=key_range),
+            self._query(members, key_range=key_range),
             lambda: KeySampler(VERTEX),
             where=self._where(members),
         )
@@ -292,6 +302,6 @@ class SparqlEndpointSource(GraphSource):
         return Provenance(
             kind=self.kind,
             location=self.url,
-            queries=[unit_query(self.spec, u) for u in self.plan()],
+            queries=[self._query(u) for u in self.plan()],
             details=details,
         )

@@ -5,7 +5,8 @@ must pick key-range and lose nothing; single-stream and offset paging, which can
 the cap, must stop with exit 7 and publish nothing; and the snapshot from Virtuoso must be
 byte-identical to Oxigraph's, Fuseki's and the dump's. A second Virtuoso with a cap of 250
 rows (not a round number, so only its ``X-SPARQL-MaxRows`` header gives it away) checks that
-a capped membership sample is refined rather than trusted.
+a capped membership sample is refined rather than trusted; a third holds the same triples in
+two graphs, which a query without FROM sees both of, and must read them once.
 """
 
 from __future__ import annotations
@@ -159,3 +160,28 @@ def test_explicit_tsv_is_refused_on_virtuoso(virtuoso, tmp_path):
     assert failure.value.exit_code == 2
     assert "source.results_format" in failure.value.one_line()
     assert not (tmp_path / "snapshot").exists()
+
+
+@pytest.fixture(scope="module")
+def held_twice(tmp_path_factory: pytest.TempPathFactory):
+    """Virtuoso holding the same triples (no blank nodes) in two graphs, and their dump."""
+    root = tmp_path_factory.mktemp("held-twice")
+    data = root / "things.nt"
+    data.write_text(cases.paging_ntriples(blanks=0), encoding="utf-8")
+    source = {"kind": "rdf-file", "paths": [str(data)]}
+    pull_spec(small_spec_doc(source, root / "dump", namespace=cases.PAGING_NS))
+    with started(VirtuosoServer(preload=[data])) as server:
+        server.load(data.read_bytes(), content_type=N_TRIPLES, graph="urn:graphmill:copy")
+        yield server, root / "dump" / "snapshot"
+
+
+@pytest.mark.parametrize("paging", ["key-range", "offset", "single-stream"])
+def test_a_triple_in_two_graphs_is_read_once(held_twice, tmp_path, paging):
+    """A query without FROM sees every Virtuoso graph: without DISTINCT each link came back
+    four times (two copies of the link times two of the type triple; measured)."""
+    server, dump = held_twice
+    source = endpoint(server.query_url, paging=paging, page_size=100)
+    _, info = pull_spec(small_spec_doc(source, tmp_path, namespace=cases.PAGING_NS))
+    assert info.vertex_counts["thing"] == 700  # paging_ntriples(blanks=0)
+    assert info.edge_counts["thing.linked.thing"] == 700  # one link per thing
+    assert snapshot_files(tmp_path / "snapshot") == snapshot_files(dump)
