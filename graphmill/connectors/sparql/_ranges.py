@@ -158,15 +158,19 @@ class RangePlanner:
         """The next slice after ``cursor`` and the estimated members it covers."""
         maybe_blanks = self.sample.blank_members or not self.sample.complete
         if maybe_blanks and not cursor.blanks_done:
-            return KeyRange(blank_nodes=True), float(max(1, self.sample.blank_members))
+            return KeyRange(blank_nodes=True), float(self.sample.blank_members)
         bounds = self.sample.bounds
         # the slice [bounds[start], bounds[start + step]) holds ``step`` sampled members
         start = 0 if cursor.low is None else bisect.bisect_left(bounds, cursor.low)
-        per_member = cursor.rows / cursor.members if cursor.members else 1.0
+        # rows per member so far; none yet (or only an empty blank-node slice): guess one
+        per_member = cursor.rows / cursor.members if cursor.rows and cursor.members else 1.0
+        # under a result cap aim at half of it, a quarter while the rows per member are
+        # unknown (a unit with two rows per member would fill the cap and be read again)
+        share = 2 if cursor.rows else 4
         limit = (
             self.target_rows
             if cursor.row_cap is None
-            else min(self.target_rows, cursor.row_cap // 2)
+            else min(self.target_rows, cursor.row_cap // share)
         )
         wanted = max(1.0, limit / max(per_member, 1e-9))
         step = max(1, int(wanted / max(self.sample.weight, 1e-9)))
