@@ -20,8 +20,8 @@ HOST = "127.0.0.1"
 _LOG_TAIL_CHARS = 6000
 #: a server that failed to start holds no data worth a graceful stop
 _FAILED_STOP_SECONDS = 2.0
-#: how the servers word "the port is taken" (Oxigraph, Fuseki/Jetty; Gremlin Server)
-_PORT_CLASH_MARKERS = ("address already in use", "could not bind to")
+#: how the servers word "the port is taken" (Oxigraph, Fuseki/Jetty; Gremlin Server; Virtuoso)
+_PORT_CLASH_MARKERS = ("address already in use", "could not bind to", "failed http listen")
 
 
 def free_port() -> int:

@@ -2,7 +2,7 @@
 
 Library use (tests, benchmarks, local trials)::
 
-    from servers.manage import GremlinServer, FusekiServer, OxigraphServer
+    from servers.manage import GremlinServer, FusekiServer, OxigraphServer, VirtuosoServer
 
     with GremlinServer() as gremlin:          # g, g_modern, g_dead on ws://127.0.0.1:PORT/gremlin
         print(gremlin.submit("g_modern.V().count()"))   # [6]
@@ -13,11 +13,12 @@ Command line::
     python -m servers.manage start gremlin [--port N] [--secure] [--evaluation-timeout-ms MS]
     python -m servers.manage start fuseki [--port N] [--auth USER]
     python -m servers.manage start oxigraph [--port N] [--load FILE ...]
+    python -m servers.manage start virtuoso [--port N] [--load FILE ...] [--result-cap ROWS]
 
 ``start`` stays in the foreground until Ctrl-C; its JVMs run with THROUGHPUT_JAVA_OPTIONS
 (full JIT, as for benchmarks) rather than the quick-start options tests use.
 
-Passwords are never printed: the secure Gremlin server and an authenticated Fuseki take
+Passwords are never printed: the secure Gremlin server, an authenticated Fuseki and Virtuoso take
 theirs from ``$GRAPHMILL_SERVER_PASSWORD`` or write a generated one to a 0600 file whose
 path is printed.
 """
@@ -43,6 +44,7 @@ from servers._jars import (
     ensure_jars,
 )
 from servers._rdf import N_QUADS, N_TRIPLES, FusekiServer, OxigraphServer, SparqlServer
+from servers._virtuoso import DEFAULT_RESULT_CAP, VirtuosoServer
 
 __all__ = [
     "HOST",
@@ -59,6 +61,7 @@ __all__ = [
     "ServerError",
     "ServerUnavailableError",
     "SparqlServer",
+    "VirtuosoServer",
     "cache_root",
     "ensure_jars",
     "free_port",
@@ -89,6 +92,11 @@ def _build(args: argparse.Namespace) -> tuple[ManagedServer, str | None]:
             (args.auth, password), port=args.port, java_options=THROUGHPUT_JAVA_OPTIONS
         )
         return fuseki, password
+    if args.kind == "virtuoso":
+        virtuoso = VirtuosoServer(
+            port=args.port, preload=args.load or (), result_cap=args.result_cap, password=password
+        )
+        return virtuoso, virtuoso.password
     return OxigraphServer(port=args.port, preload=args.load or ()), None
 
 
@@ -102,6 +110,8 @@ def _describe(server: ManagedServer, password: str | None) -> list[str]:
         lines.append(f"query: {server.query_url}   update: {server.update_url}")
         if server.auth is not None:
             lines.append(f"HTTP basic user: {server.auth[0]}")
+        if isinstance(server, VirtuosoServer):
+            lines.append(f"result cap: {server.result_cap} rows; update as dba (HTTP digest)")
     if password is not None and not os.environ.get(_PASSWORD_ENV):
         assert server.run_dir is not None
         secret = server.run_dir / "password.txt"
@@ -144,13 +154,21 @@ def _parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", required=True)
     commands.add_parser("fetch", help="fetch the Gremlin Server and Fuseki jars with Maven")
     start = commands.add_parser("start", help="start one server in the foreground")
-    start.add_argument("kind", choices=["gremlin", "fuseki", "oxigraph"])
+    start.add_argument("kind", choices=["gremlin", "fuseki", "oxigraph", "virtuoso"])
     start.add_argument("--port", type=int, default=None, help="default: a free port")
     start.add_argument("--secure", action="store_true", help="gremlin: authentication and TLS")
     start.add_argument("--data-dir", default=None, help="gremlin: keep `graph` in this folder")
     start.add_argument("--evaluation-timeout-ms", type=int, default=None, help="gremlin")
     start.add_argument("--auth", metavar="USER", default=None, help="fuseki: HTTP basic user")
-    start.add_argument("--load", nargs="+", default=None, help="oxigraph: files to preload")
+    start.add_argument(
+        "--load", nargs="+", default=None, help="oxigraph, virtuoso: files to preload"
+    )
+    start.add_argument(
+        "--result-cap",
+        type=int,
+        default=DEFAULT_RESULT_CAP,
+        help="virtuoso: ResultSetMaxRows (default %(default)s, the server's own default)",
+    )
     return parser
 
 

@@ -2,7 +2,7 @@
 
 Import them into a conftest (``from servers.pytest_fixtures import *``). Each fixture
 starts its server once per session and stops it at the end. Outside CI a missing
-prerequisite (no Java, no Maven for the first jar fetch, no oxigraph binary) skips the
+prerequisite (no Java, no Maven for the first jar fetch, no oxigraph or virtuoso-t binary) skips the
 test with the reason; under ``CI=true`` it fails, as does any server that does not start.
 """
 
@@ -20,6 +20,7 @@ from servers._browser import HeadlessChromium
 from servers._errors import ServerError, ServerUnavailableError
 from servers._gremlin import GremlinServer
 from servers._rdf import FusekiServer, OxigraphServer
+from servers._virtuoso import VirtuosoServer
 
 __all__ = [
     "chromium",
@@ -28,6 +29,7 @@ __all__ = [
     "gremlin_secure_server",
     "gremlin_server",
     "oxigraph_server",
+    "virtuoso_server",
 ]
 
 S = TypeVar("S", bound=ManagedServer)
@@ -99,3 +101,9 @@ def oxigraph_server() -> Iterator[OxigraphServer]:
 def chromium() -> Iterator[HeadlessChromium]:
     """Headless Chromium (Debian's package) with its DevTools protocol on 127.0.0.1."""
     yield from serve(HeadlessChromium())  # type: ignore[type-var]  # same start/stop/kind
+
+
+@pytest.fixture(scope="session")
+def virtuoso_server() -> Iterator[VirtuosoServer]:
+    """Virtuoso 7 on an empty database, with its default result cap of 10,000 rows."""
+    yield from serve(VirtuosoServer())

@@ -11,7 +11,14 @@ from typing import TYPE_CHECKING, Any
 import httpx
 import pytest
 
-from servers.manage import FusekiServer, GremlinServer, OxigraphServer, SparqlServer
+from servers.manage import (
+    FusekiServer,
+    GremlinServer,
+    OxigraphServer,
+    ServerError,
+    SparqlServer,
+    VirtuosoServer,
+)
 from servers.pytest_fixtures import started
 
 if TYPE_CHECKING:
@@ -150,3 +157,85 @@ def test_oxigraph_preloads_with_bulk_loader(tmp_path: Path) -> None:
     data.write_text(THREE_TRIPLES)
     with started(OxigraphServer(preload=[data])) as server:
         assert _count_triples(server) == 3
+
+
+def _count_in(query_url: str, graph: str) -> int:
+    """Triples in one graph (Virtuoso's own system graphs hold triples of their own)."""
+    response = httpx.post(
+        query_url,
+        data={"query": f"SELECT (COUNT(*) AS ?n) WHERE {{ GRAPH <{graph}> {{ ?s ?p ?o }} }}"},
+        headers={"Accept": "application/sparql-results+json"},
+        timeout=30.0,
+    )
+    response.raise_for_status()
+    return int(response.json()["results"]["bindings"][0]["n"]["value"])
+
+
+def test_virtuoso_loads_over_http_with_its_generated_password(
+    virtuoso_server: VirtuosoServer,
+) -> None:
+    assert virtuoso_server.query_url == f"http://127.0.0.1:{virtuoso_server.port}/sparql"
+    virtuoso_server.load(THREE_TRIPLES, graph="http://example.org/g")
+    assert _count_in(virtuoso_server.query_url, "http://example.org/g") == 3
+    assert virtuoso_server.ask("ASK { <http://example.org/a> <http://example.org/knows> ?x }")
+    # the well-known initial password no longer works; the generated one is in no log
+    refused = httpx.post(
+        f"{virtuoso_server.url}/sparql-graph-crud-auth",
+        params={"graph-uri": "http://example.org/g"},
+        content=THREE_TRIPLES.encode(),
+        headers={"Content-Type": "application/n-triples"},
+        auth=httpx.DigestAuth("dba", "dba"),
+        timeout=30.0,
+    )
+    assert refused.status_code == 401
+    assert virtuoso_server.password not in virtuoso_server.log_path.read_text()
+    ini = (virtuoso_server.log_path.parent / "virtuoso.ini").read_text()
+    assert "ResultSetMaxRows = 10000" in ini  # the server's default cap, kept on purpose
+    assert f"ServerPort = 127.0.0.1:{virtuoso_server.sql_port}" in ini
+
+
+def test_virtuoso_from_the_command_line_bulk_loads(tmp_path: Path) -> None:
+    """`python -m servers.manage start virtuoso --load F` bulk-loads F, serves, stops on TERM."""
+    import re
+    import shutil
+    import signal
+    import subprocess
+    import sys
+
+    from servers._virtuoso import DEFAULT_GRAPH
+    from servers.pytest_fixtures import in_ci
+
+    if shutil.which("virtuoso-t") is None and not in_ci():
+        pytest.skip("virtuoso-t is not installed (apt-get install virtuoso-opensource)")
+    data = tmp_path / "three.nt"
+    data.write_text(THREE_TRIPLES)
+    command = [sys.executable, "-m", "servers.manage", "start", "virtuoso", "--load", str(data)]
+    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True)
+    try:
+        assert process.stdout is not None
+        first = process.stdout.readline()  # blocks until ready (or the start failed)
+        assert first.startswith("virtuoso server ready in"), first
+        url = re.search(r"http://127\.0\.0\.1:\d+", first)
+        assert url is not None
+        lines = [process.stdout.readline() for _ in range(3)]
+        assert any("result cap: 10000 rows" in line for line in lines), lines
+        assert _count_in(f"{url.group(0)}/sparql", DEFAULT_GRAPH) == 3
+    finally:
+        process.send_signal(signal.SIGTERM)
+        process.wait(timeout=60)
+    assert process.returncode == 0
+
+
+def test_virtuoso_names_a_file_its_bulk_loader_refuses(tmp_path: Path) -> None:
+    import shutil
+
+    from servers.pytest_fixtures import in_ci
+
+    if shutil.which("virtuoso-t") is None and not in_ci():
+        pytest.skip("virtuoso-t is not installed (apt-get install virtuoso-opensource)")
+    bad = tmp_path / "bad.nt"
+    bad.write_text('<http://example.org/a> <http://example.org/b> "unterminated .\n')
+    server = VirtuosoServer(preload=[bad])
+    with pytest.raises(ServerError, match=r"LOAD-ERROR .*bad\.nt.*Unterminated"):
+        server.start()
+    assert not server.running and server.run_dir is None  # stopped and cleaned up

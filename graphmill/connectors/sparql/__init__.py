@@ -27,10 +27,14 @@ slice costs a scan of all the type's members (``STR()`` is dear there: a 10k-row
 the speed of one bare streamed ``SELECT ?s ?p ?o``, and the client's Arrow memory stayed
 within the parse piece (2 MiB of text) and one page (about 25 MiB with 10k-row pages).
 
-Every strategy checks for silently truncated answers: a result whose size is a known cap or
-a round number of at least 1000 is probed with ``OFFSET n LIMIT 1``; a cut key-range slice
-is split, a cut offset page lowers the page size, a cut stream stops the pull with a
-:class:`~graphmill.errors.MalformedResponseError`.
+Every strategy checks for silently truncated answers: a result whose size is a known cap,
+the cap the server announced (Virtuoso's ``X-SPARQL-MaxRows``) or a round number of at least
+1000 is probed with ``OFFSET n LIMIT 1``; a cut key-range slice is split (its members sampled
+again when the key sample itself came from a cut answer), a cut offset page lowers the page
+size, a cut stream -- or a server refusing sorted pages past its window (Virtuoso's SR353) --
+stops the pull with a :class:`~graphmill.errors.MalformedResponseError` (exit 7). Tested
+against Virtuoso 7.2 with its default cap of 10,000 rows; its other quirks (TSV that is not
+SPARQL TSV, doubles printed with 6 digits) are handled in :mod:`._quirks`.
 """
 
 from __future__ import annotations

@@ -11,6 +11,7 @@ no answer within the timeout       SourceTimeoutError           5     no
 HTTP 401, 403                      AuthenticationError          4     no
 HTTP 404                           SourceUnavailableError       3     no
 HTTP 5xx                           SourceServerError            6     yes
+HTTP 5xx: a sorted-rows cap        MalformedResponseError       7     no
 other HTTP 4xx                     SourceServerError            6     no
 =================================  ===========================  ====  ==========
 
@@ -25,10 +26,14 @@ import httpx
 from graphmill.errors import (
     AuthenticationError,
     GraphmillError,
+    MalformedResponseError,
     SourceServerError,
     SourceTimeoutError,
     SourceUnavailableError,
 )
+
+#: Virtuoso's error code for a sorted window (OFFSET + LIMIT under ORDER BY) over its cap
+_SORTED_ROWS_CAP = "SR353"
 
 
 class TransientError(Exception):
@@ -96,6 +101,13 @@ def status_error(response: httpx.Response, url: str) -> Exception:
             source=url,
             hint="check the user name and password in the variables named by "
             "source.username_env and source.password_env",
+        )
+    if code >= 500 and _SORTED_ROWS_CAP in said:
+        return MalformedResponseError(
+            f"the endpoint caps sorted results and refused a page ({detail})",
+            source=url,
+            hint="use source.paging: key-range (offset paging needs ORDER BY over every "
+            "row before the page; Virtuoso allows 10,000 by default, MaxSortedTopRows)",
         )
     if code >= 500:
         return TransientError(

@@ -21,10 +21,12 @@ from urllib.parse import quote
 
 import httpx
 import pyarrow as pa
+import pyarrow.compute as pc
 import tenacity
 
 from graphmill._version import __version__
-from graphmill.connectors.rdf._terms import read_json_results, read_tsv_results
+from graphmill.connectors.rdf._terms import TERM_SUFFIXES, read_json_results, read_tsv_results
+from graphmill.connectors.rdf._xsd import XSD
 from graphmill.connectors.sparql._failures import (
     TransientError,
     status_error,
@@ -33,6 +35,12 @@ from graphmill.connectors.sparql._failures import (
 from graphmill.connectors.sparql._settings import EndpointSettings
 from graphmill.errors import MalformedResponseError
 
+#: the response header by which Virtuoso names its result cap when an answer reaches it
+CAP_HEADER = "x-sparql-maxrows"
+#: ``(STR(?v) AS ?v_lexical)`` beside ``?v``: the text of ``v``'s xsd:double and xsd:float
+#: values (Virtuoso writes those with 6 significant digits in results, STR() with up to 16)
+LEXICAL_SUFFIX = "_lexical"
+_FLOATING = (XSD + "double", XSD + "float")
 PIECE_BYTES = 2 << 20  # TSV text parsed at a time (tests lower it)
 MAX_GET_URL = 2000  # longer queries go by POST (common server and proxy URL limits)
 T = TypeVar("T")
@@ -92,6 +100,8 @@ class SparqlClient:
         self.url = settings.query_url
         self._http: httpx.Client | None = None
         self.requests = 0
+        #: the row cap a server announced (Virtuoso: ``X-SPARQL-MaxRows`` on a capped answer)
+        self.result_cap: int | None = None
 
     def open(self) -> None:
         s = self.settings
@@ -195,9 +205,9 @@ class SparqlClient:
                 )
             chunks = response.iter_bytes()  # as they arrive
             if fmt == "tsv":
-                yield from _tsv_pieces(chunks, where)
+                yield from map(restore_lexical, _tsv_pieces(chunks, where))
             else:
-                yield read_json_results(b"".join(chunks), where=where)
+                yield restore_lexical(read_json_results(b"".join(chunks), where=where))
 
     def wait_before(self, attempt: int) -> float:
         """Seconds to wait before try ``attempt + 1`` (exponential, with jitter)."""
@@ -230,6 +240,9 @@ class _Exchange:
             raise transport_error(exc, self.client.url) from exc
         self.client.requests += 1
         self._stream = response
+        announced = response.headers.get(CAP_HEADER, "").strip()
+        if announced.isdigit() and int(announced) > 0:
+            self.client.result_cap = int(announced)
         if response.status_code >= 400:
             response.read()
             response.close()
@@ -241,6 +254,22 @@ class _Exchange:
         self._stream.close()
         if isinstance(exc, httpx.HTTPError):
             raise transport_error(exc, self.client.url) from exc
+
+
+def restore_lexical(terms: pa.Table) -> pa.Table:
+    """For each ``v_lexical`` variable (see ``LEXICAL_SUFFIX``): take its text as ``v``'s for
+    xsd:double and xsd:float literals, then drop its columns."""
+    for name in [n for n in terms.column_names if n.endswith(LEXICAL_SUFFIX)]:
+        base = name[: -len(LEXICAL_SUFFIX)]
+        if base not in terms.column_names:
+            continue
+        floating = pc.fill_null(
+            pc.is_in(terms.column(base + "_datatype"), pa.array(_FLOATING)), False
+        )
+        text = pc.if_else(floating, terms.column(name), terms.column(base))
+        terms = terms.set_column(terms.column_names.index(base), base, text)
+        terms = terms.drop_columns([name + suffix for suffix in TERM_SUFFIXES])
+    return terms
 
 
 def _tsv_pieces(chunks: Iterator[bytes], where: str) -> Iterator[pa.Table]:

@@ -4,7 +4,9 @@ A vertex type's members are streamed once (:class:`KeySampler`, memory bounded b
 ``cap``); the sampled IRIs, cut to their leading printable ASCII (so the server compares them
 the same way whether it orders strings by code point or by UTF-16 unit, and so they need no
 escapes), become the candidate bounds. A unit is then read range by range, each range's size
-chosen from the rows per member seen so far (:class:`RangePlanner`). Ranges are
+chosen from the rows per member seen so far (:class:`RangePlanner`). When a server's result
+cap cut the membership answer itself, the sample holds no bound inside some ranges; a range
+that is then found cut is sampled again on its own (:meth:`RangePlanner.refine`). Ranges are
 ``[None, b1)``, ``[b1, b2)``, ... ``[bk, None)``: whatever the bounds, they cover every IRI
 exactly once, so the snapshot does not depend on the sample. Blank-node subjects, which
 ``STR()`` cannot order, are read as one slice of their own.
@@ -73,16 +75,31 @@ class KeySampler:
 
 @dataclass(frozen=True)
 class KeySample:
-    """Sorted candidate bounds; each stands for about ``weight`` member IRIs."""
+    """Sorted candidate bounds; each stands for about ``weight`` member IRIs. ``complete`` is
+    False when a result cap cut the membership answer: the member counts are then lower
+    bounds, and blank-node members may exist unseen."""
 
     bounds: tuple[str, ...]
     iri_members: int
     blank_members: int
     weight: float
+    complete: bool = True
 
     @property
     def members(self) -> int:
         return self.iri_members + self.blank_members
+
+    def merged(self, finer: KeySample) -> KeySample:
+        """This sample plus the bounds of ``finer``, a sample of some of the same keys (one
+        slice's members, read again because the first answer was cut by a result cap)."""
+        bounds = tuple(sorted(set(self.bounds) | set(finer.bounds)))  # ASCII: code point order
+        return KeySample(
+            bounds=bounds,
+            iri_members=max(self.iri_members, finer.iri_members),
+            blank_members=self.blank_members,
+            weight=min(self.weight, finer.weight),
+            complete=self.complete,
+        )
 
 
 @dataclass
@@ -134,20 +151,26 @@ class RangePlanner:
     def whole_unit_fits(self, cursor: RangeCursor) -> bool:
         """True when one unfiltered query can answer the unit (nothing read yet, and the
         members times one row each fit a page)."""
-        return cursor.low is None and not cursor.rows and self.sample.members <= self.target_rows
+        fits = self.sample.complete and self.sample.members <= self.target_rows
+        return cursor.low is None and not cursor.rows and fits
 
     def next_range(self, cursor: RangeCursor) -> tuple[KeyRange, float]:
         """The next slice after ``cursor`` and the estimated members it covers."""
-        if self.sample.blank_members and not cursor.blanks_done:
+        maybe_blanks = self.sample.blank_members or not self.sample.complete
+        if maybe_blanks and not cursor.blanks_done:
             return KeyRange(blank_nodes=True), float(self.sample.blank_members)
         bounds = self.sample.bounds
         # the slice [bounds[start], bounds[start + step]) holds ``step`` sampled members
         start = 0 if cursor.low is None else bisect.bisect_left(bounds, cursor.low)
-        per_member = cursor.rows / cursor.members if cursor.members else 1.0
+        # rows per member so far; none yet (or only an empty blank-node slice): guess one
+        per_member = cursor.rows / cursor.members if cursor.rows and cursor.members else 1.0
+        # under a result cap aim at half of it, a quarter while the rows per member are
+        # unknown (a unit with two rows per member would fill the cap and be read again)
+        share = 2 if cursor.rows else 4
         limit = (
             self.target_rows
             if cursor.row_cap is None
-            else min(self.target_rows, cursor.row_cap // 2)
+            else min(self.target_rows, cursor.row_cap // share)
         )
         wanted = max(1.0, limit / max(per_member, 1e-9))
         step = max(1, int(wanted / max(self.sample.weight, 1e-9)))
@@ -155,6 +178,10 @@ class RangePlanner:
         high = bounds[end] if end < len(bounds) else None
         covered = max(1, min(end, len(bounds)) - start) * self.sample.weight
         return KeyRange(low=cursor.low, high=high), covered
+
+    def refine(self, finer: KeySample) -> None:
+        """Add the bounds of a finer sample of part of the keys (see ``KeySample.merged``)."""
+        self.sample = self.sample.merged(finer)
 
     def narrower(self, key_range: KeyRange) -> KeyRange | None:
         """About half of ``key_range`` (same low bound), or None if no sampled bound lies

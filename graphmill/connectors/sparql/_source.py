@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import threading
 from collections.abc import Iterator
+from dataclasses import replace
 from typing import Any, ClassVar
 
 import pyarrow as pa
@@ -29,6 +30,11 @@ from graphmill.connectors.rdf._queries import (
     unit_variables,
 )
 from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
+from graphmill.connectors.sparql._quirks import (
+    UNION_DEFAULT_GRAPH,
+    fit_results_format,
+    with_float_text,
+)
 from graphmill.connectors.sparql._ranges import KeySample, KeySampler, RangeCursor, RangePlanner
 from graphmill.connectors.sparql._settings import (
     EndpointSettings,
@@ -87,6 +93,13 @@ class SparqlEndpointSource(GraphSource):
         auto, self.known_cap = AUTO_PAGING[self.server.product]
         if self.settings.paging == "auto":
             self.paging = auto
+        asked = str(self.spec.source.get("results_format", "auto"))
+        try:
+            self.settings = fit_results_format(self.settings, self.server.product, asked)
+        except GraphmillError:
+            self.close()
+            raise
+        self.client.settings = self.settings
 
     def close(self) -> None:
         if self.client is not None:
@@ -111,6 +124,22 @@ class SparqlEndpointSource(GraphSource):
             self._failure = exc
             raise
 
+    def _select(self, unit: WorkUnit, **options: Any) -> str:
+        """``unit_query``, with the text of floating-point values where the server rounds
+        them (:func:`~graphmill.connectors.sparql._quirks.with_float_text`)."""
+        return with_float_text(self._query(unit, **options), self.server.product, unit)
+
+    def _query(self, unit: WorkUnit, **options: Any) -> str:
+        """``unit_query``, with DISTINCT on a server whose default graph is a union of graphs
+        (a triple held in two graphs would otherwise come back twice)."""
+        distinct = True if self.server.product in UNION_DEFAULT_GRAPH else None
+        return unit_query(self.spec, unit, distinct=distinct, **options)
+
+    def _cap(self) -> int | None:
+        """The server's result cap: the one it announced, else the one known for it."""
+        announced = self.client.result_cap if self.client is not None else None
+        return announced or self.known_cap
+
     def _where(self, unit: WorkUnit) -> str:
         return f"{self.url} ({unit.unit_id})"
 
@@ -120,9 +149,9 @@ class SparqlEndpointSource(GraphSource):
 
     def _truncated(self, unit: WorkUnit, rows: int, key_range: KeyRange | None) -> bool:
         """Whether the answer of ``rows`` rows was cut short: ask for row ``rows + 1``."""
-        if not looks_capped(rows, self.known_cap):
+        if not looks_capped(rows, self._cap()):
             return False
-        probe = unit_query(self.spec, unit, key_range=key_range, limit=1, offset=rows)
+        probe = self._query(unit, key_range=key_range, limit=1, offset=rows)
         return self._terms(unit, probe).num_rows > 0
 
     def _page(self, unit: WorkUnit, terms: pa.Table, cursor: str) -> Page | None:
@@ -146,7 +175,7 @@ class SparqlEndpointSource(GraphSource):
         assert self.client is not None
         reader = StreamReader(
             self.client,
-            unit_query(self.spec, unit),
+            self._select(unit),
             unit_variables(self.spec, unit),
             page_rows=self._page_rows(),
             where=self._where(unit),
@@ -166,7 +195,7 @@ class SparqlEndpointSource(GraphSource):
         limit = int(state["limit"]) if state.get("limit") else self._page_rows()
         first = unit_variables(self.spec, unit)[0]
         while True:
-            query = unit_query(self.spec, unit, ordered=True, limit=limit, offset=offset)
+            query = self._select(unit, ordered=True, limit=limit, offset=offset)
             terms = self._terms(unit, query)
             rows = terms.num_rows
             if 0 < rows < limit and self._truncated_at(unit, offset, rows):
@@ -187,9 +216,9 @@ class SparqlEndpointSource(GraphSource):
                 return
 
     def _truncated_at(self, unit: WorkUnit, offset: int, rows: int) -> bool:
-        if not looks_capped(rows, self.known_cap):
+        if not looks_capped(rows, self._cap()):
             return False
-        probe = unit_query(self.spec, unit, ordered=True, limit=1, offset=offset + rows)
+        probe = self._query(unit, ordered=True, limit=1, offset=offset + rows)
         return self._terms(unit, probe).num_rows > 0
 
     def _page_rows(self) -> int:
@@ -203,13 +232,35 @@ class SparqlEndpointSource(GraphSource):
                 assert self.client is not None
                 members = WorkUnit("vertices", vertex_type)
                 sink = self.client.select(
-                    unit_query(self.spec, members),
+                    self._query(members),
                     lambda: KeySampler(VERTEX),
                     where=self._where(members),
                 )
                 assert isinstance(sink, KeySampler)
-                self._samples[vertex_type] = sink.sample()
+                sample = sink.sample()
+                if self._truncated(members, sample.members, None):
+                    sample = replace(sample, complete=False)  # cut by a result cap
+                self._samples[vertex_type] = sample
             return self._samples[vertex_type]
+
+    def _resampled(self, owner: str, planner: RangePlanner, key_range: KeyRange) -> KeyRange | None:
+        """Sample the members inside ``key_range`` (the first sample came from an answer the
+        server cut short, so it may hold no bound there); the narrower range that allows."""
+        if key_range.blank_nodes:
+            return None
+        assert self.client is not None
+        members = WorkUnit("vertices", owner)
+        sink = self.client.select(
+            self._query(members, key_range=key_range),
+            lambda: KeySampler(VERTEX),
+            where=self._where(members),
+        )
+        assert isinstance(sink, KeySampler)
+        finer = sink.sample()
+        planner.refine(finer)
+        with self._lock:
+            self._samples[owner] = self._samples[owner].merged(finer)
+        return planner.narrower(key_range)
 
     def _read_ranges(self, unit: WorkUnit, cursor: str | None) -> Iterator[Page]:
         """key-range: one SELECT per slice of subjects, one page per slice."""
@@ -217,11 +268,11 @@ class SparqlEndpointSource(GraphSource):
         if state.finished:
             return
         if state.row_cap is None:
-            state.row_cap = self.known_cap
+            state.row_cap = self._cap()
         owner = unit.name if unit.table == "vertices" else unit.relation.source_type
         planner = RangePlanner(self._sample(owner), self._page_rows())
         if planner.whole_unit_fits(state):
-            terms = self._terms(unit, unit_query(self.spec, unit))
+            terms = self._terms(unit, self._select(unit))
             if not self._truncated(unit, terms.num_rows, None):
                 state.finished = True
                 page = self._page(unit, terms, state.encode())
@@ -231,14 +282,14 @@ class SparqlEndpointSource(GraphSource):
             state.row_cap = terms.num_rows
         while not state.finished:
             key_range, members = planner.next_range(state)
-            terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+            terms = self._terms(unit, self._select(unit, key_range=key_range))
             while self._truncated(unit, terms.num_rows, key_range):
                 state.row_cap = terms.num_rows
-                smaller = planner.narrower(key_range)
+                smaller = planner.narrower(key_range) or self._resampled(owner, planner, key_range)
                 if smaller is None:
                     raise self._capped_error(unit, terms.num_rows)
                 key_range, members = smaller, members / 2
-                terms = self._terms(unit, unit_query(self.spec, unit, key_range=key_range))
+                terms = self._terms(unit, self._select(unit, key_range=key_range))
             state.advance(key_range, terms.num_rows, members)
             page = self._page(unit, terms, state.encode())
             if page is not None:
@@ -288,6 +339,6 @@ class SparqlEndpointSource(GraphSource):
         return Provenance(
             kind=self.kind,
             location=self.url,
-            queries=[unit_query(self.spec, u) for u in self.plan()],
+            queries=[self._query(u) for u in self.plan()],
             details=details,
         )

@@ -46,9 +46,9 @@ def _doc(source: dict, out: Path, graphs: object) -> dict:
 
 
 @pytest.mark.parametrize("choice", list(EXPECTED))
-def test_graph_selection(case_server, case_files, tmp_path, choice):
+def test_graph_selection(quad_server, case_files, tmp_path, choice):
     graphs = OPTIONS[choice]
-    _, info = pull_spec(_doc(endpoint(case_server.query_url, page_size=2), tmp_path / "s", graphs))
+    _, info = pull_spec(_doc(endpoint(quad_server.query_url, page_size=2), tmp_path / "s", graphs))
     dump = {"kind": "rdf-file", "paths": [str(case_files["graphs"])]}
     pull_spec(_doc(dump, tmp_path / "d", graphs))
     assert snapshot_files(tmp_path / "s" / "snapshot") == snapshot_files(

@@ -127,6 +127,8 @@ def _half_done_units(staging: Path) -> list[str]:
 def test_a_pull_cut_off_resumes_to_the_identical_snapshot(
     case_server, tmp_path, paging, monkeypatch
 ):
+    if case_server.kind == "virtuoso" and paging == "single-stream":
+        pytest.skip("Virtuoso answers JSON, parsed whole: a cut unit stages nothing to resume")
     # parse the streamed answers in small pieces, so pages are staged before the cut
     monkeypatch.setattr("graphmill.connectors.sparql._http.PIECE_BYTES", 2048)
     full = tmp_path / "full"

@@ -1,5 +1,9 @@
 """W3C literal and IRI cases survive server -> snapshot, equal to what the specs say, and
-every server gives the same snapshot bytes as the dump read by ``rdf-file``."""
+every server gives the same snapshot bytes as the dump read by ``rdf-file``.
+
+Virtuoso changes one literal while loading (``VIRTUOSO_CHANGES``): there the snapshot must
+equal the dump of what Virtuoso holds, and the changed value what that holds.
+"""
 
 from __future__ import annotations
 
@@ -14,6 +18,11 @@ from sparql_helpers import EX, endpoint, pull_spec, snapshot_files
 from graphmill.snapshot import Snapshot
 
 pytestmark = pytest.mark.servers
+# Measured on Virtuoso 7.2.5 (Debian 12): the largest int64 written as xsd:integer comes back
+# as xsd:decimal, so `count` mixes integer and decimal and is float64 there (the README's
+# rule "integer + float -> float64"); every other case comes back with the same value (some
+# in another lexical form: "true" as "1", "1.5E2" as "150.0", "en-GB" as "en-gb").
+VIRTUOSO_CHANGES = {"int_big": (f'"9223372036854775807"^^<{cases.XSD}decimal>', float(2**63 - 1))}
 
 
 def _doc(source: dict, out: Path) -> dict:
@@ -34,13 +43,44 @@ def from_dump(case_files, tmp_path_factory) -> Path:
     return out / "snapshot"
 
 
-@pytest.mark.parametrize("results_format", ["tsv", "json"])
+@pytest.fixture(scope="module")
+def from_virtuoso_dump(tmp_path_factory) -> Path:
+    """The dump of what Virtuoso holds after loading the literal cases."""
+    out = tmp_path_factory.mktemp("virtuoso-dump")
+    text = cases.literal_ntriples()
+    for name, (stored, _) in VIRTUOSO_CHANGES.items():
+        written = next(obj for case, _, obj, _, _ in cases.LITERAL_CASES if case == name)
+        assert written in text
+        text = text.replace(written, stored)
+    (out / "held.nt").write_text(text, encoding="utf-8")
+    pull_spec(_doc({"kind": "rdf-file", "paths": [str(out / "held.nt")]}, out))
+    return out / "snapshot"
+
+
+def _expected(server_kind: str) -> list[tuple[str, str, str, object, str]]:
+    """The literal cases with the values this server must give back."""
+    if server_kind != "virtuoso":
+        return cases.LITERAL_CASES
+    changed_props = {p for name, p, *_ in cases.LITERAL_CASES if name in VIRTUOSO_CHANGES}
+    out = []
+    for name, prop, written, expected, where in cases.LITERAL_CASES:
+        if name in VIRTUOSO_CHANGES:
+            written, expected = VIRTUOSO_CHANGES[name]
+            where = "as Virtuoso holds it (see VIRTUOSO_CHANGES)"
+        elif prop in changed_props:
+            expected = float(expected)  # type: ignore[arg-type]
+        out.append((name, prop, written, expected, where))
+    return out
+
+
+# auto is TSV on Oxigraph and Fuseki, JSON on Virtuoso (whose TSV is not SPARQL TSV)
+@pytest.mark.parametrize("results_format", ["auto", "json"])
 def test_literals_round_trip(case_server, tmp_path, results_format):
     source = endpoint(case_server.query_url, results_format=results_format)
     _, info = pull_spec(_doc(source, tmp_path))
     things = Snapshot.open(tmp_path / "snapshot").vertices("thing").to_pylist()
     by_id = {row["vertex_id"]: row for row in things}
-    for name, prop, written, expected, where in cases.LITERAL_CASES:
+    for name, prop, written, expected, where in _expected(case_server.kind):
         got = by_id[f"{EX}case/{name}"][prop]
         if isinstance(expected, float) and math.isnan(expected):
             assert math.isnan(got), (name, where)
@@ -61,7 +101,9 @@ def test_iris_round_trip(case_server, tmp_path):
 
 
 @pytest.mark.parametrize("paging", ["key-range", "single-stream", "offset"])
-def test_every_server_and_strategy_matches_the_dump(case_server, tmp_path, from_dump, paging):
+def test_every_server_and_strategy_matches_the_dump(case_server, tmp_path, request, paging):
+    dump = "from_virtuoso_dump" if case_server.kind == "virtuoso" else "from_dump"
+    from_dump = request.getfixturevalue(dump)
     source = endpoint(case_server.query_url, paging=paging, page_size=7)
     pull_spec(_doc(source, tmp_path))
     assert snapshot_files(tmp_path / "snapshot") == snapshot_files(from_dump)

@@ -123,3 +123,22 @@ def test_cursor_round_trip():
     cursor = RangeCursor(low='http://e.test/"odd"', blanks_done=True, rows=5, members=2.5)
     assert RangeCursor.decode(cursor.encode()) == cursor
     assert RangeCursor.decode(None) == RangeCursor()
+
+
+def test_a_capped_sample_reads_the_blank_slice_and_then_sizes_from_the_cap():
+    """A sample cut by a result cap may have missed blank nodes: their slice is read anyway,
+    and an empty answer there must not make the next slice the whole unit."""
+    from dataclasses import replace
+
+    sampler = KeySampler("vertex", cap=1000)
+    keys = [f"http://e.test/{i:06d}" for i in range(1000)]
+    sampler.add(_terms(keys, ["iri"] * 1000))
+    planner = RangePlanner(replace(sampler.sample(), complete=False), 100_000)
+    cursor = RangeCursor(row_cap=400)
+    assert not planner.whole_unit_fits(cursor)
+    blank, members = planner.next_range(cursor)
+    assert blank.blank_nodes and members == 0
+    cursor.advance(blank, 0, members)  # no blank nodes after all
+    first, _ = planner.next_range(cursor)
+    # rows per member unknown: a quarter of the cap, 100 members at one row each
+    assert (first.low, first.high) == (None, keys[100])
