@@ -134,6 +134,16 @@ class RdfOptions:
 
 
 @dataclass(frozen=True)
+class EngineSpec:
+    """Which engine runs the heavy set work, and its resources (``None``: the engine's own)."""
+
+    kind: str = "local"
+    memory_limit: str | None = None  # e.g. "2GiB"
+    spill_folder: Path | None = None  # default: "<bundle>.spill"
+    threads: int | None = None
+
+
+@dataclass(frozen=True)
 class OutputSpec:
     snapshot: Path
     bundle: Path
@@ -161,6 +171,7 @@ class PipelineSpec:
     output: OutputSpec
     base_dir: Path
     spec_file: Path | None = None
+    engine: EngineSpec = field(default_factory=EngineSpec)
     raw: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
 
     def relation(self, key: RelationKey) -> RelationSpec:
@@ -260,6 +271,15 @@ def spec_from_dict(
         else Path(f"{snapshot}.report.json"),
         junit=_absolute(out["junit"], base) if "junit" in out else None,
     )
+    engine_doc = doc.get("engine", {})
+    engine = EngineSpec(
+        kind=engine_doc.get("kind", "local"),
+        memory_limit=engine_doc.get("memory_limit"),
+        spill_folder=_absolute(engine_doc["spill_folder"], base)
+        if "spill_folder" in engine_doc
+        else None,
+        threads=engine_doc.get("threads"),
+    )
     checks_doc = doc.get("checks", {})
     spec = PipelineSpec(
         name=doc.get("name", (spec_file.stem if spec_file else "graph")),
@@ -285,6 +305,7 @@ def spec_from_dict(
         output=output,
         base_dir=base,
         spec_file=spec_file,
+        engine=engine,
         raw=doc,
     )
     _cross_check(spec, where)

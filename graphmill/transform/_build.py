@@ -21,11 +21,12 @@ from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.engine import Engine, open_engine
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
-from graphmill.transform._edges import EdgeArrays, apply_edge_policy
-from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
+from graphmill.transform._edges import EdgeArrays
+from graphmill.transform._indexing import VertexIndex, index_vertices
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
 from graphmill.transform._pseudonyms import SCHEME, pseudonym_key, pseudonymizer
 from graphmill.transform._vertices import add_vertex_type
@@ -68,8 +69,17 @@ def build_bundle(
     *,
     checks_summary: dict[str, Any] | None = None,
     progress: Progress | None = None,
+    engine: Engine | None = None,
 ) -> BuildInfo:
-    """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically."""
+    """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
+
+    ``engine`` runs the set operations (default: the one the spec names, opened here).
+    """
+    if engine is None:
+        with open_engine(spec) as opened:
+            return build_bundle(
+                spec, snapshot, checks_summary=checks_summary, progress=progress, engine=opened
+            )
     started = time.perf_counter()
     progress = progress or SilentProgress()
     key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
@@ -84,7 +94,9 @@ def build_bundle(
         columns = [VERTEX_ID] + [p.name for p in vt.properties]
         table = snapshot.vertices(name).select(columns)
         fn = pseudonymizer(name, key) if key is not None else None
-        indices[name] = vi = index_vertices(name, table, pseudonymize=fn)
+        indices[name] = vi = index_vertices(
+            name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
+        )
         check_unique(vi)
         info.warnings += add_vertex_type(content, spec, vi)
         info.vertex_counts[name] = vi.count
@@ -92,7 +104,7 @@ def build_bundle(
         task.advance()
     task = progress.task("build relations", total=len(spec.relations))
     for rel in spec.relations:
-        _add_relation(content, info, spec, snapshot, rel, indices)
+        _add_relation(content, info, spec, snapshot, rel, indices, engine)
         task.advance()
     if spec.label is not None:
         split = content.manifest["split"]
@@ -139,6 +151,7 @@ def _add_relation(
     snapshot: Snapshot,
     rel: Any,
     indices: dict[str, VertexIndex],
+    engine: Engine,
 ) -> None:
     key: RelationKey = rel.key
     table = snapshot.edges(key).select([SOURCE_ID, TARGET_ID] + [p.name for p in rel.properties])
@@ -150,9 +163,9 @@ def _add_relation(
             f"{key.dotted}: an undirected relation between two vertex types cannot be "
             "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
         )
-    outcome = apply_edge_policy(
-        map_endpoints(table.column(SOURCE_ID), src.ids),
-        map_endpoints(table.column(TARGET_ID), dst.ids),
+    outcome = engine.edge_policy(
+        engine.endpoint_positions(table.column(SOURCE_ID), src.ids),
+        engine.endpoint_positions(table.column(TARGET_ID), dst.ids),
         same_type=same_type,
         vertex_count=src.count,
         duplicates=spec.edges.duplicates,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
 import pyarrow as pa
@@ -13,7 +13,9 @@ import pyarrow.compute as pc
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey, RelationSpec
-from graphmill.validate.rules import PairCodes, pair_codes
+
+if TYPE_CHECKING:
+    from graphmill.engine import Engine
 
 T = TypeVar("T")
 ID_COLUMNS = {"vertices": [VERTEX_ID], "edges": [SOURCE_ID, TARGET_ID]}
@@ -81,9 +83,10 @@ def counted(n: int, noun: str, plural: str | None = None) -> str:
 class CheckContext:
     """The snapshot and spec as checks see them; each table is read once per run."""
 
-    def __init__(self, spec: PipelineSpec, snapshot: Snapshot) -> None:
+    def __init__(self, spec: PipelineSpec, snapshot: Snapshot, engine: Engine) -> None:
         self.spec = spec
         self.snapshot = snapshot
+        self.engine = engine  # runs the set operations of the checks
         self.sample_size = spec.checks.sample_size
         self._tables: dict[tuple[str, str], pa.Table] = {}
         self._memo: dict[tuple[Any, ...], Any] = {}
@@ -136,24 +139,6 @@ class CheckContext:
             return vt.property(prop) if vt else None
         rel = self.relation_spec(RelationKey.parse(name))
         return next((p for p in rel.properties if p.name == prop), None) if rel else None
-
-    def endpoints_of(self, vertex_type: str) -> list[pa.ChunkedArray]:
-        """Endpoint columns of every relation on the sides where ``vertex_type`` stands."""
-        out: list[pa.ChunkedArray] = []
-        for rel in self.relations:
-            if rel.source_type == vertex_type:
-                out.append(self.edges(rel).column(SOURCE_ID))
-            if rel.target_type == vertex_type:
-                out.append(self.edges(rel).column(TARGET_ID))
-        return out
-
-    def pair_codes(self, relation: RelationKey) -> PairCodes:
-        """The relation's endpoint codes, computed once per run and shared by the rules."""
-        edges = self.edges(relation)
-        return self.memo(
-            ("codes", relation.dotted),
-            lambda: pair_codes(edges.column(SOURCE_ID), edges.column(TARGET_ID)),
-        )
 
     def memo(self, key: tuple[Any, ...], compute: Callable[[], T]) -> T:
         """``compute()`` once per run for ``key`` (shared between rules)."""

@@ -1,0 +1,233 @@
+"""``LocalEngine``: the plan's hot operations as SQL on an embedded DuckDB connection.
+
+Arrow tables go in as zero-copy scans; positions come back as numpy. Operations not moved
+yet (``REFERENCE_ONLY`` and anything not in ``native``) run on the reference code, which
+this class inherits.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill.engine._base import Column
+from graphmill.engine._contracts import Offenders
+from graphmill.engine.local import _queries as q
+from graphmill.engine.local._session import Session
+from graphmill.engine.reference import ReferenceEngine
+from graphmill.transform._edges import DROP_REASONS, EdgeArrays, EdgeOutcome
+
+ENDPOINTS = ["source_id", "target_id"]
+
+
+def _column(values: Column) -> pa.ChunkedArray:
+    return values if isinstance(values, pa.ChunkedArray) else pa.chunked_array([values])
+
+
+def _rows(n: int) -> pa.Array:
+    return pa.array(np.arange(n, dtype=np.int64))
+
+
+class LocalEngine(ReferenceEngine):
+    """Embedded DuckDB: multi-threaded, spills to disk under ``engine.memory_limit``."""
+
+    kind = "local"
+    native = frozenset(
+        {
+            "canonical-order",
+            "vertex-index",
+            "endpoint-index",
+            "edge-policy",
+            "dangling-edges",
+            "self-loops",
+            "repeated-edges",
+            "parallel-edges",
+            "reciprocity",
+            "one-way-edges",
+            "isolated-vertices",
+        }
+    )
+
+    def __init__(self, *args: Any, **kwargs: Any) -> None:
+        super().__init__(*args, **kwargs)
+        self._session: Session | None = None
+
+    @property
+    def session(self) -> Session:
+        """The DuckDB session, connected on first use."""
+        if self._session is None:
+            self._session = Session(
+                memory_limit=self.settings.memory_limit,
+                threads=self.settings.threads,
+                spill_folder=self.spill_folder,
+            )
+        return self._session
+
+    def close(self) -> None:
+        super().close()
+        if self._session is not None:
+            self._session.close()
+            self._session = None
+
+    # ------------------------------------------------------------------ pull
+    def canonical_order(self, table: pa.Table, keys: Sequence[str]) -> np.ndarray:
+        if not table.num_rows or not keys:
+            return np.arange(table.num_rows, dtype=np.int64)
+        keyed = table.select(list(keys)).append_column("gm_row", _rows(table.num_rows))
+        with self.session.tables(t=keyed) as n:
+            return self.session.positions(q.order_by(keys, "gm_row").format(t=n["t"]))
+
+    # ------------------------------------------------------------------ build
+    def first_rows_by_id(self, ids: Column) -> np.ndarray:
+        table = pa.table({"id": _column(ids), "row": _rows(len(ids))})
+        with self.session.tables(v=table) as n:
+            return self.session.positions(q.first_rows(n["v"]))
+
+    def endpoint_positions(self, endpoint_ids: Column, vertex_ids: pa.Array) -> np.ndarray:
+        out = np.full(len(endpoint_ids), -1, dtype=np.int64)
+        if not len(endpoint_ids) or not len(vertex_ids):
+            return out
+        ends = pa.table({"id": _column(endpoint_ids), "row": _rows(len(endpoint_ids))})
+        verts = pa.table({"id": _column(vertex_ids), "position": _rows(len(vertex_ids))})
+        with self.session.tables(e=ends, v=verts) as n:
+            found = self.session.arrow(q.endpoint_positions(n["e"], n["v"]))
+        out[found.column(0).to_numpy()] = found.column(1).to_numpy()
+        return out
+
+    def edge_policy(
+        self,
+        source: np.ndarray,
+        target: np.ndarray,
+        *,
+        same_type: bool,
+        vertex_count: int,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        s = self.session
+        mapped = pa.table({"s": source, "t": target, "row": _rows(len(source))})
+        dropped = dict.fromkeys(DROP_REASONS, 0)
+        with s.tables(m=mapped) as n:
+            both, no_source, no_target = s.ints(q.dangling_counts(n["m"]))
+            dropped.update(
+                {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
+            )
+            drop_loops = same_type and self_loops == "drop"
+            with s.scratch(q.kept_edges(n["m"], drop_loops=drop_loops)) as kept:
+                (kept_count,) = s.ints(f"SELECT count(*) FROM {kept}")
+                if drop_loops:
+                    dropped["self-loop"] = len(source) - both - no_source - no_target - kept_count
+                union = f"SELECT s, t, row, 0 AS added FROM {kept}"
+                added = 0
+                if same_type and symmetrize:
+                    with s.scratch(q.missing_reverses(kept)) as extra:
+                        (added,) = s.ints(f"SELECT count(*) FROM {extra}")
+                        union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
+                        result = s.arrow(q.resolved(f"({union})", duplicates))
+                else:
+                    result = s.arrow(q.resolved(f"({union})", duplicates))
+        def column(name: str) -> np.ndarray:
+            return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
+
+        multiplicity = column("multiplicity") if duplicates == "merge" else None
+        edges = EdgeArrays(column("s"), column("t"), column("row"), multiplicity)
+        removed = kept_count + added - len(edges)
+        outcome = EdgeOutcome(edges, dropped, added_reverses=added)
+        if duplicates == "merge":
+            outcome.merged = removed
+        else:
+            outcome.dropped["repeated-edge"] = removed
+        return outcome
+
+    # ------------------------------------------------------------------ check
+    def dangling_edges(
+        self, edges: pa.Table, source_ids: Column, target_ids: Column, k: int
+    ) -> Offenders:
+        s = self.session
+        sources = pa.table({"vertex_id": _column(source_ids)})
+        targets = pa.table({"vertex_id": _column(target_ids)})
+        with (
+            s.tables(e=edges.select(ENDPOINTS), vs=sources, vt=targets) as n,
+            s.scratch(q.dangling_edges(n["e"], n["vs"], n["vt"])) as flagged,
+        ):
+            count, on_source, on_target = s.ints(
+                f"SELECT count(*), count(*) FILTER (WHERE no_source), "
+                f"count(*) FILTER (WHERE no_target) FROM {flagged}"
+            )
+            sample = s.records(q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k))
+        return Offenders(count, sample, {"source_side": on_source, "target_side": on_target})
+
+    def self_loops(self, edges: pa.Table, k: int) -> Offenders:
+        s = self.session
+        with s.tables(e=edges.select(ENDPOINTS)) as n:
+            loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
+            (count,) = s.ints(f"SELECT count(*) FROM {loops}")
+            return Offenders(count, s.records(q.sample(loops, ENDPOINTS, k)))
+
+    def repeated_edges(self, edges: pa.Table, k: int) -> Offenders:
+        s = self.session
+        key = q.group_key(edges.schema)
+        with s.tables(e=edges) as n:
+            grouped = (
+                f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
+                f"GROUP BY {key} HAVING count(*) > 1"
+            )
+            with s.scratch(grouped) as rep:
+                extra, rows = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {rep}")
+                sample = s.records(q.sample(rep, [*ENDPOINTS, "copies"], k))
+        return Offenders(extra, sample, {"repeated_edges": rows})
+
+    def parallel_edges(self, edges: pa.Table, k: int) -> Offenders:
+        if edges.num_columns == 2:  # without properties a pair has one distinct row
+            return Offenders(0, [], {"pairs": 0})
+        s = self.session
+        key = q.group_key(edges.schema)
+        with s.tables(e=edges) as n:
+            grouped = (
+                f"SELECT source_id, target_id, count(*) AS variants FROM "
+                f"(SELECT source_id, target_id FROM {n['e']} GROUP BY {key}) "
+                "GROUP BY source_id, target_id HAVING count(*) > 1"
+            )
+            with s.scratch(grouped) as par:
+                extra, pairs = s.ints(f"SELECT sum(variants) - count(*), count(*) FROM {par}")
+                sample = s.records(q.sample(par, [*ENDPOINTS, "variants"], k))
+        return Offenders(extra, sample, {"pairs": pairs})
+
+    def reciprocity(self, edges: pa.Table) -> Offenders:
+        s = self.session
+        with (
+            s.tables(e=edges.select(ENDPOINTS)) as n,
+            s.scratch(q.distinct_pairs(n["e"])) as pairs,
+        ):
+            (back,) = s.ints(q.reciprocated(pairs))
+            (total,) = s.ints(f"SELECT count(*) FROM {pairs}")
+        return Offenders(back, [], {"pairs": total})
+
+    def one_way_edges(self, edges: pa.Table, k: int) -> Offenders:
+        s = self.session
+        with (
+            s.tables(e=edges.select(ENDPOINTS)) as n,
+            s.scratch(q.distinct_pairs(n["e"])) as pairs,
+            s.scratch(q.one_way(n["e"], pairs)) as ow,
+        ):
+            (count,) = s.ints(f"SELECT count(*) FROM {ow}")
+            (distinct,) = s.ints(f"SELECT count(*) FROM ({q.distinct_pairs(ow)})")
+            sample = s.records(q.sample(ow, ENDPOINTS, k))
+        return Offenders(count, sample, {"pairs": distinct})
+
+    def isolated_vertices(
+        self, vertex_ids: Column, sides: Sequence[tuple[pa.Table, str]], k: int
+    ) -> Offenders:
+        s = self.session
+        ends = {f"e{i}": edges.select([f"{side}_id"]) for i, (edges, side) in enumerate(sides)}
+        with s.tables(v=pa.table({"vertex_id": _column(vertex_ids)}), **ends) as n:
+            named = [(n[f"e{i}"], side) for i, (_, side) in enumerate(sides)]
+            with s.scratch(q.isolated(n["v"], named)) as iso:
+                (count,) = s.ints(f"SELECT count(*) FROM {iso}")
+                (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
+                sample = s.records(q.sample(iso, ["vertex_id"], k))
+        return Offenders(count, sample, {"total": total})

@@ -1,0 +1,122 @@
+"""A DuckDB connection set up from the spec's ``engine`` section, and Arrow in and out.
+
+``memory_limit`` makes DuckDB spill to ``temp_directory`` (the spill folder beside the
+output) instead of growing; ``threads`` caps its workers. The spill folder is created by
+DuckDB when it first spills and removed on close if this session created it.
+"""
+
+from __future__ import annotations
+
+import itertools
+import shutil
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill.errors import MissingExtraError, SpecError
+
+try:
+    import duckdb
+except ImportError as exc:  # pragma: no cover - duckdb is a core dependency
+    raise MissingExtraError(
+        "the local engine needs DuckDB, which is not installed",
+        hint="install it with: pip install duckdb, or set engine.kind: reference",
+    ) from exc
+
+_names = itertools.count()
+
+
+def quote(name: str) -> str:
+    """An SQL identifier for a column name, whatever its characters."""
+    return '"' + name.replace('"', '""') + '"'
+
+
+class Session:
+    """One DuckDB connection with the engine's resources applied."""
+
+    def __init__(
+        self, *, memory_limit: str | None, threads: int | None, spill_folder: Path | None
+    ) -> None:
+        self.connection = duckdb.connect(":memory:")
+        self.spill_folder = spill_folder
+        self._created_spill = spill_folder is not None and not spill_folder.exists()
+        try:
+            if memory_limit is not None:
+                self.connection.execute(f"SET memory_limit = '{_size(memory_limit)}'")
+            if threads is not None:
+                self.connection.execute(f"SET threads = {int(threads)}")
+            if spill_folder is not None:
+                self.connection.execute("SET temp_directory = ?", [str(spill_folder)])
+        except duckdb.Error as exc:
+            self.connection.close()
+            raise SpecError(
+                f"the local engine refused a setting: {exc}", key_path="engine"
+            ) from exc
+        # Every query that needs an order says ORDER BY; this lets DuckDB stream and spill.
+        self.connection.execute("SET preserve_insertion_order = false")
+
+    def close(self) -> None:
+        self.connection.close()
+        if self._created_spill and self.spill_folder is not None:
+            shutil.rmtree(self.spill_folder, ignore_errors=True)
+
+    @contextmanager
+    def tables(self, **tables: pa.Table) -> Iterator[dict[str, str]]:
+        """Register Arrow tables (zero-copy scans) under fresh names; yields name -> SQL name."""
+        names = {key: f"gm_{key}_{next(_names)}" for key in tables}
+        try:
+            for key, table in tables.items():
+                self.connection.register(names[key], table)
+            yield names
+        finally:
+            for name in names.values():
+                self.connection.unregister(name)
+
+    @contextmanager
+    def scratch(self, query: str, params: list[Any] | None = None) -> Iterator[str]:
+        """Materialize ``query`` as a temporary table (spillable); dropped afterwards."""
+        name = f"gm_tmp_{next(_names)}"
+        self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}", params or [])
+        try:
+            yield name
+        finally:
+            self.connection.execute(f"DROP TABLE IF EXISTS {name}")
+
+    def arrow(self, query: str) -> pa.Table:
+        return self.connection.sql(query).to_arrow_table()
+
+    def positions(self, query: str) -> np.ndarray:
+        """The single int64 column of ``query``, as numpy."""
+        table = self.arrow(query)
+        if not table.num_rows:
+            return np.zeros(0, dtype=np.int64)
+        return np.asarray(table.column(0).to_numpy(), dtype=np.int64)
+
+    def ints(self, query: str) -> tuple[int, ...]:
+        """The single row of integers ``query`` returns (NULL as 0)."""
+        rows = self.connection.sql(query).fetchall()
+        row = rows[0] if rows else ()
+        return tuple(int(v or 0) for v in row)
+
+    def records(self, query: str) -> list[dict[str, Any]]:
+        return self.arrow(query).to_pylist()
+
+
+_UNITS = {"B": 1, "KB": 10**3, "MB": 10**6, "GB": 10**9, "TB": 10**12}
+_UNITS |= {"KIB": 2**10, "MIB": 2**20, "GIB": 2**30, "TIB": 2**40}
+
+
+def _size(text: str) -> str:
+    """A memory size of the spec (``"2GiB"``, ``"512 MB"``) as DuckDB's byte count."""
+    number = text.rstrip("BKMGTiIb ").strip() if text else ""
+    unit = text[len(number) :].strip().upper()
+    try:
+        return f"{int(float(number) * _UNITS[unit])}B"
+    except (ValueError, KeyError):
+        raise SpecError(
+            f"{text!r} is not a memory size", key_path="engine.memory_limit", hint="e.g. 2GiB"
+        ) from None
