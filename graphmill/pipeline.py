@@ -58,6 +58,9 @@ class Pipeline:
     """The stages of one spec. Each stage reads what the previous one published on disk."""
 
     def __init__(self, spec: PipelineSpec, *, progress: Progress | None = None) -> None:
+        from graphmill.engine import check_settings
+
+        check_settings(spec.engine)  # an unknown engine or bad size fails before any work
         self.spec = spec
         self.progress = progress or SilentProgress()
 

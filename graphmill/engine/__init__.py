@@ -13,7 +13,9 @@ from graphmill.engine._registry import (
     BUILTIN_ENGINES,
     DEFAULT_ENGINE,
     available_engines,
+    check_settings,
     engine_class,
+    memory_bytes,
     open_engine,
     spill_folder_of,
 )
@@ -27,7 +29,9 @@ __all__ = [
     "Offenders",
     "Operation",
     "available_engines",
+    "check_settings",
     "engine_class",
+    "memory_bytes",
     "open_engine",
     "spill_folder_of",
 ]

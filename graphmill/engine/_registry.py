@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import difflib
 import importlib
+import re
 from importlib.metadata import entry_points
 from pathlib import Path
 
@@ -60,6 +61,34 @@ def engine_class(kind: str) -> type[Engine]:
         ) from exc
     cls: type[Engine] = getattr(module, class_name)
     return cls
+
+
+_SIZE = re.compile(r"^([0-9]+(?:\.[0-9]+)?)\s*(B|KB|MB|GB|TB|KiB|MiB|GiB|TiB)$")
+_UNITS = {"B": 1, "KB": 10**3, "MB": 10**6, "GB": 10**9, "TB": 10**12}
+_UNITS |= {"KiB": 2**10, "MiB": 2**20, "GiB": 2**30, "TiB": 2**40}
+
+
+def memory_bytes(text: str) -> int:
+    """A memory size as the spec writes it, in bytes.
+
+    >>> memory_bytes("2GiB"), memory_bytes("1.5 MB")
+    (2147483648, 1500000)
+    """
+    match = _SIZE.match(text.strip())
+    if match is None:
+        raise SpecError(
+            f"{text!r} is not a memory size",
+            key_path="engine.memory_limit",
+            hint="a number and a unit, e.g. 2GiB or 512MB",
+        )
+    return int(float(match.group(1)) * _UNITS[match.group(2)])
+
+
+def check_settings(settings: EngineSpec) -> None:
+    """Refuse an unknown engine kind or a malformed memory size before any work starts."""
+    engine_class(settings.kind)
+    if settings.memory_limit is not None:
+        memory_bytes(settings.memory_limit)
 
 
 def spill_folder_of(spec: PipelineSpec) -> Path:

@@ -130,6 +130,7 @@ class LocalEngine(ReferenceEngine):
                         result = s.arrow(q.resolved(f"({union})", duplicates))
                 else:
                     result = s.arrow(q.resolved(f"({union})", duplicates))
+
         def column(name: str) -> np.ndarray:
             return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
 

@@ -77,7 +77,7 @@ def group_key(schema: pa.Schema) -> str:
         if pa.types.is_floating(kind):
             cast = f"CAST({name} AS VARCHAR)"
             if pa.types.is_list(f.type):
-                cast = f"list_transform({name}, x -> CAST(x AS VARCHAR))"
+                cast = f"list_transform({name}, lambda x: CAST(x AS VARCHAR))"
             parts.append(cast)
         else:
             parts.append(name)

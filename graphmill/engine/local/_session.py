@@ -17,6 +17,7 @@ from typing import Any
 import numpy as np
 import pyarrow as pa
 
+from graphmill.engine._registry import memory_bytes
 from graphmill.errors import MissingExtraError, SpecError
 
 try:
@@ -46,7 +47,7 @@ class Session:
         self._created_spill = spill_folder is not None and not spill_folder.exists()
         try:
             if memory_limit is not None:
-                self.connection.execute(f"SET memory_limit = '{_size(memory_limit)}'")
+                self.connection.execute(f"SET memory_limit = '{memory_bytes(memory_limit)}B'")
             if threads is not None:
                 self.connection.execute(f"SET threads = {int(threads)}")
             if spill_folder is not None:
@@ -104,19 +105,3 @@ class Session:
 
     def records(self, query: str) -> list[dict[str, Any]]:
         return self.arrow(query).to_pylist()
-
-
-_UNITS = {"B": 1, "KB": 10**3, "MB": 10**6, "GB": 10**9, "TB": 10**12}
-_UNITS |= {"KIB": 2**10, "MIB": 2**20, "GIB": 2**30, "TIB": 2**40}
-
-
-def _size(text: str) -> str:
-    """A memory size of the spec (``"2GiB"``, ``"512 MB"``) as DuckDB's byte count."""
-    number = text.rstrip("BKMGTiIb ").strip() if text else ""
-    unit = text[len(number) :].strip().upper()
-    try:
-        return f"{int(float(number) * _UNITS[unit])}B"
-    except (ValueError, KeyError):
-        raise SpecError(
-            f"{text!r} is not a memory size", key_path="engine.memory_limit", hint="e.g. 2GiB"
-        ) from None
