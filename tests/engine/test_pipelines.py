@@ -54,7 +54,7 @@ def test_karate_club_is_identical_on_every_engine(tmp_path: Path) -> None:
                     "relation": "meets",
                 }
             ],
-        },  # fmt: skip
+        },
         "vertex_types": {
             "person": {"properties": {"club": {"kind": "string"}, "seat": {"kind": "integer"}}}
         },
