@@ -505,6 +505,15 @@ class Snapshot:
     def edges(self, relation: RelationKey) -> pa.Table:
         return pq.read_table(self.root / self._entries[("edges", relation.dotted)]["file"])
 
+    def file(self, kind: str, name: str) -> Path:
+        """The Parquet file of a table (``kind`` is vertices or edges), for engines that scan
+        files themselves."""
+        return self.root / self._entries[(kind, name)]["file"]
+
+    def rows(self, kind: str, name: str) -> int:
+        """A table's row count, from ``snapshot.json`` (nothing is read)."""
+        return int(self._entries[(kind, name)]["rows"])
+
     def value_kinds(self, kind: str, name: str) -> dict[str, dict[str, int]]:
         entry = self._entries[(kind, name)]
         return {c["name"]: c["value_kinds"] for c in entry["columns"]}

@@ -2,7 +2,8 @@
 
 An engine is opened per stage (``with open_engine(spec) as engine: ...``) and closed after,
 so no state outlives a stage. Columns are Arrow arrays (``pa.Array`` or ``pa.ChunkedArray``);
-positions and indices are int64 numpy arrays.
+positions and indices are int64 numpy arrays. Check operations take their edge tables as
+:data:`TableInput`: an Arrow table, or the snapshot's Parquet file.
 """
 
 from __future__ import annotations
@@ -22,6 +23,9 @@ if TYPE_CHECKING:  # the transform package imports the engines, not the other wa
     from graphmill.transform._edges import EdgeOutcome
 
 Column: TypeAlias = pa.Array | pa.ChunkedArray
+#: A table given to an operation: in memory, or a Parquet file (a snapshot's) that an engine
+#: may scan itself without the rows ever entering Python.
+TableInput: TypeAlias = pa.Table | Path
 
 
 class Engine(ABC):
@@ -75,33 +79,33 @@ class Engine(ABC):
     # ------------------------------------------------------------------ check
     @abstractmethod
     def dangling_edges(
-        self, edges: pa.Table, source_ids: Column, target_ids: Column, k: int
+        self, edges: TableInput, source_ids: Column, target_ids: Column, k: int
     ) -> Offenders:
         """``dangling-edges``."""
 
     @abstractmethod
-    def self_loops(self, edges: pa.Table, k: int) -> Offenders:
+    def self_loops(self, edges: TableInput, k: int) -> Offenders:
         """``self-loops``."""
 
     @abstractmethod
-    def repeated_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         """``repeated-edges``."""
 
     @abstractmethod
-    def parallel_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
         """``parallel-edges``."""
 
     @abstractmethod
-    def reciprocity(self, edges: pa.Table) -> Offenders:
+    def reciprocity(self, edges: TableInput) -> Offenders:
         """``reciprocity``."""
 
     @abstractmethod
-    def one_way_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         """``one-way-edges``."""
 
     @abstractmethod
     def isolated_vertices(
-        self, vertex_ids: Column, sides: Sequence[tuple[pa.Table, str]], k: int
+        self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
         """``isolated-vertices``; ``sides``: (edge table, "source" or "target") for every
         relation side where the vertex type stands."""

@@ -9,13 +9,15 @@ computed once per table and shared by the check operations, as the rules allow.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
+import pyarrow.parquet as pq
 
-from graphmill.engine._base import Column, Engine
+from graphmill.engine._base import Column, Engine, TableInput
 from graphmill.engine._contracts import OPERATIONS, Offenders
 from graphmill.transform._edges import EdgeOutcome, apply_edge_policy
 from graphmill.transform._indexing import first_rows_by_id, map_endpoints
@@ -50,9 +52,11 @@ class ReferenceEngine(Engine):
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self._memo: dict[tuple[str, int], tuple[pa.Table, Any]] = {}
+        self._files: dict[Path, pa.Table] = {}
 
     def close(self) -> None:
         self._memo.clear()
+        self._files.clear()
 
     def _shared(self, what: str, edges: pa.Table, compute: Any) -> Any:
         """``compute()`` once per edge table (kept alive with the result, so ``id`` holds)."""
@@ -60,6 +64,14 @@ class ReferenceEngine(Engine):
         if key not in self._memo:
             self._memo[key] = (edges, compute())
         return self._memo[key][1]
+
+    def _table(self, edges: TableInput) -> pa.Table:
+        """An input as an Arrow table; a file is read once per engine."""
+        if not isinstance(edges, Path):
+            return edges
+        if edges not in self._files:
+            self._files[edges] = pq.read_table(edges)
+        return self._files[edges]
 
     def _codes(self, edges: pa.Table) -> PairCodes:
         return self._shared(
@@ -110,8 +122,9 @@ class ReferenceEngine(Engine):
 
     # ------------------------------------------------------------------ check
     def dangling_edges(
-        self, edges: pa.Table, source_ids: Column, target_ids: Column, k: int
+        self, edges: TableInput, source_ids: Column, target_ids: Column, k: int
     ) -> Offenders:
+        edges = self._table(edges)
         codes = self._codes(edges)
         src = dangling_mask(edges.column("source_id"), source_ids, coded=(codes, "source"))
         dst = dangling_mask(edges.column("target_id"), target_ids, coded=(codes, "target"))
@@ -123,28 +136,33 @@ class ReferenceEngine(Engine):
         details = {"source_side": _sum(src), "target_side": _sum(dst)}
         return Offenders(_sum(either), sorted_sample(records, k), details)
 
-    def self_loops(self, edges: pa.Table, k: int) -> Offenders:
+    def self_loops(self, edges: TableInput, k: int) -> Offenders:
+        edges = self._table(edges)
         mask = self_loop_mask(edges.column("source_id"), edges.column("target_id"))
         return Offenders(_sum(mask), sorted_sample(edges.select(ENDPOINTS).filter(mask), k))
 
-    def repeated_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
+        edges = self._table(edges)
         repeats = exact_repeats(edges, codes=self._codes(edges), distinct=self._distinct(edges))
         extra = _sum(repeats.column("copies")) - repeats.num_rows
         return Offenders(extra, sorted_sample(repeats, k), {"repeated_edges": repeats.num_rows})
 
-    def parallel_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
+        edges = self._table(edges)
         codes, distinct = self._codes(edges), self._distinct(edges)
         variants = parallel_variants(edges, codes=codes, distinct=distinct)
         extra = _sum(variants.column("variants")) - variants.num_rows
         return Offenders(extra, sorted_sample(variants, k), {"pairs": variants.num_rows})
 
-    def reciprocity(self, edges: pa.Table) -> Offenders:
+    def reciprocity(self, edges: TableInput) -> Offenders:
+        edges = self._table(edges)
         back, pairs = reciprocity_counts(
             edges.column("source_id"), edges.column("target_id"), codes=self._codes(edges)
         )
         return Offenders(back, [], {"pairs": pairs})
 
-    def one_way_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
+        edges = self._table(edges)
         codes = self._codes(edges)
         back = reciprocated_mask(edges.column("source_id"), edges.column("target_id"), codes=codes)
         mask = pc.invert(back)
@@ -154,12 +172,13 @@ class ReferenceEngine(Engine):
         return Offenders(_sum(mask), sorted_sample(one_way, k), {"pairs": pairs})
 
     def isolated_vertices(
-        self, vertex_ids: Column, sides: Sequence[tuple[pa.Table, str]], k: int
+        self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
+        tables = [(self._table(edges), side) for edges, side in sides]
         ids = vertex_ids.combine_chunks() if isinstance(vertex_ids, pa.ChunkedArray) else vertex_ids
-        coded = [(self._codes(edges), side) for edges, side in sides]
+        coded = [(self._codes(edges), side) for edges, side in tables]
         mask = isolated_mask(
-            ids, [edges.column(f"{side}_id") for edges, side in sides], coded=coded
+            ids, [edges.column(f"{side}_id") for edges, side in tables], coded=coded
         )
         isolated = pc.unique(ids.filter(mask))
         sample = sorted_sample(pa.table({"vertex_id": isolated}), k)

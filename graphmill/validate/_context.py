@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
@@ -122,12 +123,26 @@ class CheckContext:
     def edges(self, relation: RelationKey) -> pa.Table:
         return self.table("edges", relation.dotted)
 
+    def edge_input(self, relation: RelationKey) -> pa.Table | Path:
+        """The relation's edges as an engine input: the snapshot's Parquet file when the
+        table is not in memory already (so an engine that scans files never loads it here)."""
+        key = ("edges", relation.dotted)
+        if key in self._present and key not in self._tables:
+            return self.snapshot.file(*key)
+        return self.table(*key)
+
+    def rows(self, table: str, name: str) -> int:
+        """A table's row count (0 if absent), without reading it."""
+        return self.snapshot.rows(table, name) if self.has(table, name) else 0
+
     def value_kinds(self, table: str, name: str) -> dict[str, dict[str, int]]:
         return self.snapshot.value_kinds(table, name) if self.has(table, name) else {}
 
     def property_columns(self, table: str, name: str) -> list[str]:
         """The table's property columns (every column but the IDs), in table order."""
         ids = ID_COLUMNS[table]
+        if self.has(table, name) and (table, name) not in self._tables:
+            return [c for c in self.snapshot.value_kinds(table, name) if c not in ids]
         return [c for c in self.table(table, name).column_names if c not in ids]
 
     def relation_spec(self, relation: RelationKey) -> RelationSpec | None:

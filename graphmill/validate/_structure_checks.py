@@ -22,7 +22,8 @@ RECIPROCITY_DEFINITION = (
 def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Edges with an endpoint that is not a vertex of the relation's declared type."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.dangling_edges(
         edges,
         ctx.vertices(rel.source_type).column(VERTEX_ID),
@@ -36,8 +37,8 @@ def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     )
     return Outcome(
         count,
-        edges.num_rows,
-        f"{count} of {edges.num_rows} edges of {rel.dotted} have an endpoint that is not a "
+        rows,
+        f"{count} of {rows} edges of {rel.dotted} have an endpoint that is not a "
         f"declared vertex ({on_source} on the source side, {on_target} on the target side); "
         "add the missing vertices or drop these edges",
         found.sample,
@@ -48,13 +49,14 @@ def check_dangling(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
 def check_repeated_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Exact repeats: every column equal (count = extra copies)."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.repeated_edges(edges, ctx.sample_size)
     extra, repeated = found.count, found.details["repeated_edges"]
     return Outcome(
         extra,
-        edges.num_rows,
-        f"{extra} of {edges.num_rows} edges of {rel.dotted} are exact copies of another edge "
+        rows,
+        f"{extra} of {rows} edges of {rel.dotted} are exact copies of another edge "
         f"({counted(repeated, 'distinct edge')} repeated; edges.duplicates is "
         f"{ctx.spec.edges.duplicates!r})",
         found.sample,
@@ -66,13 +68,14 @@ def check_parallel_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Edges of the same pair that differ in properties (count = distinct rows beyond the
     first per pair; exact repeats are not counted)."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.parallel_edges(edges, ctx.sample_size)
     extra, pairs = found.count, found.details["pairs"]
     return Outcome(
         extra,
-        edges.num_rows,
-        f"{extra} of {edges.num_rows} edges of {rel.dotted} join a pair that another edge "
+        rows,
+        f"{extra} of {rows} edges of {rel.dotted} join a pair that another edge "
         f"with other properties already joins ({counted(pairs, 'pair')})",
         found.sample,
         {"pairs": pairs},
@@ -82,13 +85,14 @@ def check_parallel_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
 def check_self_loop(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Edges from a vertex to itself (relations whose two sides are one type)."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.self_loops(edges, ctx.sample_size)
     count = found.count
     return Outcome(
         count,
-        edges.num_rows,
-        f"{count} of {edges.num_rows} edges of {rel.dotted} are self-loops "
+        rows,
+        f"{count} of {rows} edges of {rel.dotted} are self-loops "
         f"(edges.self_loops is {ctx.spec.edges.self_loops!r})",
         found.sample,
         {"policy": ctx.spec.edges.self_loops},
@@ -98,7 +102,8 @@ def check_self_loop(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
 def check_reciprocity(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Reciprocity of a same-type relation (count = reciprocated distinct pairs)."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.reciprocity(edges)
     back, pairs = found.count, found.details["pairs"]
     value = back / pairs if pairs else None
@@ -111,7 +116,7 @@ def check_reciprocity(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     details = {
         "reciprocity": value,
         "pairs": pairs,
-        "edges": edges.num_rows,
+        "edges": rows,
         "definition": RECIPROCITY_DEFINITION,
     }
     return Outcome(back, pairs, text, details=details, found=True)
@@ -121,7 +126,8 @@ def check_one_way_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Edges of an undirected relation whose reverse is missing (a self-loop is its own
     reverse). ``details.pairs`` counts distinct such pairs."""
     rel = RelationKey.parse(subject["relation"])
-    edges = ctx.edges(rel)
+    edges = ctx.edge_input(rel)
+    rows = ctx.rows("edges", rel.dotted)
     found = ctx.engine.one_way_edges(edges, ctx.sample_size)
     count, pairs = found.count, found.details["pairs"]
     policy = ctx.spec.edges.undirected
@@ -132,9 +138,8 @@ def check_one_way_edge(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     )
     return Outcome(
         count,
-        edges.num_rows,
-        f"{count} of {edges.num_rows} edges of undirected relation {rel.dotted} lack their "
-        f"reverse; {then}",
+        rows,
+        f"{count} of {rows} edges of undirected relation {rel.dotted} lack their reverse; {then}",
         found.sample,
         {"pairs": pairs, "policy": policy},
     )

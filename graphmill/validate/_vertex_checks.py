@@ -5,6 +5,8 @@ Each check takes the context and a subject and returns an :class:`Outcome`.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pyarrow as pa
 import pyarrow.compute as pc
 
@@ -17,14 +19,14 @@ def _sum(column: pa.Array | pa.ChunkedArray) -> int:
     return int(pc.sum(column).as_py() or 0)
 
 
-def _sides(ctx: CheckContext, vertex_type: str) -> list[tuple[pa.Table, str]]:
+def _sides(ctx: CheckContext, vertex_type: str) -> list[tuple[pa.Table | Path, str]]:
     """The edge tables and sides of every relation where ``vertex_type`` stands."""
     sides = []
     for rel in ctx.relations:
         if rel.source_type == vertex_type:
-            sides.append((ctx.edges(rel), "source"))
+            sides.append((ctx.edge_input(rel), "source"))
         if rel.target_type == vertex_type:
-            sides.append((ctx.edges(rel), "target"))
+            sides.append((ctx.edge_input(rel), "target"))
     return sides
 
 
@@ -84,7 +86,7 @@ def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """A vertex type that no relation with at least one edge touches (count 0 or 1)."""
     name = subject["vertex_type"]
     touching = [r for r in ctx.relations if name in (r.source_type, r.target_type)]
-    with_edges = [r for r in touching if ctx.edges(r).num_rows]
+    with_edges = [r for r in touching if ctx.rows("edges", r.dotted)]
     rows = ctx.vertices(name).num_rows
     declared = ", ".join(r.dotted for r in touching) or "none"
     return Outcome(

@@ -8,11 +8,14 @@ the reference gives.
 
 from __future__ import annotations
 
+import tempfile
 from collections.abc import Iterator
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -142,7 +145,11 @@ def test_edge_policy(
 @SETTINGS
 @given(st.data(), st.integers(0, 4))
 def test_check_operations(engines: tuple[Engine, Engine], data: st.DataObject, k: int) -> None:
-    edges = data.draw(edge_tables(properties=data.draw(st.booleans())))
+    edges: Any = data.draw(edge_tables(properties=data.draw(st.booleans())))
+    if data.draw(st.booleans(), label="as a Parquet file"):
+        folder = Path(tempfile.mkdtemp())
+        pq.write_table(edges, folder / "edges.parquet")
+        edges = folder / "edges.parquet"
     sources = pa.array(data.draw(st.lists(IDS, max_size=8)), pa.string())
     targets = pa.array(data.draw(st.lists(IDS, max_size=8)), pa.string())
     reference, local = engines

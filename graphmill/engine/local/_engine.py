@@ -8,12 +8,14 @@ this class inherits.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
-from graphmill.engine._base import Column
+from graphmill.engine._base import Column, TableInput
 from graphmill.engine._contracts import Offenders
 from graphmill.engine.local import _queries as q
 from graphmill.engine.local._session import Session
@@ -25,6 +27,10 @@ ENDPOINTS = ["source_id", "target_id"]
 
 def _column(values: Column) -> pa.ChunkedArray:
     return values if isinstance(values, pa.ChunkedArray) else pa.chunked_array([values])
+
+
+def _schema(table: TableInput) -> pa.Schema:
+    return pq.read_schema(table) if isinstance(table, Path) else table.schema
 
 
 def _rows(n: int) -> pa.Array:
@@ -146,13 +152,13 @@ class LocalEngine(ReferenceEngine):
 
     # ------------------------------------------------------------------ check
     def dangling_edges(
-        self, edges: pa.Table, source_ids: Column, target_ids: Column, k: int
+        self, edges: TableInput, source_ids: Column, target_ids: Column, k: int
     ) -> Offenders:
         s = self.session
         sources = pa.table({"vertex_id": _column(source_ids)})
         targets = pa.table({"vertex_id": _column(target_ids)})
         with (
-            s.tables(e=edges.select(ENDPOINTS), vs=sources, vt=targets) as n,
+            s.tables(e=edges, vs=sources, vt=targets) as n,
             s.scratch(q.dangling_edges(n["e"], n["vs"], n["vt"])) as flagged,
         ):
             count, on_source, on_target = s.ints(
@@ -162,16 +168,16 @@ class LocalEngine(ReferenceEngine):
             sample = s.records(q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k))
         return Offenders(count, sample, {"source_side": on_source, "target_side": on_target})
 
-    def self_loops(self, edges: pa.Table, k: int) -> Offenders:
+    def self_loops(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        with s.tables(e=edges.select(ENDPOINTS)) as n:
+        with s.tables(e=edges) as n:
             loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
             (count,) = s.ints(f"SELECT count(*) FROM {loops}")
             return Offenders(count, s.records(q.sample(loops, ENDPOINTS, k)))
 
-    def repeated_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        key = q.group_key(edges.schema)
+        key = q.group_key(_schema(edges))
         with s.tables(e=edges) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
@@ -182,11 +188,11 @@ class LocalEngine(ReferenceEngine):
                 sample = s.records(q.sample(rep, [*ENDPOINTS, "copies"], k))
         return Offenders(extra, sample, {"repeated_edges": rows})
 
-    def parallel_edges(self, edges: pa.Table, k: int) -> Offenders:
-        if edges.num_columns == 2:  # without properties a pair has one distinct row
+    def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
+        if len(_schema(edges)) == 2:  # without properties a pair has one distinct row
             return Offenders(0, [], {"pairs": 0})
         s = self.session
-        key = q.group_key(edges.schema)
+        key = q.group_key(_schema(edges))
         with s.tables(e=edges) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS variants FROM "
@@ -198,20 +204,20 @@ class LocalEngine(ReferenceEngine):
                 sample = s.records(q.sample(par, [*ENDPOINTS, "variants"], k))
         return Offenders(extra, sample, {"pairs": pairs})
 
-    def reciprocity(self, edges: pa.Table) -> Offenders:
+    def reciprocity(self, edges: TableInput) -> Offenders:
         s = self.session
         with (
-            s.tables(e=edges.select(ENDPOINTS)) as n,
+            s.tables(e=edges) as n,
             s.scratch(q.distinct_pairs(n["e"])) as pairs,
         ):
             (back,) = s.ints(q.reciprocated(pairs))
             (total,) = s.ints(f"SELECT count(*) FROM {pairs}")
         return Offenders(back, [], {"pairs": total})
 
-    def one_way_edges(self, edges: pa.Table, k: int) -> Offenders:
+    def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         with (
-            s.tables(e=edges.select(ENDPOINTS)) as n,
+            s.tables(e=edges) as n,
             s.scratch(q.distinct_pairs(n["e"])) as pairs,
             s.scratch(q.one_way(n["e"], pairs)) as ow,
         ):
@@ -221,10 +227,10 @@ class LocalEngine(ReferenceEngine):
         return Offenders(count, sample, {"pairs": distinct})
 
     def isolated_vertices(
-        self, vertex_ids: Column, sides: Sequence[tuple[pa.Table, str]], k: int
+        self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
         s = self.session
-        ends = {f"e{i}": edges.select([f"{side}_id"]) for i, (edges, side) in enumerate(sides)}
+        ends = {f"e{i}": edges for i, (edges, _) in enumerate(sides)}
         with s.tables(v=pa.table({"vertex_id": _column(vertex_ids)}), **ends) as n:
             named = [(n[f"e{i}"], side) for i, (_, side) in enumerate(sides)]
             with s.scratch(q.isolated(n["v"], named)) as iso:

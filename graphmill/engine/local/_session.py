@@ -66,16 +66,26 @@ class Session:
             shutil.rmtree(self.spill_folder, ignore_errors=True)
 
     @contextmanager
-    def tables(self, **tables: pa.Table) -> Iterator[dict[str, str]]:
-        """Register Arrow tables (zero-copy scans) under fresh names; yields name -> SQL name."""
+    def tables(self, **tables: pa.Table | Path) -> Iterator[dict[str, str]]:
+        """Name Arrow tables (zero-copy scans) and Parquet files (scanned in parallel, never
+        loaded whole) under fresh names; yields key -> SQL name."""
         names = {key: f"gm_{key}_{next(_names)}" for key in tables}
         try:
             for key, table in tables.items():
-                self.connection.register(names[key], table)
+                if isinstance(table, Path):
+                    literal = "'" + str(table).replace("'", "''") + "'"
+                    self.connection.execute(
+                        f"CREATE TEMP VIEW {names[key]} AS SELECT * FROM read_parquet({literal})"
+                    )
+                else:
+                    self.connection.register(names[key], table)
             yield names
         finally:
-            for name in names.values():
-                self.connection.unregister(name)
+            for key, name in names.items():
+                if isinstance(tables[key], Path):
+                    self.connection.execute(f"DROP VIEW IF EXISTS {name}")
+                else:
+                    self.connection.unregister(name)
 
     @contextmanager
     def scratch(self, query: str, params: list[Any] | None = None) -> Iterator[str]:
