@@ -159,20 +159,22 @@ def child_floor(source: dict[str, Any], out: Path) -> dict[str, Any]:
 
 
 def child_engine(source: dict[str, Any], out: Path, engine: dict[str, Any]) -> dict[str, Any]:
+    from bench_build import stage
+
     from graphmill.pipeline import Pipeline
     from graphmill.spec import spec_from_dict
 
     pipeline = Pipeline(spec_from_dict(spec_document(source, out, engine), base_dir=out))
-    seconds: dict[str, float] = {}
-    started = time.perf_counter()
-    pipeline.pull()
-    seconds["pull"] = time.perf_counter() - started
-    report = pipeline.check()
-    seconds["check"] = time.perf_counter() - started - seconds["pull"]
-    pipeline.build(report=report, even_if_failing=True)
-    seconds["total"] = time.perf_counter() - started
-    seconds["build"] = seconds["total"] - seconds["pull"] - seconds["check"]
-    return {"seconds": seconds}
+    figures: dict[str, dict[str, float]] = {}
+    with stage("pull", figures):
+        pipeline.pull()
+    with stage("check", figures):
+        report = pipeline.check()
+    with stage("build", figures):
+        pipeline.build(report=report, even_if_failing=True)
+    seconds = {name: f["seconds"] for name, f in figures.items()}
+    seconds["total"] = sum(seconds.values())
+    return {"seconds": seconds, "stage_peak_rss": {n: f["peak_rss"] for n, f in figures.items()}}
 
 
 def run_child(args: list[str]) -> dict[str, Any]:
@@ -250,13 +252,20 @@ def render(figures: dict[str, dict[str, Any]], args: argparse.Namespace) -> str:
         f"{'run':<10}{'pull':>8}{'check':>8}{'build':>8}{'total':>9}{'x floor':>9}{'peak RSS':>12}",
     ]
     for name, fig in figures.items():
-        s = fig["seconds"]
+        s, peaks = fig["seconds"], fig.get("stage_peak_rss", {})
         parts = "".join(f"{s.get(k, float('nan')):8.1f}" for k in ("pull", "check", "build"))
         if name == "floor":
             parts = " " * 24
         rows.append(
             f"{name:<10}{parts}{s['total']:9.1f}{s['total'] / floor:9.1f}"
             f"{fig['peak_rss'] / mib:9,.0f} MiB"
+            + (
+                "  (stage peaks: "
+                + ", ".join(f"{k} {v / mib:,.0f}" for k, v in peaks.items())
+                + " MiB)"
+                if peaks
+                else ""
+            )
         )
     return "\n".join(rows)
 

@@ -59,8 +59,9 @@ class Engine(ABC):
         """First row of each distinct ID, in ID byte order (``vertex-index``)."""
 
     @abstractmethod
-    def endpoint_positions(self, endpoint_ids: Column, vertex_ids: pa.Array) -> np.ndarray:
-        """Position of each endpoint among ``vertex_ids`` or -1 (``endpoint-index``)."""
+    def endpoint_positions(self, edges: TableInput, side: str, vertex_ids: pa.Array) -> np.ndarray:
+        """Position of each edge's ``side`` (source or target) endpoint among ``vertex_ids``,
+        or -1 (``endpoint-index``)."""
 
     @abstractmethod
     def edge_policy(

@@ -96,8 +96,11 @@ class ReferenceEngine(Engine):
     def first_rows_by_id(self, ids: Column) -> np.ndarray:
         return first_rows_by_id(ids)
 
-    def endpoint_positions(self, endpoint_ids: Column, vertex_ids: pa.Array) -> np.ndarray:
-        return map_endpoints(endpoint_ids, vertex_ids)
+    def endpoint_positions(self, edges: TableInput, side: str, vertex_ids: pa.Array) -> np.ndarray:
+        column = f"{side}_id"
+        if isinstance(edges, Path):  # one column, not kept: the build maps each side once
+            return map_endpoints(pq.read_table(edges, columns=[column]).column(0), vertex_ids)
+        return map_endpoints(edges.column(column), vertex_ids)
 
     def edge_policy(
         self,

@@ -15,12 +15,13 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
 from graphmill._atomic import atomic_directory
 from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
-from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.connectors.base import VERTEX_ID
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
@@ -154,7 +155,8 @@ def _add_relation(
     engine: Engine,
 ) -> None:
     key: RelationKey = rel.key
-    table = snapshot.edges(key).select([SOURCE_ID, TARGET_ID] + [p.name for p in rel.properties])
+    edges_file = snapshot.file("edges", key.dotted)  # the engine maps IDs from the file
+    properties = pq.read_table(edges_file, columns=[p.name for p in rel.properties])
     src, dst = indices[key.source_type], indices[key.target_type]
     same_type = key.source_type == key.target_type
     symmetrize = rel.undirected and spec.edges.undirected == "symmetrize"
@@ -164,15 +166,14 @@ def _add_relation(
             "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
         )
     outcome = engine.edge_policy(
-        engine.endpoint_positions(table.column(SOURCE_ID), src.ids),
-        engine.endpoint_positions(table.column(TARGET_ID), dst.ids),
+        engine.endpoint_positions(edges_file, "source", src.ids),
+        engine.endpoint_positions(edges_file, "target", dst.ids),
         same_type=same_type,
         vertex_count=src.count,
         duplicates=spec.edges.duplicates,
         self_loops=spec.edges.self_loops,
         symmetrize=symmetrize and same_type,
     )
-    properties = table.drop_columns([SOURCE_ID, TARGET_ID])
     entry = {
         "undirected": rel.undirected,
         "symmetrized": symmetrize and same_type,

@@ -94,12 +94,19 @@ def test_vertex_index(engines: tuple[Engine, Engine], ids: list[str]) -> None:
 
 
 @SETTINGS
-@given(st.lists(IDS, max_size=30), st.lists(IDS, max_size=10, unique=True))
-def test_endpoint_index(engines: tuple[Engine, Engine], ends: list[str], ids: list[str]) -> None:
+@given(st.data(), st.lists(IDS, max_size=10, unique=True), st.sampled_from(["source", "target"]))
+def test_endpoint_index(
+    engines: tuple[Engine, Engine], data: st.DataObject, ids: list[str], side: str
+) -> None:
+    edges: Any = data.draw(edge_tables(properties=False))
+    if data.draw(st.booleans(), label="as a Parquet file"):
+        folder = Path(tempfile.mkdtemp())
+        pq.write_table(edges, folder / "edges.parquet", row_group_size=4)  # several groups
+        edges = folder / "edges.parquet"
     reference, local = engines
-    column, vertices = pa.array(ends, pa.string()), pa.array(ids, pa.string())
-    got = local.endpoint_positions(column, vertices).tolist()
-    assert got == reference.endpoint_positions(column, vertices).tolist()
+    vertices = pa.array(ids, pa.string())
+    got = local.endpoint_positions(edges, side, vertices).tolist()
+    assert got == reference.endpoint_positions(edges, side, vertices).tolist()
 
 
 @SETTINGS

@@ -83,23 +83,29 @@ class LocalEngine(ReferenceEngine):
         if not table.num_rows or not keys:
             return np.arange(table.num_rows, dtype=np.int64)
         keyed = table.select(list(keys)).append_column("gm_row", _rows(table.num_rows))
-        with self.session.tables(t=keyed) as n:
+        with self.session.tables({"t": keyed}) as n:
             return self.session.positions(q.order_by(keys, "gm_row").format(t=n["t"]))
 
     # ------------------------------------------------------------------ build
     def first_rows_by_id(self, ids: Column) -> np.ndarray:
         table = pa.table({"id": _column(ids), "row": _rows(len(ids))})
-        with self.session.tables(v=table) as n:
+        with self.session.tables({"v": table}) as n:
             return self.session.positions(q.first_rows(n["v"]))
 
-    def endpoint_positions(self, endpoint_ids: Column, vertex_ids: pa.Array) -> np.ndarray:
-        out = np.full(len(endpoint_ids), -1, dtype=np.int64)
-        if not len(endpoint_ids) or not len(vertex_ids):
-            return out
-        ends = pa.table({"id": _column(endpoint_ids), "row": _rows(len(endpoint_ids))})
+    def endpoint_positions(self, edges: TableInput, side: str, vertex_ids: pa.Array) -> np.ndarray:
+        s = self.session
+        column = f"{side}_id"
+        if isinstance(edges, Path):  # scanned in parallel; file_row_number is the row
+            ends: TableInput = edges
+            rows = f"(SELECT {column} AS id, file_row_number AS row FROM {{e}})"
+        else:
+            ends = pa.table({column: edges.column(column), "row": _rows(edges.num_rows)})
+            rows = f"(SELECT {column} AS id, row FROM {{e}})"
         verts = pa.table({"id": _column(vertex_ids), "position": _rows(len(vertex_ids))})
-        with self.session.tables(e=ends, v=verts) as n:
-            found = self.session.arrow(q.endpoint_positions(n["e"], n["v"]))
+        with s.tables({"e": ends, "v": verts}, row_numbers=True) as n:
+            (count,) = s.ints(f"SELECT count(*) FROM {n['e']}")
+            found = s.arrow(q.endpoint_positions(rows.format(e=n["e"]), n["v"]))
+        out = np.full(count, -1, dtype=np.int64)
         out[found.column(0).to_numpy()] = found.column(1).to_numpy()
         return out
 
@@ -117,7 +123,7 @@ class LocalEngine(ReferenceEngine):
         s = self.session
         mapped = pa.table({"s": source, "t": target, "row": _rows(len(source))})
         dropped = dict.fromkeys(DROP_REASONS, 0)
-        with s.tables(m=mapped) as n:
+        with s.tables({"m": mapped}) as n:
             both, no_source, no_target = s.ints(q.dangling_counts(n["m"]))
             dropped.update(
                 {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
@@ -158,7 +164,7 @@ class LocalEngine(ReferenceEngine):
         sources = pa.table({"vertex_id": _column(source_ids)})
         targets = pa.table({"vertex_id": _column(target_ids)})
         with (
-            s.tables(e=edges, vs=sources, vt=targets) as n,
+            s.tables({"e": edges, "vs": sources, "vt": targets}) as n,
             s.scratch(q.dangling_edges(n["e"], n["vs"], n["vt"])) as flagged,
         ):
             count, on_source, on_target = s.ints(
@@ -170,7 +176,7 @@ class LocalEngine(ReferenceEngine):
 
     def self_loops(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        with s.tables(e=edges) as n:
+        with s.tables({"e": edges}) as n:
             loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
             (count,) = s.ints(f"SELECT count(*) FROM {loops}")
             return Offenders(count, s.records(q.sample(loops, ENDPOINTS, k)))
@@ -178,7 +184,7 @@ class LocalEngine(ReferenceEngine):
     def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables(e=edges) as n:
+        with s.tables({"e": edges}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
                 f"GROUP BY {key} HAVING count(*) > 1"
@@ -193,7 +199,7 @@ class LocalEngine(ReferenceEngine):
             return Offenders(0, [], {"pairs": 0})
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables(e=edges) as n:
+        with s.tables({"e": edges}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS variants FROM "
                 f"(SELECT source_id, target_id FROM {n['e']} GROUP BY {key}) "
@@ -207,7 +213,7 @@ class LocalEngine(ReferenceEngine):
     def reciprocity(self, edges: TableInput) -> Offenders:
         s = self.session
         with (
-            s.tables(e=edges) as n,
+            s.tables({"e": edges}) as n,
             s.scratch(q.distinct_pairs(n["e"])) as pairs,
         ):
             (back,) = s.ints(q.reciprocated(pairs))
@@ -217,7 +223,7 @@ class LocalEngine(ReferenceEngine):
     def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         with (
-            s.tables(e=edges) as n,
+            s.tables({"e": edges}) as n,
             s.scratch(q.distinct_pairs(n["e"])) as pairs,
             s.scratch(q.one_way(n["e"], pairs)) as ow,
         ):
@@ -231,7 +237,7 @@ class LocalEngine(ReferenceEngine):
     ) -> Offenders:
         s = self.session
         ends = {f"e{i}": edges for i, (edges, _) in enumerate(sides)}
-        with s.tables(v=pa.table({"vertex_id": _column(vertex_ids)}), **ends) as n:
+        with s.tables({"v": pa.table({"vertex_id": _column(vertex_ids)}), **ends}) as n:
             named = [(n[f"e{i}"], side) for i, (_, side) in enumerate(sides)]
             with s.scratch(q.isolated(n["v"], named)) as iso:
                 (count,) = s.ints(f"SELECT count(*) FROM {iso}")

@@ -30,7 +30,8 @@ def first_rows(table: str) -> str:
 
 
 def endpoint_positions(endpoints: str, vertices: str) -> str:
-    """``endpoint-index``: (row, position) of each endpoint that is a vertex."""
+    """``endpoint-index``: (row, position) of each endpoint that is a vertex; ``endpoints``
+    has columns ``id`` and ``row``."""
     return f"SELECT e.row, v.position FROM {endpoints} e JOIN {vertices} v ON e.id = v.id"
 
 

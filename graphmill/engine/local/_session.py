@@ -66,16 +66,21 @@ class Session:
             shutil.rmtree(self.spill_folder, ignore_errors=True)
 
     @contextmanager
-    def tables(self, **tables: pa.Table | Path) -> Iterator[dict[str, str]]:
+    def tables(
+        self, tables: dict[str, pa.Table | Path], *, row_numbers: bool = False
+    ) -> Iterator[dict[str, str]]:
         """Name Arrow tables (zero-copy scans) and Parquet files (scanned in parallel, never
-        loaded whole) under fresh names; yields key -> SQL name."""
+        loaded whole) under fresh names; yields key -> SQL name. ``row_numbers``: a file's
+        view gets ``file_row_number``, each row's position in the file."""
         names = {key: f"gm_{key}_{next(_names)}" for key in tables}
+        option = ", file_row_number = true" if row_numbers else ""
         try:
             for key, table in tables.items():
                 if isinstance(table, Path):
                     literal = "'" + str(table).replace("'", "''") + "'"
                     self.connection.execute(
-                        f"CREATE TEMP VIEW {names[key]} AS SELECT * FROM read_parquet({literal})"
+                        f"CREATE TEMP VIEW {names[key]} AS "
+                        f"SELECT * FROM read_parquet({literal}{option})"
                     )
                 else:
                     self.connection.register(names[key], table)
