@@ -7,7 +7,8 @@ this class inherits.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -60,6 +61,17 @@ class LocalEngine(ReferenceEngine):
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self._session: Session | None = None
+        self._loaded: dict[Path, str] = {}  # snapshot files read once per stage
+        self._pairs: dict[str, str] = {}  # a loaded table -> its distinct (s, t) pairs
+
+    def _checked(self, edges: TableInput) -> pa.Table | str:
+        """A check input: a file is loaded once into a session table and reused by every
+        check operation of the stage (the checks read each relation several times)."""
+        if not isinstance(edges, Path):
+            return edges
+        if edges not in self._loaded:
+            self._loaded[edges] = self.session.load(edges)
+        return self._loaded[edges]
 
     @property
     def session(self) -> Session:
@@ -74,6 +86,8 @@ class LocalEngine(ReferenceEngine):
 
     def close(self) -> None:
         super().close()
+        self._loaded.clear()
+        self._pairs.clear()
         if self._session is not None:
             self._session.close()
             self._session = None
@@ -164,7 +178,7 @@ class LocalEngine(ReferenceEngine):
         sources = pa.table({"vertex_id": _column(source_ids)})
         targets = pa.table({"vertex_id": _column(target_ids)})
         with (
-            s.tables({"e": edges, "vs": sources, "vt": targets}) as n,
+            s.tables({"e": self._checked(edges), "vs": sources, "vt": targets}) as n,
             s.scratch(q.dangling_edges(n["e"], n["vs"], n["vt"])) as flagged,
         ):
             count, on_source, on_target = s.ints(
@@ -176,7 +190,7 @@ class LocalEngine(ReferenceEngine):
 
     def self_loops(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        with s.tables({"e": edges}) as n:
+        with s.tables({"e": self._checked(edges)}) as n:
             loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
             (count,) = s.ints(f"SELECT count(*) FROM {loops}")
             return Offenders(count, s.records(q.sample(loops, ENDPOINTS, k)))
@@ -184,7 +198,7 @@ class LocalEngine(ReferenceEngine):
     def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables({"e": edges}) as n:
+        with s.tables({"e": self._checked(edges)}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
                 f"GROUP BY {key} HAVING count(*) > 1"
@@ -199,7 +213,7 @@ class LocalEngine(ReferenceEngine):
             return Offenders(0, [], {"pairs": 0})
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables({"e": edges}) as n:
+        with s.tables({"e": self._checked(edges)}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS variants FROM "
                 f"(SELECT source_id, target_id FROM {n['e']} GROUP BY {key}) "
@@ -210,12 +224,25 @@ class LocalEngine(ReferenceEngine):
                 sample = s.records(q.sample(par, [*ENDPOINTS, "variants"], k))
         return Offenders(extra, sample, {"pairs": pairs})
 
+    @contextmanager
+    def _distinct_pairs(self, edges: TableInput) -> Iterator[str]:
+        """A table of the distinct (s, t) pairs of ``edges``; kept for the stage when the
+        edges came from a file (reciprocity and one-way edges both need it)."""
+        checked = self._checked(edges)
+        if isinstance(checked, str) and checked in self._pairs:
+            yield self._pairs[checked]
+            return
+        with self.session.tables({"e": checked}) as n:
+            if isinstance(checked, str):
+                self._pairs[checked] = self.session.load_query(q.distinct_pairs(n["e"]))
+                yield self._pairs[checked]
+            else:
+                with self.session.scratch(q.distinct_pairs(n["e"])) as pairs:
+                    yield pairs
+
     def reciprocity(self, edges: TableInput) -> Offenders:
         s = self.session
-        with (
-            s.tables({"e": edges}) as n,
-            s.scratch(q.distinct_pairs(n["e"])) as pairs,
-        ):
+        with self._distinct_pairs(edges) as pairs:
             (back,) = s.ints(q.reciprocated(pairs))
             (total,) = s.ints(f"SELECT count(*) FROM {pairs}")
         return Offenders(back, [], {"pairs": total})
@@ -223,8 +250,8 @@ class LocalEngine(ReferenceEngine):
     def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         with (
-            s.tables({"e": edges}) as n,
-            s.scratch(q.distinct_pairs(n["e"])) as pairs,
+            s.tables({"e": self._checked(edges)}) as n,
+            self._distinct_pairs(edges) as pairs,
             s.scratch(q.one_way(n["e"], pairs)) as ow,
         ):
             (count,) = s.ints(f"SELECT count(*) FROM {ow}")
@@ -236,7 +263,7 @@ class LocalEngine(ReferenceEngine):
         self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
         s = self.session
-        ends = {f"e{i}": edges for i, (edges, _) in enumerate(sides)}
+        ends = {f"e{i}": self._checked(edges) for i, (edges, _) in enumerate(sides)}
         with s.tables({"v": pa.table({"vertex_id": _column(vertex_ids)}), **ends}) as n:
             named = [(n[f"e{i}"], side) for i, (_, side) in enumerate(sides)]
             with s.scratch(q.isolated(n["v"], named)) as iso:

@@ -67,15 +67,21 @@ class Session:
 
     @contextmanager
     def tables(
-        self, tables: dict[str, pa.Table | Path], *, row_numbers: bool = False
+        self, tables: dict[str, pa.Table | Path | str], *, row_numbers: bool = False
     ) -> Iterator[dict[str, str]]:
         """Name Arrow tables (zero-copy scans) and Parquet files (scanned in parallel, never
-        loaded whole) under fresh names; yields key -> SQL name. ``row_numbers``: a file's
-        view gets ``file_row_number``, each row's position in the file."""
-        names = {key: f"gm_{key}_{next(_names)}" for key in tables}
+        loaded whole) under fresh names; a ``str`` is a table of the session already and keeps
+        its name. Yields key -> SQL name. ``row_numbers``: a file's view gets
+        ``file_row_number``, each row's position in the file."""
+        names = {
+            key: table if isinstance(table, str) else f"gm_{key}_{next(_names)}"
+            for key, table in tables.items()
+        }
         option = ", file_row_number = true" if row_numbers else ""
         try:
             for key, table in tables.items():
+                if isinstance(table, str):
+                    continue
                 if isinstance(table, Path):
                     literal = "'" + str(table).replace("'", "''") + "'"
                     self.connection.execute(
@@ -87,6 +93,8 @@ class Session:
             yield names
         finally:
             for key, name in names.items():
+                if isinstance(tables[key], str):
+                    continue
                 if isinstance(tables[key], Path):
                     self.connection.execute(f"DROP VIEW IF EXISTS {name}")
                 else:
@@ -101,6 +109,18 @@ class Session:
             yield name
         finally:
             self.connection.execute(f"DROP TABLE IF EXISTS {name}")
+
+    def load(self, path: Path) -> str:
+        """Copy a Parquet file into a temporary table (DuckDB's own storage, which spills),
+        so that several queries decode it once; it lives as long as the session."""
+        literal = "'" + str(path).replace("'", "''") + "'"
+        return self.load_query(f"SELECT * FROM read_parquet({literal})")
+
+    def load_query(self, query: str) -> str:
+        """Materialize ``query`` as a temporary table that lives as long as the session."""
+        name = f"gm_kept_{next(_names)}"
+        self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}")
+        return name
 
     def arrow(self, query: str) -> pa.Table:
         return self.connection.sql(query).to_arrow_table()
