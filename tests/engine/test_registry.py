@@ -5,6 +5,7 @@ from __future__ import annotations
 import inspect
 from pathlib import Path
 
+import numpy as np
 import pyarrow as pa
 import pytest
 
@@ -89,3 +90,20 @@ def test_cli_refuses_an_unknown_engine_flag(tmp_path: Path, capsys: pytest.Captu
     assert "unknown engine kind 'sparkle'" in capsys.readouterr().err
     assert main(["check", str(spec), "--memory-limit", "12 parsecs"]) == ExitCode.BAD_INPUT
     assert "not a memory size" in capsys.readouterr().err
+
+
+def test_local_engine_spills_and_cleans_up_or_says_it_needs_more_memory(tmp_path: Path) -> None:
+    rng = np.random.default_rng(7)
+    table = pa.table({"id": pa.array(rng.integers(0, 10**9, 300_000)).cast(pa.string())})
+    spill = tmp_path / "bundle.spill"
+    expected = open_engine(EngineSpec(kind="reference")).canonical_order(table, ["id"])
+    with open_engine(EngineSpec(memory_limit="16MB", threads=1, spill_folder=spill)) as engine:
+        assert engine.canonical_order(table, ["id"]).tolist() == expected.tolist()
+    assert not spill.exists()  # removed with the session that created it
+    with (
+        pytest.raises(SpecError, match="ran out of memory") as err,
+        open_engine(EngineSpec(memory_limit="1MB", threads=1, spill_folder=spill)) as engine,
+    ):
+        engine.canonical_order(table, ["id"])
+    assert err.value.key_path == "engine.memory_limit"
+    assert not spill.exists()

@@ -31,6 +31,19 @@ except ImportError as exc:  # pragma: no cover - duckdb is a core dependency
 _names = itertools.count()
 
 
+@contextmanager
+def _out_of_memory_as_spec_error() -> Iterator[None]:
+    """DuckDB could not stay under ``engine.memory_limit`` even by spilling: one clear line."""
+    try:
+        yield
+    except duckdb.OutOfMemoryException as exc:
+        raise SpecError(
+            f"the local engine ran out of memory ({str(exc).splitlines()[0]})",
+            key_path="engine.memory_limit",
+            hint="raise engine.memory_limit (or --memory-limit), or make room in the spill folder",
+        ) from None
+
+
 def quote(name: str) -> str:
     """An SQL identifier for a column name, whatever its characters."""
     return '"' + name.replace('"', '""') + '"'
@@ -104,7 +117,8 @@ class Session:
     def scratch(self, query: str, params: list[Any] | None = None) -> Iterator[str]:
         """Materialize ``query`` as a temporary table (spillable); dropped afterwards."""
         name = f"gm_tmp_{next(_names)}"
-        self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}", params or [])
+        with _out_of_memory_as_spec_error():
+            self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}", params or [])
         try:
             yield name
         finally:
@@ -119,11 +133,13 @@ class Session:
     def load_query(self, query: str) -> str:
         """Materialize ``query`` as a temporary table that lives as long as the session."""
         name = f"gm_kept_{next(_names)}"
-        self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}")
+        with _out_of_memory_as_spec_error():
+            self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}")
         return name
 
     def arrow(self, query: str) -> pa.Table:
-        return self.connection.sql(query).to_arrow_table()
+        with _out_of_memory_as_spec_error():
+            return self.connection.sql(query).to_arrow_table()
 
     def positions(self, query: str) -> np.ndarray:
         """The single int64 column of ``query``, as numpy."""
@@ -134,7 +150,8 @@ class Session:
 
     def ints(self, query: str) -> tuple[int, ...]:
         """The single row of integers ``query`` returns (NULL as 0)."""
-        rows = self.connection.sql(query).fetchall()
+        with _out_of_memory_as_spec_error():
+            rows = self.connection.sql(query).fetchall()
         row = rows[0] if rows else ()
         return tuple(int(v or 0) for v in row)
 
