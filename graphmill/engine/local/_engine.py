@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -38,6 +39,14 @@ def _rows(n: int) -> pa.Array:
     return pa.array(np.arange(n, dtype=np.int64))
 
 
+@dataclass(frozen=True)
+class _Coded:
+    """A loaded edge table with coded endpoints, and its (id, code) dictionary."""
+
+    edges: str
+    ids: str
+
+
 class LocalEngine(ReferenceEngine):
     """Embedded DuckDB: multi-threaded, spills to disk under ``engine.memory_limit``."""
 
@@ -61,17 +70,41 @@ class LocalEngine(ReferenceEngine):
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self._session: Session | None = None
-        self._loaded: dict[Path, str] = {}  # snapshot files read once per stage
-        self._pairs: dict[str, str] = {}  # a loaded table -> its distinct (s, t) pairs
+        self._loaded: dict[Path, _Coded] = {}  # snapshot files read once per stage
+        self._pairs: dict[str, str] = {}  # a coded table -> its distinct (s, t) pairs
 
-    def _checked(self, edges: TableInput) -> pa.Table | str:
-        """A check input: a file is loaded once into a session table and reused by every
-        check operation of the stage (the checks read each relation several times)."""
+    def _checked(self, edges: TableInput) -> pa.Table | _Coded:
+        """A check input. A file is read once per stage into a session table whose endpoint
+        columns hold integer codes that order as the IDs do, so that every check hashes
+        and compares integers; samples are decoded at the end (:meth:`_records`)."""
         if not isinstance(edges, Path):
             return edges
         if edges not in self._loaded:
-            self._loaded[edges] = self.session.load(edges)
+            s = self.session
+            raw = s.load(edges)
+            ids = s.load_query(q.id_codes(raw))
+            self._loaded[edges] = _Coded(s.load_query(q.coded_edges(raw, ids)), ids)
+            s.connection.execute(f"DROP TABLE {raw}")
         return self._loaded[edges]
+
+    @staticmethod
+    def _table(checked: pa.Table | _Coded) -> pa.Table | str:
+        return checked.edges if isinstance(checked, _Coded) else checked
+
+    def _records(self, checked: pa.Table | _Coded, sample: str, width: int) -> list[dict[str, Any]]:
+        """A sample query's records, with coded endpoints decoded."""
+        if isinstance(checked, _Coded):
+            sample = q.decoded(sample, checked.ids, width)
+        return self.session.records(sample)
+
+    def _vertex_set(self, checked: pa.Table | _Coded, table: str) -> str:
+        """A vertex ID table as the checked edges name vertices (codes, when coded)."""
+        if isinstance(checked, _Coded):
+            return (
+                f"(SELECT code AS vertex_id FROM {checked.ids} "
+                f"SEMI JOIN {table} w ON id = w.vertex_id)"
+            )
+        return table
 
     @property
     def session(self) -> Session:
@@ -177,35 +210,39 @@ class LocalEngine(ReferenceEngine):
         s = self.session
         sources = pa.table({"vertex_id": _column(source_ids)})
         targets = pa.table({"vertex_id": _column(target_ids)})
-        with (
-            s.tables({"e": self._checked(edges), "vs": sources, "vt": targets}) as n,
-            s.scratch(q.dangling_edges(n["e"], n["vs"], n["vt"])) as flagged,
-        ):
-            count, on_source, on_target = s.ints(
-                f"SELECT count(*), count(*) FILTER (WHERE no_source), "
-                f"count(*) FILTER (WHERE no_target) FROM {flagged}"
-            )
-            sample = s.records(q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k))
+        checked = self._checked(edges)
+        with s.tables({"e": self._table(checked), "vs": sources, "vt": targets}) as n:
+            vs, vt = self._vertex_set(checked, n["vs"]), self._vertex_set(checked, n["vt"])
+            with s.scratch(q.dangling_edges(n["e"], vs, vt)) as flagged:
+                count, on_source, on_target = s.ints(
+                    f"SELECT count(*), count(*) FILTER (WHERE no_source), "
+                    f"count(*) FILTER (WHERE no_target) FROM {flagged}"
+                )
+                sample = self._records(
+                    checked, q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k), 3
+                )
         return Offenders(count, sample, {"source_side": on_source, "target_side": on_target})
 
     def self_loops(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        with s.tables({"e": self._checked(edges)}) as n:
+        checked = self._checked(edges)
+        with s.tables({"e": self._table(checked)}) as n:
             loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
             (count,) = s.ints(f"SELECT count(*) FROM {loops}")
-            return Offenders(count, s.records(q.sample(loops, ENDPOINTS, k)))
+            return Offenders(count, self._records(checked, q.sample(loops, ENDPOINTS, k), 2))
 
     def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables({"e": self._checked(edges)}) as n:
+        checked = self._checked(edges)
+        with s.tables({"e": self._table(checked)}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
                 f"GROUP BY {key} HAVING count(*) > 1"
             )
             with s.scratch(grouped) as rep:
                 extra, rows = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {rep}")
-                sample = s.records(q.sample(rep, [*ENDPOINTS, "copies"], k))
+                sample = self._records(checked, q.sample(rep, [*ENDPOINTS, "copies"], k), 3)
         return Offenders(extra, sample, {"repeated_edges": rows})
 
     def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
@@ -213,7 +250,8 @@ class LocalEngine(ReferenceEngine):
             return Offenders(0, [], {"pairs": 0})
         s = self.session
         key = q.group_key(_schema(edges))
-        with s.tables({"e": self._checked(edges)}) as n:
+        checked = self._checked(edges)
+        with s.tables({"e": self._table(checked)}) as n:
             grouped = (
                 f"SELECT source_id, target_id, count(*) AS variants FROM "
                 f"(SELECT source_id, target_id FROM {n['e']} GROUP BY {key}) "
@@ -221,14 +259,14 @@ class LocalEngine(ReferenceEngine):
             )
             with s.scratch(grouped) as par:
                 extra, pairs = s.ints(f"SELECT sum(variants) - count(*), count(*) FROM {par}")
-                sample = s.records(q.sample(par, [*ENDPOINTS, "variants"], k))
+                sample = self._records(checked, q.sample(par, [*ENDPOINTS, "variants"], k), 3)
         return Offenders(extra, sample, {"pairs": pairs})
 
     @contextmanager
     def _distinct_pairs(self, edges: TableInput) -> Iterator[str]:
         """A table of the distinct (s, t) pairs of ``edges``; kept for the stage when the
         edges came from a file (reciprocity and one-way edges both need it)."""
-        checked = self._checked(edges)
+        checked = self._table(self._checked(edges))
         if isinstance(checked, str) and checked in self._pairs:
             yield self._pairs[checked]
             return
@@ -249,24 +287,33 @@ class LocalEngine(ReferenceEngine):
 
     def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
+        checked = self._checked(edges)
         with (
-            s.tables({"e": self._checked(edges)}) as n,
+            s.tables({"e": self._table(checked)}) as n,
             self._distinct_pairs(edges) as pairs,
             s.scratch(q.one_way(n["e"], pairs)) as ow,
         ):
             (count,) = s.ints(f"SELECT count(*) FROM {ow}")
             (distinct,) = s.ints(f"SELECT count(*) FROM ({q.distinct_pairs(ow)})")
-            sample = s.records(q.sample(ow, ENDPOINTS, k))
+            sample = self._records(checked, q.sample(ow, ENDPOINTS, k), 2)
         return Offenders(count, sample, {"pairs": distinct})
 
     def isolated_vertices(
         self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
         s = self.session
-        ends = {f"e{i}": self._checked(edges) for i, (edges, _) in enumerate(sides)}
+        checked = [self._checked(edges) for edges, _ in sides]
+        ends = {f"e{i}": self._table(c) for i, c in enumerate(checked)}
         with s.tables({"v": pa.table({"vertex_id": _column(vertex_ids)}), **ends}) as n:
-            named = [(n[f"e{i}"], side) for i, (_, side) in enumerate(sides)]
-            with s.scratch(q.isolated(n["v"], named)) as iso:
+            id_sources = []
+            for i, ((_, side), c) in enumerate(zip(sides, checked, strict=True)):
+                distinct = f"SELECT DISTINCT {side}_id AS code FROM {n[f'e{i}']}"
+                id_sources.append(
+                    f"SELECT d.id FROM ({distinct}) c JOIN {c.ids} d USING (code)"
+                    if isinstance(c, _Coded)
+                    else distinct.replace(" AS code ", " AS id ")
+                )
+            with s.scratch(q.isolated(n["v"], id_sources)) as iso:
                 (count,) = s.ints(f"SELECT count(*) FROM {iso}")
                 (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
                 sample = s.records(q.sample(iso, ["vertex_id"], k))

@@ -122,10 +122,38 @@ def one_way(e: str, pairs: str) -> str:
     return f"SELECT {ENDS} FROM {e} ANTI JOIN {pairs} r ON r.s = target_id AND r.t = source_id"
 
 
-def isolated(v: str, sides: Sequence[tuple[str, str]]) -> str:
-    """Distinct vertex IDs that no side's endpoint column holds."""
+def isolated(v: str, id_sources: Sequence[str]) -> str:
+    """Distinct vertex IDs that none of the ``id_sources`` (subqueries with column ``id``)
+    holds."""
     joins = " ".join(
-        f"ANTI JOIN (SELECT DISTINCT {side}_id AS id FROM {e}) x{i} ON x{i}.id = v.vertex_id"
-        for i, (e, side) in enumerate(sides)
+        f"ANTI JOIN ({source}) x{i} ON x{i}.id = v.vertex_id" for i, source in enumerate(id_sources)
     )
     return f"SELECT DISTINCT v.vertex_id FROM {v} v {joins}"
+
+
+def id_codes(e: str) -> str:
+    """Every endpoint ID of an edge table once, with a code that keeps the byte order."""
+    return (
+        "SELECT id, row_number() OVER (ORDER BY id) AS code FROM "
+        f"(SELECT source_id AS id FROM {e} UNION SELECT target_id FROM {e})"
+    )
+
+
+def coded_edges(e: str, ids: str) -> str:
+    """The edge table with both endpoint columns replaced by their codes (same names)."""
+    return (
+        f"SELECT a.code AS source_id, b.code AS target_id, "
+        f"e.* EXCLUDE (source_id, target_id) FROM {e} e "
+        f"JOIN {ids} a ON e.source_id = a.id JOIN {ids} b ON e.target_id = b.id"
+    )
+
+
+def decoded(sample_query: str, ids: str, width: int) -> str:
+    """A sample's endpoint codes turned back into IDs; the order is kept, since codes order
+    as their IDs do."""
+    order = ", ".join(str(i + 1) for i in range(width))
+    return (
+        f"SELECT a.id AS source_id, b.id AS target_id, x.* EXCLUDE (source_id, target_id) "
+        f"FROM ({sample_query}) x JOIN {ids} a ON x.source_id = a.code "
+        f"JOIN {ids} b ON x.target_id = b.code ORDER BY {order}"
+    )
