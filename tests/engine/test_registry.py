@@ -83,7 +83,7 @@ def test_local_engine_applies_its_settings(tmp_path: Path) -> None:
 def test_cli_refuses_an_unknown_engine_flag(tmp_path: Path, capsys: pytest.CaptureFixture) -> None:
     spec = tmp_path / "spec.yaml"
     spec.write_text(
-        "spec_version: 1\nsource: {kind: table-files, vertex_files: [{path: v.csv, "
+        "spec_version: 1\nsource: {kind: table-files, vertex_files: [{path: ../v.csv, "
         "id_column: id, type: t}]}\nvertex_types: {t: {}}\noutput: {bundle: out}\n"
     )
     assert main(["check", str(spec), "--engine", "sparkle"]) == ExitCode.BAD_INPUT
@@ -107,3 +107,25 @@ def test_local_engine_spills_and_cleans_up_or_says_it_needs_more_memory(tmp_path
         engine.canonical_order(table, ["id"])
     assert err.value.key_path == "engine.memory_limit"
     assert not spill.exists()
+
+
+def test_cli_engine_flags_give_the_same_bundle(tmp_path: Path) -> None:
+    (tmp_path / "v.csv").write_text("id,age\na,1\nb,2\nc,3\n")
+    (tmp_path / "e.csv").write_text("s,t\na,b\nb,a\na,x\na,b\n")
+    manifests = []
+    for flags in (["--engine", "local", "--threads", "1", "--memory-limit", "200MiB"],
+                  ["--engine", "reference"]):  # fmt: skip
+        out = tmp_path / flags[1]
+        spec = tmp_path / flags[1] / "graph.yaml"  # the name comes from the file's stem
+        spec.parent.mkdir()
+        spec.write_text(
+            "spec_version: 1\nsource: {kind: table-files, vertex_files: [{path: ../v.csv, "
+            "id_column: id, type: t}], edge_files: [{path: ../e.csv, source_column: s, "
+            "target_column: t, relation: r}]}\nvertex_types: {t: {properties: {age: "
+            f"{{kind: integer}}}}}}}}\nrelations: [{{from: t, name: r, to: t}}]\n"
+            f"output: {{bundle: {out / 'bundle'}}}\n"
+        )
+        assert main(["run", str(spec), "--even-if-failing", "--json", *flags]) == 1  # dangling
+        manifests.append((out / "bundle" / "manifest.json").read_bytes())
+        assert not (out / "bundle.spill").exists()
+    assert manifests[0] == manifests[1]
