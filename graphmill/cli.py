@@ -58,6 +58,19 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument("name", choices=list(SCHEMA_NAMES))
         else:
             cmd.add_argument("spec", help="pipeline spec (YAML)")
+        if name in ("pull", "check", "build", "run"):
+            cmd.add_argument(
+                "--engine",
+                metavar="KIND",
+                help="engine for the set work: local (DuckDB, the default) or reference; "
+                "overrides the spec's engine.kind",
+            )
+            cmd.add_argument(
+                "--memory-limit",
+                metavar="SIZE",
+                help="most memory the local engine holds before spilling, e.g. 2GiB",
+            )
+            cmd.add_argument("--threads", type=int, metavar="N", help="engine worker threads")
         if name == "check":
             cmd.add_argument("--junit", metavar="PATH", help="also write a JUnit XML report")
         if name in ("pull", "run"):
@@ -177,7 +190,7 @@ def _dispatch(args: argparse.Namespace) -> int:
     from graphmill.pipeline import Pipeline
     from graphmill.spec import load_spec
 
-    spec = load_spec(args.spec)
+    spec = _with_engine_flags(load_spec(args.spec), args)
     show = False if (args.json or args.no_progress) else None
     with progress_for_terminal(show) as progress:
         pipeline = Pipeline(spec, progress=progress)
@@ -230,6 +243,29 @@ def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
     else:
         report.render(console)
     return ExitCode.OK if report.passed else ExitCode.CHECKS_FAILED
+
+
+def _with_engine_flags(spec: Any, args: argparse.Namespace) -> Any:
+    """The spec with ``--engine``, ``--memory-limit`` and ``--threads`` applied."""
+    import dataclasses
+
+    from graphmill.errors import SpecError
+
+    changes: dict[str, Any] = {}
+    if args.engine:
+        changes["kind"] = args.engine
+    if args.memory_limit:
+        changes["memory_limit"] = args.memory_limit
+    if args.threads is not None:
+        if args.threads < 1:
+            raise SpecError("--threads must be at least 1", hint="e.g. --threads 2")
+        changes["threads"] = args.threads
+    from graphmill.engine import check_settings
+
+    if changes:
+        spec = dataclasses.replace(spec, engine=dataclasses.replace(spec.engine, **changes))
+    check_settings(spec.engine)
+    return spec
 
 
 def _emit(args: argparse.Namespace, console: Any, document: dict[str, Any], render: Any) -> None:

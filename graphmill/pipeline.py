@@ -88,6 +88,9 @@ class Pipeline:
     """
 
     def __init__(self, spec: PipelineSpec, *, progress: Progress | None = None) -> None:
+        from graphmill.engine import check_settings
+
+        check_settings(spec.engine)  # an unknown engine or bad size fails before any work
         self.spec = spec
         self.progress: Progress = _LoggedProgress(progress or SilentProgress())
         self.last_report: Report | None = None

@@ -23,7 +23,7 @@ from collections.abc import Callable, Iterable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -59,6 +59,10 @@ from graphmill.privacy import personal_data_warnings
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 
 _log = logging.getLogger("graphmill")
+
+if TYPE_CHECKING:
+    from graphmill.engine import Engine
+
 SNAPSHOT_FORMAT = 1
 SNAPSHOT_FILE = "snapshot.json"
 PARQUET_OPTIONS: dict[str, Any] = {"compression": "zstd", "row_group_size": 1 << 20}
@@ -287,11 +291,16 @@ def _declared_type(prop: PropertySpec) -> pa.DataType:
 
 
 def canonical_table(
-    parts: list[pa.Table], id_columns: list[str], declared: list[PropertySpec]
+    parts: list[pa.Table],
+    id_columns: list[str],
+    declared: list[PropertySpec],
+    *,
+    engine: Engine | None = None,
 ) -> tuple[pa.Table, dict[str, dict[str, int]]]:
     """Merge parts into one table: declared columns only, unified types, canonical order.
 
-    Returns the table and the value-kind profile of every property column.
+    Returns the table and the value-kind profile of every property column. ``engine``
+    computes the order (operation ``canonical-order``; default: the reference engine).
     """
     names = id_columns + [p.name for p in declared]
     columns: dict[str, list[Any]] = {n: [] for n in names}
@@ -326,19 +335,34 @@ def canonical_table(
     for name in id_columns:
         if table.column(name).null_count:
             raise InputError(f"{table.column(name).null_count} rows have no {name}")
-    sort_keys = [(n, "ascending") for n in names if not is_multi(table.schema.field(n).type)]
+    sort_keys = [n for n in names if not is_multi(table.schema.field(n).type)]
     if rows:
-        table = table.sort_by(sort_keys)
+        table = table.take(_order_engine(engine).canonical_order(table, sort_keys))
     profile = {n: merge_kinds(profiles[n]) for n in names if n not in id_columns}
     return table.combine_chunks(), profile
 
 
+def _order_engine(engine: Engine | None) -> Engine:
+    if engine is not None:
+        return engine
+    from graphmill.engine.reference import ReferenceEngine
+
+    return ReferenceEngine()
+
+
 def faceted_table(
-    stager: Stager, units: list[WorkUnit], declared: list[PropertySpec]
+    stager: Stager,
+    units: list[WorkUnit],
+    declared: list[PropertySpec],
+    *,
+    engine: Engine | None = None,
 ) -> tuple[pa.Table, dict[str, dict[str, int]], dict[str, int]]:
     """Join a membership unit and property facet units into one row per vertex."""
     members, _ = canonical_table(
-        _read_parts(stager.parts([u for u in units if u.facet is None])), [VERTEX_ID], []
+        _read_parts(stager.parts([u for u in units if u.facet is None])),
+        [VERTEX_ID],
+        [],
+        engine=engine,
     )
     members = pa.table({VERTEX_ID: pc.unique(members.column(VERTEX_ID))}).sort_by(VERTEX_ID)
     kinds: dict[str, dict[str, int]] = {}
@@ -347,7 +371,7 @@ def faceted_table(
         facet_units = [u for u in units if u.facet == prop.name]
         scalar = PropertySpec(prop.name, prop.source_key, prop.kind, multi=False)
         facts, profile = canonical_table(
-            _read_parts(stager.parts(facet_units)), [VERTEX_ID], [scalar]
+            _read_parts(stager.parts(facet_units)), [VERTEX_ID], [scalar], engine=engine
         )
         kinds[prop.name] = profile.get(prop.name, {})
         facts = facts.filter(pc.is_valid(facts.column(prop.name)))
@@ -400,14 +424,19 @@ def publish_snapshot(
     warnings: list[str] = []
     vertex_counts: dict[str, int] = {}
     edge_counts: dict[str, int] = {}
-    with atomic_directory(spec.output.snapshot, kind="snapshot", key="output.snapshot") as scratch:
+    from graphmill.engine import open_engine
+
+    with (
+        atomic_directory(spec.output.snapshot, kind="snapshot", key="output.snapshot") as scratch,
+        open_engine(spec) as engine,
+    ):
         graph_prop = spec.rdf.graph_property
         extra = [PropertySpec(graph_prop, graph_prop, "string")] if graph_prop else []
         for name, vt in spec.vertex_types.items():
             mine = [u for u in units if u.table == "vertices" and u.name == name]
             declared = list(vt.properties) + extra
             if any(u.facet for u in mine):
-                table, kinds, collapsed = faceted_table(stager, mine, declared)
+                table, kinds, collapsed = faceted_table(stager, mine, declared, engine=engine)
                 warnings += [
                     f"{name}.{prop}: {n} vertices had several values for a single-valued "
                     "property; the smallest was kept (declare it 'multi: true' to keep all)"
@@ -415,7 +444,7 @@ def publish_snapshot(
                 ]
             else:
                 table, kinds = canonical_table(
-                    _read_parts(stager.parts(mine)), [VERTEX_ID], declared
+                    _read_parts(stager.parts(mine)), [VERTEX_ID], declared, engine=engine
                 )
             rel_path = f"vertices/{name}.parquet"
             write_parquet(table, scratch / rel_path)
@@ -430,7 +459,10 @@ def publish_snapshot(
             dotted = rel.key.dotted
             mine = [u for u in units if u.table == "edges" and u.name == dotted]
             table, kinds = canonical_table(
-                _read_parts(stager.parts(mine)), [SOURCE_ID, TARGET_ID], list(rel.properties)
+                _read_parts(stager.parts(mine)),
+                [SOURCE_ID, TARGET_ID],
+                list(rel.properties),
+                engine=engine,
             )
             rel_path = f"edges/{dotted}.parquet"
             write_parquet(table, scratch / rel_path)
@@ -532,6 +564,15 @@ class Snapshot:
 
     def edges(self, relation: RelationKey) -> pa.Table:
         return pq.read_table(self.root / self._entries[("edges", relation.dotted)]["file"])
+
+    def file(self, kind: str, name: str) -> Path:
+        """The Parquet file of a table (``kind`` is vertices or edges), for engines that scan
+        files themselves."""
+        return self.root / self._entries[(kind, name)]["file"]
+
+    def rows(self, kind: str, name: str) -> int:
+        """A table's row count, from ``snapshot.json`` (nothing is read)."""
+        return int(self._entries[(kind, name)]["rows"])
 
     def value_kinds(self, kind: str, name: str) -> dict[str, dict[str, int]]:
         entry = self._entries[(kind, name)]

@@ -153,6 +153,16 @@ class DriftGateSpec:
 
 
 @dataclass(frozen=True)
+class EngineSpec:
+    """Which engine runs the heavy set work, and its resources (``None``: the engine's own)."""
+
+    kind: str = "local"
+    memory_limit: str | None = None  # e.g. "2GiB"
+    spill_folder: Path | None = None  # default: "<bundle>.spill"
+    threads: int | None = None
+
+
+@dataclass(frozen=True)
 class OutputSpec:
     snapshot: Path
     bundle: Path
@@ -180,6 +190,7 @@ class PipelineSpec:
     output: OutputSpec
     base_dir: Path
     spec_file: Path | None = None
+    engine: EngineSpec = field(default_factory=EngineSpec)
     raw: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
     drift_gate: DriftGateSpec = field(default_factory=DriftGateSpec)
 
@@ -276,6 +287,15 @@ def spec_from_dict(
         else Path(f"{snapshot}.report.json"),
         junit=_absolute(out["junit"], base, "output.junit", where) if "junit" in out else None,
     )
+    engine_doc = doc.get("engine", {})
+    engine = EngineSpec(
+        kind=engine_doc.get("kind", "local"),
+        memory_limit=engine_doc.get("memory_limit"),
+        spill_folder=_absolute(engine_doc["spill_folder"], base, "engine.spill_folder", where)
+        if "spill_folder" in engine_doc
+        else None,
+        threads=engine_doc.get("threads"),
+    )
     checks_doc = doc.get("checks", {})
     spec = PipelineSpec(
         name=doc.get("name", (spec_file.stem if spec_file else "graph")),
@@ -301,6 +321,7 @@ def spec_from_dict(
         output=output,
         base_dir=base,
         spec_file=spec_file,
+        engine=engine,
         raw=doc,
         drift_gate=parse_drift_gate(doc.get("drift_gate"), base, where),
     )

@@ -15,17 +15,19 @@ from typing import Any
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
 from graphmill._atomic import atomic_directory
 from graphmill._progress import Progress, SilentProgress
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
-from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
+from graphmill.connectors.base import VERTEX_ID
+from graphmill.engine import Engine, open_engine
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
-from graphmill.transform._edges import EdgeArrays, apply_edge_policy
-from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
+from graphmill.transform._edges import EdgeArrays
+from graphmill.transform._indexing import VertexIndex, index_vertices
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
 from graphmill.transform._pseudonyms import (
     SCHEME,
@@ -77,16 +79,29 @@ def build_bundle(
     progress: Progress | None = None,
     previous: Path | None = None,
     even_if_drifting: bool = False,
+    engine: Engine | None = None,
 ) -> BuildInfo:
     """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
 
     With ``previous`` (default: ``spec.drift_gate.previous``) the new bundle is compared with
     that bundle before publishing; the comparison and the previous manifest's hash go into the
     manifest, and a failing drift gate publishes nothing (unless ``even_if_drifting``).
+    ``engine`` runs the set operations (default: the one the spec names, opened here).
     """
     from graphmill.compare._compare import open_side
     from graphmill.compare._lineage import lineage_entry
 
+    if engine is None:
+        with open_engine(spec) as opened:
+            return build_bundle(
+                spec,
+                snapshot,
+                checks_summary=checks_summary,
+                progress=progress,
+                previous=previous,
+                even_if_drifting=even_if_drifting,
+                engine=opened,
+            )
     started = time.perf_counter()
     previous = previous or spec.drift_gate.previous
     before = open_side(previous) if previous is not None else None
@@ -103,7 +118,9 @@ def build_bundle(
         columns = [VERTEX_ID] + [p.name for p in vt.properties]
         table = snapshot.vertices(name).select(columns)
         fn = pseudonymizer(name, key) if key is not None else None
-        indices[name] = vi = index_vertices(name, table, pseudonymize=fn)
+        indices[name] = vi = index_vertices(
+            name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
+        )
         check_unique(vi)
         info.warnings += add_vertex_type(content, spec, vi)
         info.vertex_counts[name] = vi.count
@@ -111,7 +128,7 @@ def build_bundle(
         task.advance()
     task = progress.task("build relations", total=len(spec.relations))
     for rel in spec.relations:
-        _add_relation(content, info, spec, snapshot, rel, indices)
+        _add_relation(content, info, spec, snapshot, rel, indices, engine)
         task.advance()
     if spec.label is not None:
         split = content.manifest["split"]
@@ -179,9 +196,11 @@ def _add_relation(
     snapshot: Snapshot,
     rel: Any,
     indices: dict[str, VertexIndex],
+    engine: Engine,
 ) -> None:
     key: RelationKey = rel.key
-    table = snapshot.edges(key).select([SOURCE_ID, TARGET_ID] + [p.name for p in rel.properties])
+    edges_file = snapshot.file("edges", key.dotted)  # the engine maps IDs from the file
+    properties = pq.read_table(edges_file, columns=[p.name for p in rel.properties])
     src, dst = indices[key.source_type], indices[key.target_type]
     same_type = key.source_type == key.target_type
     symmetrize = rel.undirected and spec.edges.undirected == "symmetrize"
@@ -190,16 +209,15 @@ def _add_relation(
             f"{key.dotted}: an undirected relation between two vertex types cannot be "
             "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
         )
-    outcome = apply_edge_policy(
-        map_endpoints(table.column(SOURCE_ID), src.ids),
-        map_endpoints(table.column(TARGET_ID), dst.ids),
+    outcome = engine.edge_policy(
+        engine.endpoint_positions(edges_file, "source", src.ids),
+        engine.endpoint_positions(edges_file, "target", dst.ids),
         same_type=same_type,
         vertex_count=src.count,
         duplicates=spec.edges.duplicates,
         self_loops=spec.edges.self_loops,
         symmetrize=symmetrize and same_type,
     )
-    properties = table.drop_columns([SOURCE_ID, TARGET_ID])
     entry = {
         "undirected": rel.undirected,
         "symmetrized": symmetrize and same_type,

@@ -59,13 +59,15 @@ def index_vertices(
     table: pa.Table,
     *,
     pseudonymize: Callable[[pa.Array], pa.Array] | None = None,
+    first_rows: Callable[[pa.ChunkedArray], np.ndarray] = first_rows_by_id,
 ) -> VertexIndex:
     """Deduplicate ``table`` by ``vertex_id`` and put its rows in index order.
 
     ``pseudonymize``, when given, returns one pseudonym per ID (a closure over the key, so the
-    key never passes through here); the rows are then ordered by pseudonym.
+    key never passes through here); the rows are then ordered by pseudonym. ``first_rows``:
+    an engine's ``vertex-index`` operation (default: :func:`first_rows_by_id`).
     """
-    keep = first_rows_by_id(table.column(VERTEX_ID))
+    keep = first_rows(table.column(VERTEX_ID))
     kept = table.take(pa.array(keep)).combine_chunks()
     ids = _flat(kept.column(VERTEX_ID))
     public = ids

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any, TypeVar
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
 import pyarrow as pa
@@ -13,7 +14,9 @@ import pyarrow.compute as pc
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, PropertySpec, RelationKey, RelationSpec
-from graphmill.validate.rules import PairCodes, pair_codes
+
+if TYPE_CHECKING:
+    from graphmill.engine import Engine
 
 T = TypeVar("T")
 ID_COLUMNS = {"vertices": [VERTEX_ID], "edges": [SOURCE_ID, TARGET_ID]}
@@ -81,9 +84,10 @@ def counted(n: int, noun: str, plural: str | None = None) -> str:
 class CheckContext:
     """The snapshot and spec as checks see them; each table is read once per run."""
 
-    def __init__(self, spec: PipelineSpec, snapshot: Snapshot) -> None:
+    def __init__(self, spec: PipelineSpec, snapshot: Snapshot, engine: Engine) -> None:
         self.spec = spec
         self.snapshot = snapshot
+        self.engine = engine  # runs the set operations of the checks
         self.sample_size = spec.checks.sample_size
         self._tables: dict[tuple[str, str], pa.Table] = {}
         self._memo: dict[tuple[Any, ...], Any] = {}
@@ -119,6 +123,18 @@ class CheckContext:
     def edges(self, relation: RelationKey) -> pa.Table:
         return self.table("edges", relation.dotted)
 
+    def edge_input(self, relation: RelationKey) -> pa.Table | Path:
+        """The relation's edges as an engine input: the snapshot's Parquet file when the
+        table is not in memory already (so an engine that scans files never loads it here)."""
+        key = ("edges", relation.dotted)
+        if key in self._present and key not in self._tables:
+            return self.snapshot.file(*key)
+        return self.table(*key)
+
+    def rows(self, table: str, name: str) -> int:
+        """A table's row count (0 if absent), without reading it."""
+        return self.snapshot.rows(table, name) if self.has(table, name) else 0
+
     def value_kinds(self, table: str, name: str) -> dict[str, dict[str, int]]:
         return self.snapshot.value_kinds(table, name) if self.has(table, name) else {}
 
@@ -135,6 +151,8 @@ class CheckContext:
     def property_columns(self, table: str, name: str) -> list[str]:
         """The table's property columns (every column but the IDs), in table order."""
         ids = ID_COLUMNS[table]
+        if self.has(table, name) and (table, name) not in self._tables:
+            return [c for c in self.snapshot.value_kinds(table, name) if c not in ids]
         return [c for c in self.table(table, name).column_names if c not in ids]
 
     def relation_spec(self, relation: RelationKey) -> RelationSpec | None:
@@ -146,24 +164,6 @@ class CheckContext:
             return vt.property(prop) if vt else None
         rel = self.relation_spec(RelationKey.parse(name))
         return next((p for p in rel.properties if p.name == prop), None) if rel else None
-
-    def endpoints_of(self, vertex_type: str) -> list[pa.ChunkedArray]:
-        """Endpoint columns of every relation on the sides where ``vertex_type`` stands."""
-        out: list[pa.ChunkedArray] = []
-        for rel in self.relations:
-            if rel.source_type == vertex_type:
-                out.append(self.edges(rel).column(SOURCE_ID))
-            if rel.target_type == vertex_type:
-                out.append(self.edges(rel).column(TARGET_ID))
-        return out
-
-    def pair_codes(self, relation: RelationKey) -> PairCodes:
-        """The relation's endpoint codes, computed once per run and shared by the rules."""
-        edges = self.edges(relation)
-        return self.memo(
-            ("codes", relation.dotted),
-            lambda: pair_codes(edges.column(SOURCE_ID), edges.column(TARGET_ID)),
-        )
 
     def memo(self, key: tuple[Any, ...], compute: Callable[[], T]) -> T:
         """``compute()`` once per run for ``key`` (shared between rules)."""

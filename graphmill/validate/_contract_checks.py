@@ -21,7 +21,7 @@ def contract_vertex_types(ctx: CheckContext) -> list[str]:
 
 
 def _rows(ctx: CheckContext, table: str, name: str) -> int | None:
-    return ctx.table(table, name).num_rows if ctx.has(table, name) else None
+    return ctx.rows(table, name) if ctx.has(table, name) else None
 
 
 def _broken(why: str | None, what: str) -> str:

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 
+from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
@@ -202,17 +203,22 @@ def _snapshot_info(snapshot: Snapshot) -> dict[str, object]:
     }
 
 
-def run_checks(spec: PipelineSpec, snapshot: Snapshot) -> Report:
+def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None = None) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
+
+    ``engine`` runs the set operations (default: the one the spec names, opened here).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
     table the spec declares. Findings and evaluations come in the catalogue's order, then in
     the snapshot's order of tables and columns.
     """
+    if engine is None:
+        with open_engine(spec) as opened:
+            return run_checks(spec, snapshot, engine=opened)
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
-    ctx = CheckContext(spec, snapshot)
+    ctx = CheckContext(spec, snapshot, engine)
     findings: list[Finding] = []
     evaluated: list[Evaluation] = []
     for rule_id, subjects, check in CHECKS:

@@ -5,27 +5,29 @@ Each check takes the context and a subject and returns an :class:`Outcome`.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pyarrow as pa
 import pyarrow.compute as pc
 
 from graphmill._text import plural
 from graphmill.connectors.base import VERTEX_ID
 from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
-from graphmill.validate.rules import PairCodes, duplicate_counts, isolated_mask, shared_ids
+from graphmill.validate.rules import duplicate_counts, shared_ids
 
 
 def _sum(column: pa.Array | pa.ChunkedArray) -> int:
     return int(pc.sum(column).as_py() or 0)
 
 
-def _coded_sides(ctx: CheckContext, vertex_type: str) -> list[tuple[PairCodes, str]]:
-    """The coded endpoint columns of every relation where ``vertex_type`` stands."""
+def _sides(ctx: CheckContext, vertex_type: str) -> list[tuple[pa.Table | Path, str]]:
+    """The edge tables and sides of every relation where ``vertex_type`` stands."""
     sides = []
     for rel in ctx.relations:
         if rel.source_type == vertex_type:
-            sides.append((ctx.pair_codes(rel), "source"))
+            sides.append((ctx.edge_input(rel), "source"))
         if rel.target_type == vertex_type:
-            sides.append((ctx.pair_codes(rel), "target"))
+            sides.append((ctx.edge_input(rel), "target"))
     return sides
 
 
@@ -69,16 +71,15 @@ def check_shared_ids(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
 def check_isolated_vertex(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """Vertices with no edge in any relation (count = distinct ids)."""
     name = subject["vertex_type"]
-    ids = ctx.vertices(name).column(VERTEX_ID).combine_chunks()
-    mask = isolated_mask(ids, ctx.endpoints_of(name), coded=_coded_sides(ctx, name))
-    isolated = pc.unique(ids.filter(mask))
-    total = len(pc.unique(ids))
+    ids = ctx.vertices(name).column(VERTEX_ID)
+    found = ctx.engine.isolated_vertices(ids, _sides(ctx, name), ctx.sample_size)
+    count, total = found.count, found.details["total"]
     return Outcome(
-        len(isolated),
+        count,
         total,
-        f"{len(isolated)} of {total} {name} vertices ({share(len(isolated), total)}) have no "
+        f"{count} of {total} {name} vertices ({share(count, total)}) have no "
         "edge in any declared relation",
-        sorted_sample(pa.table({VERTEX_ID: isolated}), ctx.sample_size),
+        found.sample,
     )
 
 
@@ -86,7 +87,7 @@ def check_edgeless_type(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """A vertex type that no relation with at least one edge touches (count 0 or 1)."""
     name = subject["vertex_type"]
     touching = [r for r in ctx.relations if name in (r.source_type, r.target_type)]
-    with_edges = [r for r in touching if ctx.edges(r).num_rows]
+    with_edges = [r for r in touching if ctx.rows("edges", r.dotted)]
     rows = ctx.vertices(name).num_rows
     declared = ", ".join(r.dotted for r in touching) or "none"
     return Outcome(

@@ -1,0 +1,112 @@
+"""``Engine``: one method per operation of the plan (see ``_contracts.OPERATIONS``).
+
+An engine is opened per stage (``with open_engine(spec) as engine: ...``) and closed after,
+so no state outlives a stage. Columns are Arrow arrays (``pa.Array`` or ``pa.ChunkedArray``);
+positions and indices are int64 numpy arrays. Check operations take their edge tables as
+:data:`TableInput`: an Arrow table, or the snapshot's Parquet file.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from collections.abc import Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, ClassVar, TypeAlias
+
+import numpy as np
+import pyarrow as pa
+
+from graphmill.engine._contracts import Offenders
+from graphmill.spec import EngineSpec
+
+if TYPE_CHECKING:  # the transform package imports the engines, not the other way round
+    from graphmill.transform._edges import EdgeOutcome
+
+Column: TypeAlias = pa.Array | pa.ChunkedArray
+#: A table given to an operation: in memory, or a Parquet file (a snapshot's) that an engine
+#: may scan itself without the rows ever entering Python.
+TableInput: TypeAlias = pa.Table | Path
+
+
+class Engine(ABC):
+    """The operations of the plan. ``native`` names those this engine runs itself."""
+
+    kind: ClassVar[str] = ""
+    native: ClassVar[frozenset[str]] = frozenset()
+
+    def __init__(self, settings: EngineSpec | None = None, *, spill_folder: Path | None = None):
+        self.settings = settings or EngineSpec(kind=self.kind)
+        self.spill_folder = spill_folder
+
+    def close(self) -> None:  # noqa: B027 - an engine that holds nothing has nothing to do
+        """Release what the engine holds (connections, spill files)."""
+
+    def __enter__(self) -> Engine:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    # ------------------------------------------------------------------ pull
+    @abstractmethod
+    def canonical_order(self, table: pa.Table, keys: Sequence[str]) -> np.ndarray:
+        """Stable permutation sorting ``table`` by ``keys`` ascending (contract:
+        ``canonical-order``)."""
+
+    # ------------------------------------------------------------------ build
+    @abstractmethod
+    def first_rows_by_id(self, ids: Column) -> np.ndarray:
+        """First row of each distinct ID, in ID byte order (``vertex-index``)."""
+
+    @abstractmethod
+    def endpoint_positions(self, edges: TableInput, side: str, vertex_ids: pa.Array) -> np.ndarray:
+        """Position of each edge's ``side`` (source or target) endpoint among ``vertex_ids``,
+        or -1 (``endpoint-index``)."""
+
+    @abstractmethod
+    def edge_policy(
+        self,
+        source: np.ndarray,
+        target: np.ndarray,
+        *,
+        same_type: bool,
+        vertex_count: int,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        """Mapped endpoints in, policed and sorted edges out (``edge-policy``)."""
+
+    # ------------------------------------------------------------------ check
+    @abstractmethod
+    def dangling_edges(
+        self, edges: TableInput, source_ids: Column, target_ids: Column, k: int
+    ) -> Offenders:
+        """``dangling-edges``."""
+
+    @abstractmethod
+    def self_loops(self, edges: TableInput, k: int) -> Offenders:
+        """``self-loops``."""
+
+    @abstractmethod
+    def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
+        """``repeated-edges``."""
+
+    @abstractmethod
+    def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
+        """``parallel-edges``."""
+
+    @abstractmethod
+    def reciprocity(self, edges: TableInput) -> Offenders:
+        """``reciprocity``."""
+
+    @abstractmethod
+    def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
+        """``one-way-edges``."""
+
+    @abstractmethod
+    def isolated_vertices(
+        self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
+    ) -> Offenders:
+        """``isolated-vertices``; ``sides``: (edge table, "source" or "target") for every
+        relation side where the vertex type stands."""
