@@ -107,7 +107,7 @@ def test_a_chain_verifies_end_to_end_and_breaks_where_it_should(tmp_path: Path, 
         link["manifest_sha256"] for link in links[:-1]
     ]
     assert main(["lineage", *map(str, bundles)]) == 0
-    assert "chain of 3 bundle(s) verified" in capsys.readouterr().out
+    assert "chain of 3 bundles verified" in capsys.readouterr().out
     with pytest.raises(BundleIntegrityError, match="not built after"):
         verify_lineage([bundles[0], bundles[2]])
     assert main(["lineage", str(bundles[0]), str(bundles[2])]) == 8

@@ -29,15 +29,17 @@ def million(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, int]:
 
 
 def _bundle_files(root: Path) -> dict[str, bytes]:
-    """Every bundle file but the manifest, plus the manifest's file list (its provenance
-    names the source, which differs by design)."""
+    """Every bundle file but the manifest and the dataset card, plus the manifest's file list
+    without the card (the provenance, shown on the card too, names the source, which differs
+    by design)."""
     files = {
         str(p.relative_to(root)): p.read_bytes()
         for p in sorted(root.rglob("*"))
-        if p.is_file() and p.name != "manifest.json"
+        if p.is_file() and p.name not in ("manifest.json", "card.html")
     }
     manifest = json.loads((root / "manifest.json").read_text())
-    files["manifest.json:files"] = json.dumps(manifest.get("files"), sort_keys=True).encode()
+    listed = [f for f in manifest.get("files", []) if f["path"] != "card.html"]
+    files["manifest.json:files"] = json.dumps(listed, sort_keys=True).encode()
     return files
 
 

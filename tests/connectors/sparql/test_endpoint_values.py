@@ -22,7 +22,9 @@ pytestmark = pytest.mark.servers
 # as xsd:decimal, so `count` mixes integer and decimal and is float64 there (the README's
 # rule "integer + float -> float64"); every other case comes back with the same value (some
 # in another lexical form: "true" as "1", "1.5E2" as "150.0", "en-GB" as "en-gb").
-VIRTUOSO_CHANGES = {"int_big": (f'"9223372036854775807"^^<{cases.XSD}decimal>', float(2**63 - 1))}
+# Virtuoso stores the largest int64 as an xsd:decimal; under the property's declared kind
+# integer that literal is ill-typed (the one gate: null, its text kept, counted)
+VIRTUOSO_CHANGES = {"int_big": (f'"9223372036854775807"^^<{cases.XSD}decimal>', None)}
 
 
 def _doc(source: dict, out: Path) -> dict:
@@ -61,14 +63,11 @@ def _expected(server_kind: str) -> list[tuple[str, str, str, object, str]]:
     """The literal cases with the values this server must give back."""
     if server_kind != "virtuoso":
         return cases.LITERAL_CASES
-    changed_props = {p for name, p, *_ in cases.LITERAL_CASES if name in VIRTUOSO_CHANGES}
     out = []
     for name, prop, written, expected, where in cases.LITERAL_CASES:
         if name in VIRTUOSO_CHANGES:
             written, expected = VIRTUOSO_CHANGES[name]
             where = "as Virtuoso holds it (see VIRTUOSO_CHANGES)"
-        elif prop in changed_props:
-            expected = float(expected)  # type: ignore[arg-type]
         out.append((name, prop, written, expected, where))
     return out
 
