@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING, Any
 
 from graphmill._spec_explain import did_you_mean, key_path, listed
 from graphmill._spec_targets import check_contract, check_features, check_label
+from graphmill._spec_tasks import check_task
 from graphmill.errors import SpecError, quote_value
 
 if TYPE_CHECKING:
@@ -256,6 +257,7 @@ CHECKS: tuple[Callable[[PipelineSpec], None], ...] = (
     check_property_ranges,
     check_features,
     check_label,
+    check_task,
     check_split,
     check_severities,
     check_contract,

@@ -96,7 +96,7 @@ def build_bundle(
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
     content = BundleContent()
-    content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None})
+    content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None})
     indices: dict[str, VertexIndex] = {}
     task = progress.task("build vertices", total=len(spec.vertex_types))
     for name, vt in spec.vertex_types.items():
@@ -206,6 +206,10 @@ def _add_relation(
         "reverse_of": None,
     }
     _emit_relation(content, info, key, outcome.edges, properties, entry)
+    if spec.task is not None and spec.task.relation == key.dotted:
+        from graphmill.transform._edge_targets import add_edge_task
+
+        info.part_sizes = add_edge_task(content, spec, key, outcome.edges, properties, (src, dst))
     info.dropped_edges[key.dotted] = outcome.dropped
     info.merged_edges[key.dotted] = outcome.merged
     info.added_edges[key.dotted] = outcome.added_reverses
