@@ -96,7 +96,9 @@ def build_bundle(
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
     content = BundleContent()
-    content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None})
+    content.manifest.update(
+        {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
+    )
     indices: dict[str, VertexIndex] = {}
     task = progress.task("build vertices", total=len(spec.vertex_types))
     for name, vt in spec.vertex_types.items():
