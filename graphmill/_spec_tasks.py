@@ -16,6 +16,9 @@ from graphmill.errors import SpecError, quote_value
 if TYPE_CHECKING:
     from graphmill.spec import PipelineSpec, PropertySpec
 
+#: Keys of ``task`` that only a links task takes.
+LINK_KEYS = frozenset({"relations", "supervision_share", "negatives", "by_time", "unseen_vertices"})
+
 #: Declared kinds a ``*-values`` target may have.
 NUMBER_KINDS = frozenset({"integer", "float"})
 
@@ -25,7 +28,18 @@ def check_task(spec: PipelineSpec) -> None:
     task = spec.task
     if task is None:
         return
-    if task.on_edges:
+    link_keys = sorted(LINK_KEYS & set(spec.raw.get("task", {})))
+    if task.kind != "links" and link_keys:
+        raise SpecError(
+            f"task.{link_keys[0]} is for links tasks, but the kind is {task.kind!r}",
+            key_path=f"task.{link_keys[0]}",
+            hint="remove it, or use task kind links",
+        )
+    if task.kind == "links":
+        from graphmill._spec_links import check_link_task
+
+        check_link_task(spec)
+    elif task.on_edges:
         _check_edge_task(spec)
     else:
         for key in ("relation", "property"):
@@ -53,15 +67,21 @@ def check_task(spec: PipelineSpec) -> None:
         )
 
 
-def _check_edge_task(spec: PipelineSpec) -> None:
-    task = spec.task
-    assert task is not None
+def refuse_label(spec: PipelineSpec) -> None:
+    """Edge and link tasks take no ``label``."""
+    assert spec.task is not None
     if spec.label is not None:
         raise SpecError(
-            f"task kind {task.kind!r} takes its target from an edge property, not from label",
+            f"task kind {spec.task.kind!r} takes its target from edges, not from label",
             key_path="label",
             hint="remove label, or use task kind vertex-classes / vertex-values",
         )
+
+
+def _check_edge_task(spec: PipelineSpec) -> None:
+    task = spec.task
+    assert task is not None
+    refuse_label(spec)
     for key in ("relation", "property"):
         if getattr(task, key) is None:
             raise SpecError(

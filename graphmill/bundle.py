@@ -16,6 +16,7 @@ A bundle is a folder, written in one piece by :func:`graphmill.transform.build_b
                                        relation.<src>.<rel>.<dst>.multiplicity  float32 [E]
                                        relation.<src>.<rel>.<dst>.targets   [E] (edge tasks)
                                        relation.<src>.<rel>.<dst>.part.<part>.positions  int64
+                                       relation.<src>.<rel>.<dst>.negatives.<part>  int64 [2, n]
       tables/vertices/<type>.parquet   index, vertex_id (or pseudonym), declared properties
       tables/edges/<src>.<rel>.<dst>.parquet  source_index, target_index, [multiplicity], properties
       tables/features/<type>.parquet   index, encoded columns, <property>__code columns
@@ -61,6 +62,7 @@ MANIFEST_FILE = "manifest.json"
 TENSOR_FILE = "tensors.safetensors"
 SELF_HASH_KEY = "manifest_sha256"
 PARTS = ("train", "validation", "test")
+EDGE_ROLES = ("message", "supervision")  # disjoint subsets of a links task's train edges
 
 
 def vertex_key(vertex_type: str, what: str) -> str:
@@ -184,7 +186,8 @@ class RelationTensors:
     endpoints: Any  # torch.int64 [2, E]: row 0 source index, row 1 target index
     multiplicity: Any = None  # torch.float32 [E] when repeated edges were merged
     targets: Any = None  # edge tasks: int64 class codes (-1 missing) or float32 standardized
-    parts: dict[str, Any] = field(default_factory=dict)  # part -> torch.int64 edge positions
+    parts: dict[str, Any] = field(default_factory=dict)  # part or role -> int64 edge positions
+    negatives: dict[str, Any] = field(default_factory=dict)  # part -> int64 [2, n]: non-edges
 
     @property
     def count(self) -> int:
@@ -271,8 +274,13 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
             tensors.get(relation_key(key, "targets")),
             {
                 p: tensors[relation_key(key, f"part.{p}.positions")]
-                for p in PARTS
+                for p in (*PARTS, *EDGE_ROLES)
                 if relation_key(key, f"part.{p}.positions") in tensors
+            },
+            {
+                p: tensors[relation_key(key, f"negatives.{p}")]
+                for p in PARTS
+                if relation_key(key, f"negatives.{p}") in tensors
             },
         )
     return GraphBundle(root, manifest, vertex_types, relations)

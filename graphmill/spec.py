@@ -85,6 +85,29 @@ class LabelSpec:
 
 
 @dataclass(frozen=True)
+class TimeCut:
+    """``task.by_time``: the timestamp property and where validation and test begin."""
+
+    property: str
+    of: str = "edge"
+    validation_from: float | str = 0.8
+    test_from: float | str = 0.9
+
+
+@dataclass(frozen=True)
+class LinkOptions:
+    """The options of a ``links`` task."""
+
+    relations: tuple[str, ...] = ()
+    supervision_share: float | None = None
+    per_positive: int = 1
+    sampling: str = "uniform"
+    negative_parts: tuple[str, ...] = ("validation", "test")
+    by_time: TimeCut | None = None
+    unseen_vertices: bool = False
+
+
+@dataclass(frozen=True)
 class TaskSpec:
     """``task``: what the dataset is for. Vertex kinds take their target from ``label``;
     edge kinds name a relation (dotted) and one of its properties."""
@@ -92,6 +115,7 @@ class TaskSpec:
     kind: str = "vertex-classes"
     relation: str | None = None
     property: str | None = None
+    links: LinkOptions | None = None
 
     @builtins.property
     def on_edges(self) -> bool:
@@ -365,7 +389,27 @@ def _task(doc: dict[str, Any]) -> TaskSpec | None:
     body = doc.get("task")
     if body is None:
         return TaskSpec() if "label" in doc else None
-    return TaskSpec(body["kind"], body.get("relation"), body.get("property"))
+    links = None
+    if body["kind"] == "links":
+        negatives = body.get("negatives", {})
+        timing = body.get("by_time")
+        links = LinkOptions(
+            relations=tuple(body.get("relations", ())),
+            supervision_share=body.get("supervision_share"),
+            per_positive=negatives.get("per_positive", 1),
+            sampling=negatives.get("sampling", "uniform"),
+            negative_parts=tuple(negatives.get("parts", ("validation", "test"))),
+            by_time=TimeCut(
+                timing["property"],
+                timing.get("of", "edge"),
+                timing["validation_from"],
+                timing["test_from"],
+            )
+            if timing
+            else None,
+            unseen_vertices=body.get("unseen_vertices", False),
+        )
+    return TaskSpec(body["kind"], body.get("relation"), body.get("property"), links)
 
 
 def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:

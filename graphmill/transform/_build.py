@@ -115,6 +115,8 @@ def build_bundle(
     for rel in spec.relations:
         _add_relation(content, info, spec, snapshot, rel, indices)
         task.advance()
+    if links_task := (spec.task.links if spec.task is not None else None):
+        content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
     if spec.label is not None:
         split = content.manifest["split"]
         info.part_sizes = dict(split["sizes"]) if split else {}
@@ -212,6 +214,16 @@ def _add_relation(
         from graphmill.transform._edge_targets import add_edge_task
 
         info.part_sizes = add_edge_task(content, spec, key, outcome.edges, properties, (src, dst))
+    links = spec.task.links if spec.task is not None else None
+    linked = links is not None and key.dotted in links.relations
+    if linked:
+        from graphmill.transform._link_task import add_link_split
+
+        sizes = add_link_split(
+            content, spec, key, outcome.edges, properties, (src, dst), forward=key
+        )
+        for part, n in sizes.items():
+            info.part_sizes[part] = info.part_sizes.get(part, 0) + n
     info.dropped_edges[key.dotted] = outcome.dropped
     info.merged_edges[key.dotted] = outcome.merged
     info.added_edges[key.dotted] = outcome.added_reverses
@@ -224,7 +236,12 @@ def _add_relation(
                 hint="rename that relation or set add_reverse: false",
             )
         entry = {"undirected": False, "symmetrized": False, "reverse_of": key.dotted}
-        _emit_relation(content, info, reverse, outcome.edges.reversed(), properties, entry)
+        reversed_edges = outcome.edges.reversed()
+        _emit_relation(content, info, reverse, reversed_edges, properties, entry)
+        if linked:
+            add_link_split(
+                content, spec, reverse, reversed_edges, properties, (dst, src), forward=key
+            )
 
 
 def _emit_relation(

@@ -82,3 +82,43 @@ def edge_parts(
     """Part code per edge (0 train, 1 validation, 2 test), int8, stable across versions."""
     keys = edge_keys(source_ids, relation, target_ids, undirected=undirected)
     return parts_by_fraction(keyed_unit_interval(keys, seed), fractions)
+
+
+NO_PART = -1
+
+
+def vertex_keys(ids: Sequence[str]) -> list[bytes]:
+    """The hash key of each vertex: its original ID, length-prefixed (as in edge keys)."""
+    return [_field(i) for i in ids]
+
+
+def supervision_flags(keys: Sequence[bytes], seed: int, share: float) -> np.ndarray:
+    """True for the edges held out of message passing as supervision: a second keyed hash
+    (the key prefixed with ``supervision``) below ``share``; stable like the parts."""
+    return keyed_unit_interval((b"supervision" + k for k in keys), seed) < share
+
+
+def unseen_vertex_parts(source_part: np.ndarray, target_part: np.ndarray) -> np.ndarray:
+    """Inductive edge parts from the parts of the two endpoints: the later of the two
+    (train < validation < test), so a train edge touches train vertices only and an
+    evaluation edge at least one vertex that no train edge touches.
+
+    >>> unseen_vertex_parts(np.array([0, 0, 1, 2]), np.array([0, 1, 2, 0])).tolist()
+    [0, 1, 2, 2]
+    """
+    return np.maximum(source_part, target_part).astype(np.int8)
+
+
+def time_parts(times: np.ndarray, validation_from: float, test_from: float) -> np.ndarray:
+    """Part per edge from its time (NaN: no part): before ``validation_from`` train, before
+    ``test_from`` validation, else test.
+
+    >>> time_parts(np.array([1.0, 5.0, 9.0, np.nan]), 5.0, 9.0).tolist()
+    [0, 1, 2, -1]
+    """
+    out = np.full(len(times), NO_PART, dtype=np.int8)
+    timed = ~np.isnan(times)
+    out[timed & (times >= test_from)] = 2
+    out[timed & (times < test_from)] = 1
+    out[timed & (times < validation_from)] = 0
+    return out
