@@ -205,6 +205,7 @@ class Pipeline:
             progress=self.progress,
             previous=Path(previous) if previous is not None else None,
             even_if_drifting=even_if_failing,
+            even_if_leaking=even_if_failing,
         )
         log.info("build: wrote %s", info.bundle)
         for path in sorted(Path(info.bundle).rglob("*")):

@@ -77,6 +77,7 @@ def build_bundle(
     progress: Progress | None = None,
     previous: Path | None = None,
     even_if_drifting: bool = False,
+    even_if_leaking: bool = False,
 ) -> BuildInfo:
     """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
 
@@ -117,6 +118,7 @@ def build_bundle(
         task.advance()
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
+        _audit_leakage(content, info, spec, even_if_leaking)
     if spec.label is not None:
         split = content.manifest["split"]
         info.part_sizes = dict(split["sizes"]) if split else {}
@@ -174,6 +176,27 @@ def build_bundle(
         seal_with_card(scratch, manifest)
     info.seconds = time.perf_counter() - started
     return info
+
+
+def _audit_leakage(
+    content: BundleContent, info: BuildInfo, spec: PipelineSpec, even_if_leaking: bool
+) -> None:
+    """Run the leakage audit into the manifest; refuse on an error finding unless asked."""
+    from graphmill.transform._leakage_audit import LeakageError, audit_links
+
+    audit = content.manifest["leakage"] = audit_links(content, spec)
+    for finding in audit["findings"]:
+        info.warnings.append(
+            f"leakage {finding['rule']} ({finding['severity']}): " + finding["message"]
+        )
+    if not audit["passed"] and not even_if_leaking:
+        first = next(f for f in audit["findings"] if f["severity"] == "error")
+        raise LeakageError(
+            f"leakage audit failed with {audit['counts']['error']} error finding(s), the first "
+            f"{first['rule']}: {first['message']}; no bundle built",
+            hint="change the task's split, set checks.severity for that rule, or build with "
+            "--even-if-failing",
+        )
 
 
 def _add_relation(
