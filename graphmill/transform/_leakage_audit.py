@@ -87,7 +87,8 @@ def audit_links(content: BundleContent, spec: PipelineSpec) -> dict[str, Any]:
         cut = spec.task.links.by_time
         if cut is not None and "by_time" in split:
             first = _cut_number(split["by_time"]["validation_from"])
-            times = _times(content, key, cut.of, cut.property, ends)
+            both = spec.relation(key).undirected and cut.of != "edge" and same
+            times = _times(content, key, "both" if both else cut.of, cut.property, ends)
             found = after_cut(times, training, first)
             report("training-edge-after-cut", dotted, found, len(training), ends)
     counts = {s: sum(f["severity"] == s for f in findings) for s in ("error", "warning", "info")}
@@ -134,14 +135,18 @@ def _other_pairs(
 def _times(
     content: BundleContent, key: RelationKey, of: str, prop: str, ends: np.ndarray
 ) -> np.ndarray:
-    """Each edge's own timestamp (not its pair's earliest), as in the split."""
+    """Each edge's own timestamp (a later copy of a pair keeps its later time). For vertex
+    times on an undirected relation (``both``) the earlier endpoint's, as in the split, since
+    the two directions are one edge."""
     if of == "edge":
         column = content.tables[table_path("edges", key.dotted)].column(prop)
-    else:
-        vertex_type, at = (
-            (key.source_type, ends[0]) if of == "source" else (key.target_type, ends[1])
+        return time_numbers(column, where="task.by_time.property")
+    if of == "both":
+        return np.fmin(
+            _times(content, key, "source", prop, ends), _times(content, key, "target", prop, ends)
         )
-        column = content.tables[table_path("vertices", vertex_type)].column(prop).take(at)
+    vertex_type, at = (key.source_type, ends[0]) if of == "source" else (key.target_type, ends[1])
+    column = content.tables[table_path("vertices", vertex_type)].column(prop).take(at)
     return time_numbers(column, where="task.by_time.property")
 
 

@@ -3,6 +3,7 @@ Les Misérables, a networkx bipartite generator) and pandas' own date arithmetic
 
 from __future__ import annotations
 
+import json
 import random
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
@@ -14,8 +15,8 @@ import pandas as pd
 import pyarrow as pa
 import pytest
 
-from graphmill.bundle import GraphBundle, load_bundle
-from graphmill.errors import SpecError
+from graphmill.bundle import GraphBundle, load_bundle, seal_manifest
+from graphmill.errors import BundleIntegrityError, SpecError
 from graphmill.spec import RelationKey
 from graphmill.transform import build_bundle
 
@@ -291,3 +292,56 @@ def test_link_task_mistakes_name_the_key(
     with pytest.raises(SpecError) as caught:
         publish(undirected_document(tmp_path, timed=True, **task), undirected_tables(graph))
     assert caught.value.key_path == key_path and words in str(caught.value)
+
+
+def test_a_resealed_manifest_cannot_misstate_the_negatives(tmp_path: Path) -> None:
+    graph = nx.karate_club_graph()  # networkx
+    spec, snapshot = publish(undirected_document(tmp_path), undirected_tables(graph))
+    build_bundle(spec, snapshot)
+    path = spec.output.bundle / "manifest.json"
+    document = json.loads(path.read_text(encoding="utf-8"))
+    document["relations"]["person.knows.person"]["link_split"]["negatives"]["counts"]["test"] += 1
+    path.write_bytes(seal_manifest(document))
+    with pytest.raises(BundleIntegrityError) as refused:
+        load_bundle(spec.output.bundle)
+    assert "relation.person.knows.person.negatives.test" in str(refused.value)
+
+
+def test_vertex_timestamps_and_plain_numbers(tmp_path: Path) -> None:
+    graph = nx.les_miserables_graph()  # networkx
+    rnd = random.Random(5)
+    joined = {n: rnd.randrange(1800, 1900) for n in graph}  # a year, as a plain integer
+    tables = undirected_tables(graph)
+    names = tables["person"].column("vertex_id").to_pylist()
+    tables["person"] = tables["person"].append_column(
+        "joined", pa.array([joined[n] for n in names])
+    )
+    document = spec_document(
+        tmp_path,
+        {"person": {"properties": {"joined": {"kind": "integer"}}}},
+        [{"from": "person", "name": "knows", "to": "person", "undirected": True}],
+        task={
+            "kind": "links",
+            "relations": ["person.knows.person"],
+            "by_time": {
+                "property": "joined",
+                "of": "source",
+                "validation_from": 0.5,
+                "test_from": 0.75,
+            },
+        },
+    )
+    spec, snapshot = publish(document, tables)
+    build_bundle(spec, snapshot)
+    bundle = load_bundle(spec.output.bundle)
+    pairs = named_pairs(bundle, KNOWS)
+    # the pair's time: the earlier of its two directions' source years
+    pair_time = {frozenset(p): min(joined[p[0]], joined[p[1]]) for p in pairs}
+    years = pd.Series(list(pair_time.values()))
+    low = years.quantile(0.5, interpolation="lower")  # pandas' own quantile
+    high = years.quantile(0.75, interpolation="lower")
+    for pair, part in zip(pairs, part_of_edges(bundle, KNOWS), strict=True):
+        when = pair_time[frozenset(pair)]
+        assert part == ("train" if when < low else "validation" if when < high else "test")
+    cut = bundle.manifest["relations"]["person.knows.person"]["link_split"]["by_time"]
+    assert (cut["validation_from"], cut["test_from"]) == (low, high)
