@@ -65,8 +65,9 @@ class RunResult:
     @property
     def exit_code(self) -> ExitCode:
         """0 when the checks passed (and the bundle was built); 1 when they failed, whether
-        or not ``even_if_failing`` built a bundle anyway."""
-        return ExitCode.OK if self.report.passed else ExitCode.CHECKS_FAILED
+        or not ``even_if_failing`` built a bundle anyway (a failed leakage audit counts)."""
+        leak_free = self.build is None or self.build.leakage_passed
+        return ExitCode.OK if self.report.passed and leak_free else ExitCode.CHECKS_FAILED
 
     def to_dict(self) -> dict[str, Any]:
         return {

@@ -52,6 +52,11 @@ class BuildInfo:
     seconds: float = 0.0
     warnings: list[str] = field(default_factory=list)
     drift: dict[str, Any] | None = None  # the drift gate's verdict, when built after a version
+    leakage: dict[str, Any] | None = None  # the leakage audit of a links task
+
+    @property
+    def leakage_passed(self) -> bool:
+        return self.leakage is None or bool(self.leakage["passed"])
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -66,6 +71,7 @@ class BuildInfo:
             "seconds": round(self.seconds, 3),
             "warnings": self.warnings,
             "drift": self.drift,
+            "leakage": self.leakage,
         }
 
 
@@ -184,7 +190,7 @@ def _audit_leakage(
     """Run the leakage audit into the manifest; refuse on an error finding unless asked."""
     from graphmill.transform._leakage_audit import LeakageError, audit_links
 
-    audit = content.manifest["leakage"] = audit_links(content, spec)
+    audit = content.manifest["leakage"] = info.leakage = audit_links(content, spec)
     for finding in audit["findings"]:
         info.warnings.append(
             f"leakage {finding['rule']} ({finding['severity']}): " + finding["message"]

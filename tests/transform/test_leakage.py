@@ -13,7 +13,10 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pytest
+import yaml
 
+from graphmill.cli import main
+from graphmill.errors import ExitCode
 from graphmill.transform import build_bundle
 from graphmill.transform._leakage import after_cut, parallel_in_other, seen_in_training
 from graphmill.transform._leakage_audit import LeakageError
@@ -192,3 +195,46 @@ def test_a_later_copy_of_a_trained_pair_is_found(tmp_path: Path) -> None:
         f for f in manifest["leakage"]["findings"] if f["rule"] == "training-edge-after-cut"
     ]
     assert finding["count"] == 2 * len(late)  # each late copy, in both directions
+
+
+def _cli_project(root: Path, severity: str) -> Path:
+    """Table files with two relations over the same pairs; links on one of them."""
+    root.mkdir(parents=True)
+    people = [f"p{i:02d}" for i in range(12)]
+    pairs = [(a, b) for i, a in enumerate(people) for b in people[i + 1 : i + 4]]
+    (root / "people.csv").write_text("ref\n" + "\n".join(people) + "\n")
+    (root / "knows.csv").write_text("a,b\n" + "\n".join(f"{a},{b}" for a, b in pairs) + "\n")
+    document = {
+        "spec_version": 1,
+        "source": {
+            "kind": "table-files",
+            "vertex_files": [{"path": "people.csv", "id_column": "ref", "type": "person"}],
+            "edge_files": [
+                {"path": "knows.csv", "source_column": "a", "target_column": "b", "relation": name}
+                for name in ("knows", "likes")
+            ],
+        },
+        "vertex_types": {"person": {}},
+        "relations": [
+            {"from": "person", "name": name, "to": "person"} for name in ("knows", "likes")
+        ],
+        "task": {"kind": "links", "relations": ["person.knows.person"]},
+        "checks": {"severity": {"evaluation-pair-in-other-relation": severity}},
+        "output": {"bundle": "out/bundle"},
+    }
+    (root / "spec.yaml").write_text(yaml.safe_dump(document, sort_keys=False))
+    return root / "spec.yaml"
+
+
+def test_cli_gate_and_even_if_failing(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    spec = _cli_project(tmp_path / "a", "error")
+    assert main(["pull", str(spec), "--no-progress"]) == 0
+    code = main(["build", str(spec), "--no-progress"])
+    err = capsys.readouterr().err
+    assert code == ExitCode.CHECKS_FAILED and "leakage audit failed" in err
+    assert "Traceback" not in err and not (tmp_path / "a/out/bundle").exists()
+    assert main(["build", str(spec), "--even-if-failing", "--no-progress"]) == 1
+    manifest = json.loads((tmp_path / "a/out/bundle/manifest.json").read_text())
+    assert manifest["leakage"]["passed"] is False
+    relaxed = _cli_project(tmp_path / "b", "warning")
+    assert main(["run", str(relaxed), "--no-progress"]) == 0
