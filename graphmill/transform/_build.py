@@ -18,6 +18,7 @@ import pyarrow as pa
 
 from graphmill._atomic import atomic_directory
 from graphmill._progress import Progress, SilentProgress
+from graphmill._text import plural
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
@@ -198,8 +199,8 @@ def _audit_leakage(
     if not audit["passed"] and not even_if_leaking:
         first = next(f for f in audit["findings"] if f["severity"] == "error")
         raise LeakageError(
-            f"leakage audit failed with {audit['counts']['error']} error finding(s), the first "
-            f"{first['rule']}: {first['message']}; no bundle built",
+            f"leakage audit failed with {plural(audit['counts']['error'], 'error finding')}, "
+            f"the first {first['rule']}: {first['message']}; no bundle built",
             hint="change the task's split, set checks.severity for that rule, or build with "
             "--even-if-failing",
         )
