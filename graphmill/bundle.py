@@ -336,6 +336,7 @@ def inspect_bundle(path: str | Path) -> dict[str, Any]:
         "classes": (manifest.get("label") or {}).get("classes", []),
         "parts": (manifest.get("split") or {}).get("sizes", {}),
         "task": manifest.get("task"),
+        "leakage": manifest.get("leakage"),
         "counts": manifest["counts"],
         "validation": manifest.get("validation"),
         "warnings": manifest.get("warnings", []),

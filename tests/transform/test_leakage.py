@@ -238,3 +238,14 @@ def test_cli_gate_and_even_if_failing(tmp_path: Path, capsys: pytest.CaptureFixt
     assert manifest["leakage"]["passed"] is False
     relaxed = _cli_project(tmp_path / "b", "warning")
     assert main(["run", str(relaxed), "--no-progress"]) == 0
+
+
+def test_inspect_names_the_task_and_the_audit(tmp_path: Path) -> None:
+    from graphmill._inspect_text import summary_lines
+    from graphmill.bundle import inspect_bundle
+
+    spec, snapshot = publish(shop_document(tmp_path), shop_tables())
+    build_bundle(spec, snapshot)
+    lines = summary_lines(inspect_bundle(spec.output.bundle))
+    assert "task: links on shop.stocks.item" in lines
+    assert any(line.startswith("leakage audit: passed (0 errors, 1 warning)") for line in lines)
