@@ -345,3 +345,65 @@ def test_vertex_timestamps_and_plain_numbers(tmp_path: Path) -> None:
         assert part == ("train" if when < low else "validation" if when < high else "test")
     cut = bundle.manifest["relations"]["person.knows.person"]["link_split"]["by_time"]
     assert (cut["validation_from"], cut["test_from"]) == (low, high)
+
+
+@pytest.mark.parametrize(
+    ("extra", "key_path", "words"),
+    [
+        (
+            {
+                "task": {
+                    "kind": "edge-values",
+                    "relation": "person.knows.person",
+                    "property": "since",
+                    "supervision_share": 0.2,
+                }
+            },
+            "task.supervision_share",
+            "is for links tasks",
+        ),
+        (
+            {"label": {"vertex_type": "person", "property": "since"}},
+            "label",
+            "takes its target from edges",
+        ),
+        (
+            {
+                "task": {
+                    "kind": "links",
+                    "relations": ["person.knows.person"],
+                    "unseen_vertices": True,
+                    "by_time": {"property": "since", "validation_from": 0.5, "test_from": 0.6},
+                }
+            },
+            "task.unseen_vertices",
+            "do not combine",
+        ),
+        (
+            {"task": {"kind": "links", "relations": ["person.knows.person"], "negative": {}}},
+            "task.negative",
+            "did you mean 'negatives'",
+        ),
+        (
+            {
+                "task": {
+                    "kind": "links",
+                    "relations": ["person.knows.person"],
+                    "relation": "person.knows.person",
+                }
+            },
+            "task.relation",
+            "lists relations",
+        ),
+    ],
+)
+def test_more_link_task_mistakes(
+    tmp_path: Path, extra: dict[str, Any], key_path: str, words: str
+) -> None:
+    document = undirected_document(tmp_path, timed=True)
+    if "label" in extra:
+        document["vertex_types"]["person"] = {"properties": {"since": {"kind": "string"}}}
+    document.update(extra)
+    with pytest.raises(SpecError) as caught:
+        publish(document, undirected_tables(nx.karate_club_graph()))
+    assert caught.value.key_path == key_path and words in str(caught.value)
