@@ -248,6 +248,12 @@ def check_manifest_counts(manifest: dict[str, Any], file: Path) -> None:
         (f"vertex_types.{n}.parts.table", (e["parts"] or {}).get("table")) for n, e in types.items()
     ]
     tables += [(f"relations.{n}.table", e["table"]) for n, e in manifest["relations"].items()]
+    tables += [
+        (f"relations.{n}.{k}.table", e[k]["table"])
+        for n, e in manifest["relations"].items()
+        for k in ("parts", "link_split")
+        if e.get(k)
+    ]
     for key, table in tables:
         if table is not None and table not in listed_files:
             raise refuse(
