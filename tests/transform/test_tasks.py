@@ -257,3 +257,24 @@ def test_task_mistakes_name_the_key(
     with pytest.raises(SpecError) as caught:
         publish(les_miserables_document(tmp_path, **task), tables)
     assert caught.value.key_path == key_path and words in str(caught.value)
+
+
+def test_check_sees_a_number_not_classes(tmp_path: Path) -> None:
+    from graphmill.validate import run_checks
+
+    _, tables = karate_tables()
+    rules = {}
+    for kind in ("vertex-classes", "vertex-values"):
+        document = spec_document(
+            tmp_path / kind,
+            {"person": {"properties": {"strength": None}}},
+            [{"from": "person", "name": "knows", "to": "person", "undirected": True}],
+            label={"vertex_type": "person", "property": "strength"},
+            task={"kind": kind},
+        )
+        spec, snapshot = publish(document, tables)
+        report = run_checks(spec, snapshot)
+        rules[kind] = {e.rule for e in report.evaluated}
+    assert "thin-class" in rules["vertex-classes"]  # each distinct number a class
+    assert "thin-class" not in rules["vertex-values"]
+    assert "unlabeled-vertices" in rules["vertex-values"]  # a missing number is still counted
