@@ -33,11 +33,9 @@ def refuse_float_classes(column: pa.Array | pa.ChunkedArray, *, where: str, side
 
 
 def target_numbers(column: pa.Array | pa.ChunkedArray, *, where: str, side: str) -> np.ndarray:
-    """The values as float64 [N], NaN where missing; numbers and booleans only."""
+    """The values as float64 [N], NaN where missing; integers and floats only."""
     kind = column.type
-    if is_multi(kind) or not (
-        pa.types.is_integer(kind) or pa.types.is_floating(kind) or pa.types.is_boolean(kind)
-    ):
+    if is_multi(kind) or not (pa.types.is_integer(kind) or pa.types.is_floating(kind)):
         raise InputError(
             f"{where} holds {kind} values, but a {side}-values task needs numbers",
             key_path=where,
