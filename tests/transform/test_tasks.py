@@ -278,3 +278,21 @@ def test_check_sees_a_number_not_classes(tmp_path: Path) -> None:
     assert "thin-class" in rules["vertex-classes"]  # each distinct number a class
     assert "thin-class" not in rules["vertex-values"]
     assert "unlabeled-vertices" in rules["vertex-values"]  # a missing number is still counted
+
+
+def test_values_task_refuses_text_found_at_build(tmp_path: Path) -> None:
+    graph, tables = karate_tables()
+    tables["person"] = tables["person"].append_column(
+        "club", pa.array([graph.nodes[n]["club"] for n in graph])
+    )
+    document = spec_document(
+        tmp_path,
+        {"person": {"properties": {"club": None}}},
+        label={"vertex_type": "person", "property": "club"},
+        task={"kind": "vertex-values"},
+    )
+    spec, snapshot = publish(document, tables)
+    with pytest.raises(InputError) as refused:
+        build_bundle(spec, snapshot)
+    assert refused.value.key_path == "label.property" and "vertex-classes" in str(refused.value)
+    assert not spec.output.bundle.exists()
