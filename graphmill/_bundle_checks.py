@@ -149,7 +149,23 @@ def implied_shapes(manifest: dict[str, Any]) -> dict[str, list[int]]:
         shapes[entry["tensor"]] = [2, entry["count"]]
         if entry["merged"]:
             shapes[f"relation.{dotted}.multiplicity"] = [entry["count"]]
+        for part, size in _edge_part_sizes(entry).items():
+            shapes[f"relation.{dotted}.part.{part}.positions"] = [size]
+        negatives = (entry.get("link_split") or {}).get("negatives") or {}
+        for part, size in negatives.get("counts", {}).items():
+            shapes[f"relation.{dotted}.negatives.{part}"] = [2, size]
+    task = manifest.get("task") or {}
+    if task.get("kind", "").startswith("edge-"):
+        shapes[task["tensor"]] = [manifest["relations"][task["relation"]]["count"]]
+    if task.get("kind", "").startswith("vertex-"):
+        shapes[task["tensor"]] = [manifest["vertex_types"][task["vertex_type"]]["count"]]
     return shapes
+
+
+def _edge_part_sizes(entry: dict[str, Any]) -> dict[str, int]:
+    """Edge parts of an edge task (``parts``) or a links task (``link_split``)."""
+    split = entry.get("link_split") or entry.get("parts") or {}
+    return dict(split.get("sizes", {}))
 
 
 def check_tensor_file(root: Path, manifest: dict[str, Any], tensor_file: str) -> None:
@@ -192,9 +208,14 @@ def check_tensor_values(manifest: dict[str, Any], tensors: dict[str, Any], file:
             ranges.append((code["tensor"], None, 0, code["unknown_code"]))
         for part in (entry["parts"] or {}).get("sizes", {}):
             ranges.append((f"vertex.{name}.part.{part}.positions", None, 0, counts[name] - 1))
-    for entry in manifest["relations"].values():
-        ranges.append((entry["tensor"], 0, 0, counts.get(entry["source_type"], 0) - 1))
-        ranges.append((entry["tensor"], 1, 0, counts.get(entry["target_type"], 0) - 1))
+    for dotted, entry in manifest["relations"].items():
+        for tensor in [entry["tensor"]] + [
+            key for key in tensors if key.startswith(f"relation.{dotted}.negatives.")
+        ]:
+            ranges.append((tensor, 0, 0, counts.get(entry["source_type"], 0) - 1))
+            ranges.append((tensor, 1, 0, counts.get(entry["target_type"], 0) - 1))
+        for part in _edge_part_sizes(entry):
+            ranges.append((f"relation.{dotted}.part.{part}.positions", None, 0, entry["count"] - 1))
     for key, row, low, high in ranges:
         values = tensors[key] if row is None else tensors[key][row]
         if values.numel() and (int(values.min()) < low or int(values.max()) > high):
@@ -227,6 +248,12 @@ def check_manifest_counts(manifest: dict[str, Any], file: Path) -> None:
         (f"vertex_types.{n}.parts.table", (e["parts"] or {}).get("table")) for n, e in types.items()
     ]
     tables += [(f"relations.{n}.table", e["table"]) for n, e in manifest["relations"].items()]
+    tables += [
+        (f"relations.{n}.{k}.table", e[k]["table"])
+        for n, e in manifest["relations"].items()
+        for k in ("parts", "link_split")
+        if e.get(k)
+    ]
     for key, table in tables:
         if table is not None and table not in listed_files:
             raise refuse(

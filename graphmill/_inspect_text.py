@@ -39,6 +39,10 @@ def summary_lines(summary: dict[str, Any]) -> list[str]:
     if summary.get("parts"):
         parts = ", ".join(f"{k} {n:,}" for k, n in summary["parts"].items())
         lines.append(f"parts: {parts}")
+    if summary.get("task"):
+        lines.append(_task_line(summary["task"]))
+    if summary.get("leakage") is not None:
+        lines.append(_leakage_line(summary["leakage"]))
     lines.append(_checks_line(summary.get("validation")))
     lines.append(f"ids: {'pseudonymized' if summary['ids'].get('pseudonymized') else 'original'}")
     lines.append(f"source: {_provenance_line(summary.get('source') or {})}")
@@ -66,3 +70,18 @@ def _provenance_line(source: dict[str, Any]) -> str:
     queries = len(source.get("queries") or [])
     asked = f" ({plural(queries, 'query')})" if queries else ""
     return f"{kind} {where}{asked}".strip()
+
+
+def _task_line(task: dict[str, Any]) -> str:
+    """``task: links on a.r.b`` / ``task: vertex-values (person.score)``."""
+    if task.get("relations"):
+        return f"task: {task['kind']} on {', '.join(task['relations'])}"
+    owner = task.get("vertex_type") or task.get("relation")
+    return f"task: {task['kind']} ({owner}.{task.get('property')})"
+
+
+def _leakage_line(leakage: dict[str, Any]) -> str:
+    counts = leakage.get("counts") or {}
+    found = ", ".join(plural(int(counts.get(k, 0)), k) for k in ("error", "warning"))
+    verdict = "passed" if leakage.get("passed") else "FAILED; built anyway with --even-if-failing"
+    return f"leakage audit: {verdict} ({found})"

@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING, Any
 
 from graphmill._spec_explain import did_you_mean, key_path, listed
 from graphmill._spec_targets import check_contract, check_features, check_label
+from graphmill._spec_tasks import check_task
 from graphmill.errors import SpecError, quote_value
 
 if TYPE_CHECKING:
@@ -186,17 +187,19 @@ def check_split(spec: PipelineSpec) -> None:
 
 def check_severities(spec: PipelineSpec) -> None:
     """Every rule id under ``checks.severity`` is a rule of the catalogue."""
-    from graphmill.validate._findings import RULES
+    from graphmill.transform._leakage import LEAKAGE_RULES
+    from graphmill.validate._findings import RULES as CHECK_RULES
 
+    rules = {**CHECK_RULES, **LEAKAGE_RULES}  # the build's leakage audit obeys them too
     for rule_id in spec.checks.severity:
-        if rule_id not in RULES:
-            guess = did_you_mean(rule_id, RULES)
+        if rule_id not in rules:
+            guess = did_you_mean(rule_id, rules)
             raise SpecError(
                 f"unknown rule id {quote_value(rule_id)}{guess}",
                 key_path=f"checks.severity.{rule_id}",
                 hint=None
                 if guess
-                else f"rule ids (all in the README's Checks table): {listed(RULES, limit=200)}",
+                else f"rule ids (all in the README's Checks table): {listed(rules, limit=200)}",
             )
 
 
@@ -256,6 +259,7 @@ CHECKS: tuple[Callable[[PipelineSpec], None], ...] = (
     check_property_ranges,
     check_features,
     check_label,
+    check_task,
     check_split,
     check_severities,
     check_contract,

@@ -8,15 +8,20 @@ A bundle is a folder, written in one piece by :func:`graphmill.transform.build_b
       tensors.safetensors            every tensor, keyed
                                        vertex.<type>.features                float32 [N, F]
                                        vertex.<type>.labels                  int64 [N], -1 unlabeled
+                                       vertex.<type>.targets                 float32 [N], NaN none
                                        vertex.<type>.codes.<property>        int64 [N] (categories)
                                        vertex.<type>.part.<part>.positions   int64 [n], sorted
                                        vertex.<type>.part.<part>.flags       bool [N]
                                        relation.<src>.<rel>.<dst>.endpoints  int64 [2, E]
                                        relation.<src>.<rel>.<dst>.multiplicity  float32 [E]
+                                       relation.<src>.<rel>.<dst>.targets   [E] (edge tasks)
+                                       relation.<src>.<rel>.<dst>.part.<part>.positions  int64
+                                       relation.<src>.<rel>.<dst>.negatives.<part>  int64 [2, n]
       tables/vertices/<type>.parquet   index, vertex_id (or pseudonym), declared properties
       tables/edges/<src>.<rel>.<dst>.parquet  source_index, target_index, [multiplicity], properties
       tables/features/<type>.parquet   index, encoded columns, <property>__code columns
       tables/parts/<type>.parquet      index, part ("train" | "validation" | "test")
+      tables/edge_parts/<src>.<rel>.<dst>.parquet  edge (position), part (edge tasks)
 
 ``<part>`` is ``train``, ``validation`` or ``test``. Row 0 of ``endpoints`` holds source
 indices, row 1 target indices, sorted by (source, target). The manifest is canonical JSON
@@ -57,6 +62,7 @@ MANIFEST_FILE = "manifest.json"
 TENSOR_FILE = "tensors.safetensors"
 SELF_HASH_KEY = "manifest_sha256"
 PARTS = ("train", "validation", "test")
+EDGE_ROLES = ("message", "supervision")  # disjoint subsets of a links task's train edges
 
 
 def vertex_key(vertex_type: str, what: str) -> str:
@@ -171,6 +177,7 @@ class VertexTypeTensors:
     vocabularies: dict[str, tuple[str, ...]] = field(default_factory=dict)
     parts: dict[str, Any] = field(default_factory=dict)  # part -> torch.int64 positions
     part_flags: dict[str, Any] = field(default_factory=dict)  # part -> torch.bool [N]
+    targets: Any = None  # torch.float32 [N], standardized, NaN without (vertex-values task)
 
 
 @dataclass(frozen=True)
@@ -178,6 +185,9 @@ class RelationTensors:
     key: RelationKey
     endpoints: Any  # torch.int64 [2, E]: row 0 source index, row 1 target index
     multiplicity: Any = None  # torch.float32 [E] when repeated edges were merged
+    targets: Any = None  # edge tasks: int64 class codes (-1 missing) or float32 standardized
+    parts: dict[str, Any] = field(default_factory=dict)  # part or role -> int64 edge positions
+    negatives: dict[str, Any] = field(default_factory=dict)  # part -> int64 [2, n]: non-edges
 
     @property
     def count(self) -> int:
@@ -258,7 +268,20 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
     for dotted, entry in manifest["relations"].items():
         key = RelationKey.parse(dotted)
         relations[key] = RelationTensors(
-            key, tensors[entry["tensor"]], tensors.get(relation_key(key, "multiplicity"))
+            key,
+            tensors[entry["tensor"]],
+            tensors.get(relation_key(key, "multiplicity")),
+            tensors.get(relation_key(key, "targets")),
+            {
+                p: tensors[relation_key(key, f"part.{p}.positions")]
+                for p in (*PARTS, *EDGE_ROLES)
+                if relation_key(key, f"part.{p}.positions") in tensors
+            },
+            {
+                p: tensors[relation_key(key, f"negatives.{p}")]
+                for p in PARTS
+                if relation_key(key, f"negatives.{p}") in tensors
+            },
         )
     return GraphBundle(root, manifest, vertex_types, relations)
 
@@ -278,6 +301,7 @@ def _vertex_tensors(name: str, entry: dict[str, Any], tensors: dict[str, Any]) -
         vocabularies={p: tuple(c["vocabulary"]) for p, c in codes.items()},
         parts={p: tensors[vertex_key(name, f"part.{p}.positions")] for p in PARTS if parts},
         part_flags={p: tensors[vertex_key(name, f"part.{p}.flags")] for p in PARTS if parts},
+        targets=tensors.get(vertex_key(name, "targets")),
     )
 
 
@@ -311,6 +335,8 @@ def inspect_bundle(path: str | Path) -> dict[str, Any]:
         },
         "classes": (manifest.get("label") or {}).get("classes", []),
         "parts": (manifest.get("split") or {}).get("sizes", {}),
+        "task": manifest.get("task"),
+        "leakage": manifest.get("leakage"),
         "counts": manifest["counts"],
         "validation": manifest.get("validation"),
         "warnings": manifest.get("warnings", []),

@@ -203,6 +203,7 @@ def _dispatch(args: argparse.Namespace) -> int:
         if args.command == "build":
             built = pipeline.build(even_if_failing=args.even_if_failing, previous=args.previous)
             passed = pipeline.last_report is None or pipeline.last_report.passed
+            passed = passed and built.leakage_passed
             document = {**built.to_dict(), "checks_passed": passed}
             _emit(args, console, document, _render_build)
             return ExitCode.OK if passed else ExitCode.CHECKS_FAILED

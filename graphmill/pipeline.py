@@ -65,8 +65,9 @@ class RunResult:
     @property
     def exit_code(self) -> ExitCode:
         """0 when the checks passed (and the bundle was built); 1 when they failed, whether
-        or not ``even_if_failing`` built a bundle anyway."""
-        return ExitCode.OK if self.report.passed else ExitCode.CHECKS_FAILED
+        or not ``even_if_failing`` built a bundle anyway (a failed leakage audit counts)."""
+        leak_free = self.build is None or self.build.leakage_passed
+        return ExitCode.OK if self.report.passed and leak_free else ExitCode.CHECKS_FAILED
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -208,6 +209,7 @@ class Pipeline:
             progress=self.progress,
             previous=Path(previous) if previous is not None else None,
             even_if_drifting=even_if_failing,
+            even_if_leaking=even_if_failing,
         )
         log.info("build: wrote %s", info.bundle)
         for path in sorted(Path(info.bundle).rglob("*")):

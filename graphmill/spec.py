@@ -6,6 +6,7 @@
 
 from __future__ import annotations
 
+import builtins
 import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -81,6 +82,48 @@ class FeatureSpec:
 class LabelSpec:
     vertex_type: str
     property: str
+
+
+@dataclass(frozen=True)
+class TimeCut:
+    """``task.by_time``: the timestamp property and where validation and test begin."""
+
+    property: str
+    of: str = "edge"
+    validation_from: float | str = 0.8
+    test_from: float | str = 0.9
+
+
+@dataclass(frozen=True)
+class LinkOptions:
+    """The options of a ``links`` task."""
+
+    relations: tuple[str, ...] = ()
+    supervision_share: float | None = None
+    per_positive: int = 1
+    sampling: str = "uniform"
+    negative_parts: tuple[str, ...] = ("validation", "test")
+    by_time: TimeCut | None = None
+    unseen_vertices: bool = False
+
+
+@dataclass(frozen=True)
+class TaskSpec:
+    """``task``: what the dataset is for. Vertex kinds take their target from ``label``;
+    edge kinds name a relation (dotted) and one of its properties."""
+
+    kind: str = "vertex-classes"
+    relation: str | None = None
+    property: str | None = None
+    links: LinkOptions | None = None
+
+    @builtins.property
+    def on_edges(self) -> bool:
+        return self.kind.startswith("edge-")
+
+    @builtins.property
+    def numeric(self) -> bool:
+        return self.kind.endswith("-values")
 
 
 @dataclass(frozen=True)
@@ -193,6 +236,7 @@ class PipelineSpec:
     engine: EngineSpec = field(default_factory=EngineSpec)
     raw: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
     drift_gate: DriftGateSpec = field(default_factory=DriftGateSpec)
+    task: TaskSpec | None = None
 
     def relation(self, key: RelationKey) -> RelationSpec:
         return next(r for r in self.relations if r.key == key)
@@ -264,8 +308,11 @@ def spec_from_dict(
     label = LabelSpec(**doc["label"]) if "label" in doc else None
     split_doc = doc.get("split", {})
     fractions = split_doc.get("fractions", {"train": 0.7, "validation": 0.15, "test": 0.15})
+    task = _task(doc)
+    # Strata are classes: a numeric target or an edge task splits at random by default.
+    classes = task is None or task.kind == "vertex-classes"
     split = SplitSpec(
-        method=split_doc.get("method", "stratified"),
+        method=split_doc.get("method", "stratified" if classes else "random"),
         train=fractions["train"],
         validation=fractions.get("validation", 0.0),
         test=fractions.get("test", 0.0),
@@ -324,6 +371,7 @@ def spec_from_dict(
         engine=engine,
         raw=doc,
         drift_gate=parse_drift_gate(doc.get("drift_gate"), base, where),
+        task=task,
     )
     cross_check(spec, where)
     check_output_paths(spec, where)
@@ -355,6 +403,34 @@ def parse_drift_gate(
     previous = doc.get("previous")
     absolute = _absolute(previous, base, "drift_gate.previous", where) if previous else None
     return DriftGateSpec(absolute, rules)
+
+
+def _task(doc: dict[str, Any]) -> TaskSpec | None:
+    """The ``task`` section; without one, a label means vertex classes and no label no task."""
+    body = doc.get("task")
+    if body is None:
+        return TaskSpec() if "label" in doc else None
+    links = None
+    if body["kind"] == "links":
+        negatives = body.get("negatives", {})
+        timing = body.get("by_time")
+        links = LinkOptions(
+            relations=tuple(body.get("relations", ())),
+            supervision_share=body.get("supervision_share"),
+            per_positive=negatives.get("per_positive", 1),
+            sampling=negatives.get("sampling", "uniform"),
+            negative_parts=tuple(negatives.get("parts", ("validation", "test"))),
+            by_time=TimeCut(
+                timing["property"],
+                timing.get("of", "edge"),
+                timing["validation_from"],
+                timing["test_from"],
+            )
+            if timing
+            else None,
+            unseen_vertices=body.get("unseen_vertices", False),
+        )
+    return TaskSpec(body["kind"], body.get("relation"), body.get("property"), links)
 
 
 def _absolute(path: str, base: Path, key: str, where: str | None) -> Path:

@@ -19,6 +19,7 @@ import pyarrow.parquet as pq
 
 from graphmill._atomic import atomic_directory
 from graphmill._progress import Progress, SilentProgress
+from graphmill._text import plural
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
 from graphmill.connectors.base import VERTEX_ID
@@ -54,6 +55,11 @@ class BuildInfo:
     seconds: float = 0.0
     warnings: list[str] = field(default_factory=list)
     drift: dict[str, Any] | None = None  # the drift gate's verdict, when built after a version
+    leakage: dict[str, Any] | None = None  # the leakage audit of a links task
+
+    @property
+    def leakage_passed(self) -> bool:
+        return self.leakage is None or bool(self.leakage["passed"])
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -68,6 +74,7 @@ class BuildInfo:
             "seconds": round(self.seconds, 3),
             "warnings": self.warnings,
             "drift": self.drift,
+            "leakage": self.leakage,
         }
 
 
@@ -79,6 +86,7 @@ def build_bundle(
     progress: Progress | None = None,
     previous: Path | None = None,
     even_if_drifting: bool = False,
+    even_if_leaking: bool = False,
     engine: Engine | None = None,
 ) -> BuildInfo:
     """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
@@ -100,6 +108,7 @@ def build_bundle(
                 progress=progress,
                 previous=previous,
                 even_if_drifting=even_if_drifting,
+                even_if_leaking=even_if_leaking,
                 engine=opened,
             )
     started = time.perf_counter()
@@ -111,7 +120,9 @@ def build_bundle(
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
     content = BundleContent()
-    content.manifest.update({"vertex_types": {}, "relations": {}, "label": None, "split": None})
+    content.manifest.update(
+        {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
+    )
     indices: dict[str, VertexIndex] = {}
     task = progress.task("build vertices", total=len(spec.vertex_types))
     for name, vt in spec.vertex_types.items():
@@ -130,6 +141,9 @@ def build_bundle(
     for rel in spec.relations:
         _add_relation(content, info, spec, snapshot, rel, indices, engine)
         task.advance()
+    if links_task := (spec.task.links if spec.task is not None else None):
+        content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
+        _audit_leakage(content, info, spec, even_if_leaking)
     if spec.label is not None:
         split = content.manifest["split"]
         info.part_sizes = dict(split["sizes"]) if split else {}
@@ -189,6 +203,27 @@ def build_bundle(
     return info
 
 
+def _audit_leakage(
+    content: BundleContent, info: BuildInfo, spec: PipelineSpec, even_if_leaking: bool
+) -> None:
+    """Run the leakage audit into the manifest; refuse on an error finding unless asked."""
+    from graphmill.transform._leakage_audit import LeakageError, audit_links
+
+    audit = content.manifest["leakage"] = info.leakage = audit_links(content, spec)
+    for finding in audit["findings"]:
+        info.warnings.append(
+            f"leakage {finding['rule']} ({finding['severity']}): " + finding["message"]
+        )
+    if not audit["passed"] and not even_if_leaking:
+        first = next(f for f in audit["findings"] if f["severity"] == "error")
+        raise LeakageError(
+            f"leakage audit failed with {plural(audit['counts']['error'], 'error finding')}, "
+            f"the first {first['rule']}: {first['message']}; no bundle built",
+            hint="change the task's split, set checks.severity for that rule, or build with "
+            "--even-if-failing",
+        )
+
+
 def _add_relation(
     content: BundleContent,
     info: BuildInfo,
@@ -224,6 +259,20 @@ def _add_relation(
         "reverse_of": None,
     }
     _emit_relation(content, info, key, outcome.edges, properties, entry)
+    if spec.task is not None and spec.task.relation == key.dotted:
+        from graphmill.transform._edge_targets import add_edge_task
+
+        info.part_sizes = add_edge_task(content, spec, key, outcome.edges, properties, (src, dst))
+    links = spec.task.links if spec.task is not None else None
+    linked = links is not None and key.dotted in links.relations
+    if linked:
+        from graphmill.transform._link_task import add_link_split
+
+        sizes = add_link_split(
+            content, spec, key, outcome.edges, properties, (src, dst), forward=key
+        )
+        for part, n in sizes.items():
+            info.part_sizes[part] = info.part_sizes.get(part, 0) + n
     info.dropped_edges[key.dotted] = outcome.dropped
     info.merged_edges[key.dotted] = outcome.merged
     info.added_edges[key.dotted] = outcome.added_reverses
@@ -236,7 +285,12 @@ def _add_relation(
                 hint="rename that relation or set add_reverse: false",
             )
         entry = {"undirected": False, "symmetrized": False, "reverse_of": key.dotted}
-        _emit_relation(content, info, reverse, outcome.edges.reversed(), properties, entry)
+        reversed_edges = outcome.edges.reversed()
+        _emit_relation(content, info, reverse, reversed_edges, properties, entry)
+        if linked:
+            add_link_split(
+                content, spec, reverse, reversed_edges, properties, (dst, src), forward=key
+            )
 
 
 def _emit_relation(

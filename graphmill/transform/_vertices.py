@@ -20,6 +20,7 @@ from graphmill.transform._features import FeatureTable, encode_vertex_features
 from graphmill.transform._indexing import VertexIndex
 from graphmill.transform._labels import class_codes, label_strings
 from graphmill.transform._splits import PARTS, part_flags, part_positions, split_vertices
+from graphmill.transform._targets import refuse_float_classes
 from graphmill.transform._writer import BundleContent
 
 INDEX = "index"
@@ -46,6 +47,7 @@ def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex)
         "codes": {},
     }
     fit_rows = np.arange(n, dtype=np.int64)
+    content.manifest.setdefault("vertex_types", {})[name] = entry
     features = [f for f in spec.features if f.vertex_type == name]
     label = spec.label
     if label is not None and label.vertex_type == name:
@@ -70,7 +72,13 @@ def _add_label_and_parts(
 ) -> np.ndarray:
     assert spec.label is not None
     name, prop = vi.vertex_type, spec.label.property
-    strings = label_strings(vi.table.column(prop), where=f"label.property ({prop})")
+    if spec.task is not None and spec.task.kind == "vertex-values":
+        from graphmill.transform._vertex_values import add_vertex_values
+
+        return add_vertex_values(content, spec, vi, warnings)
+    column = vi.table.column(prop)
+    refuse_float_classes(column, where="label.property", side="vertex")
+    strings = label_strings(column, where=f"label.property ({prop})")
     codes, classes = class_codes(strings)
     content.add_tensor(
         vertex_key(name, "labels"), codes, f"{name}: class code per vertex, -1 unlabeled"
@@ -86,6 +94,28 @@ def _add_label_and_parts(
     }
     if labelled == 0:
         warnings.append(f"label.property: no {name!r} vertex has a value for {prop!r}")
+    content.manifest["task"] = {
+        "kind": "vertex-classes",
+        "vertex_type": name,
+        "property": prop,
+        "tensor": vertex_key(name, "labels"),
+        "classes": classes,
+    }
+    positions = add_vertex_parts(content, spec, name, codes, warnings)
+    content.manifest["label"] = {"vertex_type": name, "property": prop, "classes": classes}
+    return positions
+
+
+def add_vertex_parts(
+    content: BundleContent,
+    spec: PipelineSpec,
+    name: str,
+    codes: np.ndarray,
+    warnings: list[str],
+) -> np.ndarray:
+    """Draw the parts of the target type (strata: ``codes``, -1 without a target), add their
+    tensors, table and manifest entries; return the train positions."""
+    entry = content.manifest["vertex_types"][name]
     split = spec.split
     fractions = (split.train, split.validation, split.test)
     part_of = split_vertices(
@@ -116,7 +146,6 @@ def _add_label_and_parts(
     )
     sizes = {part: len(positions[part]) for part in PARTS}
     entry["parts"] = {"table": table_path("parts", name), "sizes": sizes}
-    content.manifest["label"] = {"vertex_type": name, "property": prop, "classes": classes}
     content.manifest["split"] = {
         "method": split.method,
         "seed": split.seed,

@@ -134,6 +134,12 @@ def _label(ctx: CheckContext) -> list[Subject]:
     return [{"vertex_type": label.vertex_type, "property": label.property}] if label else []
 
 
+def _class_label(ctx: CheckContext) -> list[Subject]:
+    """The label when its values are classes (not for a ``vertex-values`` task)."""
+    task = ctx.spec.task
+    return [] if task is not None and task.kind != "vertex-classes" else _label(ctx)
+
+
 def _expected_types(ctx: CheckContext) -> list[Subject]:
     return [{"vertex_type": t} for t in contract.contract_vertex_types(ctx)]
 
@@ -174,7 +180,7 @@ CHECKS: tuple[tuple[str, Subjects, Check], ...] = (
     ("non-finite-number", _float_columns, props.check_non_finite),
     ("value-out-of-range", _bounded, props.check_out_of_range),
     ("unlabeled-vertices", _label, props.check_unlabeled),
-    ("thin-class", _label, props.check_thin_class),
+    ("thin-class", _class_label, props.check_thin_class),
     ("expected-vertex-type", _expected_types, contract.check_expected_vertex_type),
     ("expected-relation", _expected_relations, contract.check_expected_relation),
     ("expected-property", _expected_properties, contract.check_expected_property),
