@@ -19,7 +19,15 @@ from graphmill.spec import PipelineSpec
 from graphmill.transform._features import FeatureTable, encode_vertex_features
 from graphmill.transform._indexing import VertexIndex
 from graphmill.transform._labels import class_codes, label_strings
-from graphmill.transform._splits import PARTS, part_flags, part_positions, split_vertices
+from graphmill.transform._splits import (
+    HASH,
+    PARTS,
+    achieved_shares,
+    part_flags,
+    part_positions,
+    split_vertices,
+    stable_unit_interval,
+)
 from graphmill.transform._writer import BundleContent
 
 INDEX = "index"
@@ -90,9 +98,10 @@ def _add_label_and_parts(
     fractions = (split.train, split.validation, split.test)
     part_of = split_vertices(
         codes,
+        stable_unit_interval(vi.ids, split.seed),  # original IDs, even when pseudonymized
         method=split.method,
         fractions=fractions,
-        seed=split.seed,
+        tolerance=split.tolerance,
         only_labeled=split.only_labeled,
     )
     positions, flags = part_positions(part_of), part_flags(part_of)
@@ -122,9 +131,12 @@ def _add_label_and_parts(
         "seed": split.seed,
         "fractions": dict(zip(PARTS, fractions, strict=True)),
         "only_labeled": split.only_labeled,
-        "rounding": "largest remainder per stratum; one train vertex per non-empty stratum",
-        "generator": "numpy.random.Generator(PCG64(seed)).permutation",
+        "tolerance": split.tolerance,
+        "rounding": "hash threshold per vertex; boundary within ceil(tolerance * n) of "
+        "the largest-remainder size per stratum; one train vertex per non-empty stratum",
+        "generator": HASH,
         "sizes": sizes,
+        "achieved_shares": achieved_shares(part_of, codes, classes),
     }
     if sizes["train"] == 0 and spec.features:
         warnings.append(f"split: the train part of {name!r} is empty; encoders use defaults")

@@ -257,12 +257,13 @@ def test_bundle_fits_encoders_on_the_train_part_only(tmp_path: Path) -> None:
     held_out = np.concatenate(
         [vertices.parts["validation"].numpy(), vertices.parts["test"].numpy()]
     )
-    assert len(train) == 20 and len(held_out) == 20
+    # 40 hashed vertices: train within ceil(0.05 * 40) = 2 of 20 (split.tolerance).
+    assert abs(len(train) - 20) <= 2 and len(train) + len(held_out) == n
     mean, std = ages[train].mean(), ages[train].std()
     assert not np.isclose(mean, ages.mean())  # the draw makes the leak observable
     np.testing.assert_allclose(vertices.features[:, 0].numpy(), (ages - mean) / std, rtol=1e-5)
     stats = bundle.manifest["vertex_types"]["p"]["features"]["encoders"][0]["statistics"]
-    assert stats["mean"] == pytest.approx(mean) and stats["fitted_values"] == 20
+    assert stats["mean"] == pytest.approx(mean) and stats["fitted_values"] == len(train)
 
 
 def test_an_outlier_beyond_float32_is_refused_not_turned_into_inf() -> None:
