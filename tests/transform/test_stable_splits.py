@@ -6,7 +6,8 @@ characters; the label is invented here: "many" for a degree above networkx's med
 else "few"). The second version removes 5% of the vertices (with their edges), adds as many
 new vertices (each tied to two kept ones), and removes 5% of the remaining edges. Both
 versions are built through a real snapshot, and the parts of the kept vertices are compared
-by original ID: only a moved class boundary (beyond ``split.tolerance``) may move any. Every count is computed from networkx.
+by original ID: only a moved class boundary (beyond ``split.tolerance``) may move any.
+Every count is computed from networkx.
 """
 
 from __future__ import annotations
@@ -20,12 +21,12 @@ import numpy as np
 import pyarrow as pa
 import pytest
 
+from graphmill.bundle import load_bundle
 from graphmill.transform import build_bundle
 
 from ._snapshots import publish, spec_document
 
 pytest.importorskip("torch")
-from graphmill.bundle import load_bundle  # noqa: E402
 
 
 def karate() -> tuple[nx.Graph, dict[Any, str]]:
@@ -66,7 +67,10 @@ def build(
     """Build ``graph`` and return each vertex's part by its ID."""
     people = pa.table({"vertex_id": [str(v) for v in graph], "group": [labels[v] for v in graph]})
     knows = pa.table(
-        {"source_id": [str(u) for u, _ in graph.edges], "target_id": [str(v) for _, v in graph.edges]}
+        {
+            "source_id": [str(u) for u, _ in graph.edges],
+            "target_id": [str(v) for _, v in graph.edges],
+        }
     )
     document = spec_document(
         out,
