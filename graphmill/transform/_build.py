@@ -27,6 +27,7 @@ from graphmill.spec import PipelineSpec, RelationKey
 from graphmill.transform._edges import EdgeArrays, apply_edge_policy
 from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
+from graphmill.transform._pinned import read_pinned
 from graphmill.transform._pseudonyms import (
     SCHEME,
     key_fingerprint,
@@ -92,6 +93,7 @@ def build_bundle(
     before = open_side(previous) if previous is not None else None
     progress = progress or SilentProgress()
     key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
+    pinned = read_pinned(spec, previous)
     check_snapshot(spec, snapshot)
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
@@ -105,7 +107,7 @@ def build_bundle(
         fn = pseudonymizer(name, key) if key is not None else None
         indices[name] = vi = index_vertices(name, table, pseudonymize=fn)
         check_unique(vi)
-        info.warnings += add_vertex_type(content, spec, vi)
+        info.warnings += add_vertex_type(content, spec, vi, pinned)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
         task.advance()

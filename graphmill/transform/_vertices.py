@@ -19,6 +19,7 @@ from graphmill.spec import PipelineSpec
 from graphmill.transform._features import FeatureTable, encode_vertex_features
 from graphmill.transform._indexing import VertexIndex
 from graphmill.transform._labels import class_codes, label_strings
+from graphmill.transform._pinned import PinnedVocabularies
 from graphmill.transform._splits import (
     HASH,
     PARTS,
@@ -34,7 +35,12 @@ INDEX = "index"
 PSEUDONYM = "pseudonym"
 
 
-def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex) -> list[str]:
+def add_vertex_type(
+    content: BundleContent,
+    spec: PipelineSpec,
+    vi: VertexIndex,
+    pinned: PinnedVocabularies | None = None,
+) -> list[str]:
     """Add everything about ``vi.vertex_type`` to ``content``; return warnings."""
     name, n = vi.vertex_type, vi.count
     warnings: list[str] = []
@@ -63,7 +69,8 @@ def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex)
                 f"features.{name}: property {label.property!r} is also the label; the "
                 "features reveal the label"
             )
-    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids)
+    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids, pinned)
+    warnings += encoded.warnings
     _add_features(content, name, index, encoded, entry)
     content.manifest.setdefault("vertex_types", {})[name] = entry
     return warnings
