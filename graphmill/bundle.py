@@ -171,6 +171,8 @@ class VertexTypeTensors:
     vocabularies: dict[str, tuple[str, ...]] = field(default_factory=dict)
     parts: dict[str, Any] = field(default_factory=dict)  # part -> torch.int64 positions
     part_flags: dict[str, Any] = field(default_factory=dict)  # part -> torch.bool [N]
+    # The manifest's encoder entries in feature order: property, encoding, columns, statistics.
+    encoders: tuple[dict[str, Any], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -278,6 +280,7 @@ def _vertex_tensors(name: str, entry: dict[str, Any], tensors: dict[str, Any]) -
         vocabularies={p: tuple(c["vocabulary"]) for p, c in codes.items()},
         parts={p: tensors[vertex_key(name, f"part.{p}.positions")] for p in PARTS if parts},
         part_flags={p: tensors[vertex_key(name, f"part.{p}.flags")] for p in PARTS if parts},
+        encoders=tuple(entry["features"].get("encoders", ())),
     )
 
 

@@ -19,6 +19,7 @@ import pyarrow as pa
 from graphmill.errors import InputError, SpecError
 from graphmill.spec import FeatureSpec
 from graphmill.transform import _categorical as cat
+from graphmill.transform import _dates as dt
 from graphmill.transform import _encoders as enc
 from graphmill.transform._encoders import BadValue
 from graphmill.transform._pinned import CATEGORICAL, PinnedVocabularies
@@ -66,7 +67,7 @@ def encode_feature(
         stats = enc.fit_moments(values, fit_rows)
         if kind == "identity":
             return Encoded([p], enc.apply_identity(values, stats), stats, missing)
-        suffix = "__log" if kind == "log" else "__std"
+        suffix = "__log__standardized" if kind == "log" else "__standardized"
         return Encoded([p + suffix], enc.apply_standardize(values, stats), stats, missing)
     if kind == "boolean":
         values = enc.boolean_values(column)
@@ -76,10 +77,10 @@ def encode_feature(
     if kind == "datetime":
         stamps = enc.datetime_values(column)
         missing = np.asarray(stamps.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-        parts = enc.datetime_parts(stamps, feature.datetime_parts)
-        stats = enc.fit_part_means(parts, feature.datetime_parts, fit_rows)
-        names = [f"{p}__{part}" for part in feature.datetime_parts]
-        return Encoded(names, enc.apply_part_fill(parts, stats), stats, missing)
+        raw = enc.datetime_parts(stamps, feature.datetime_parts)
+        stats = dt.fit_datetime(raw, feature.datetime_parts, fit_rows)
+        names = dt.column_names(p, feature.datetime_parts)
+        return Encoded(names, dt.apply_datetime(raw, stats), stats, missing)
     if kind == "multi-hot":
         lists = cat.list_strings(column)
         stats = cat.fit_list_vocabulary(lists.take(pa.array(fit_rows)), feature.max_categories)
