@@ -180,6 +180,9 @@ class RelationTensors:
     key: RelationKey
     endpoints: Any  # torch.int64 [2, E]: row 0 source index, row 1 target index
     multiplicity: Any = None  # torch.float32 [E] when repeated edges were merged
+    features: Any = None  # torch.float32 [E, F], row i for edge i (spec edge_features)
+    feature_names: tuple[str, ...] = ()
+    encoders: tuple[dict[str, Any], ...] = ()  # the manifest's encoder entries, in order
 
     @property
     def count(self) -> int:
@@ -259,8 +262,14 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
     relations = {}
     for dotted, entry in manifest["relations"].items():
         key = RelationKey.parse(dotted)
+        features = entry.get("features") or {}
         relations[key] = RelationTensors(
-            key, tensors[entry["tensor"]], tensors.get(relation_key(key, "multiplicity"))
+            key,
+            tensors[entry["tensor"]],
+            tensors.get(relation_key(key, "multiplicity")),
+            features=tensors.get(features["tensor"]) if features.get("tensor") else None,
+            feature_names=tuple(features.get("columns", ())),
+            encoders=tuple(features.get("encoders", ())),
         )
     return GraphBundle(root, manifest, vertex_types, relations)
 

@@ -24,6 +24,7 @@ from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
+from graphmill.transform._edge_features import add_edge_features
 from graphmill.transform._edges import EdgeArrays, apply_edge_policy
 from graphmill.transform._indexing import VertexIndex, index_vertices, map_endpoints
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
@@ -115,6 +116,7 @@ def build_bundle(
     for rel in spec.relations:
         _add_relation(content, info, spec, snapshot, rel, indices)
         task.advance()
+    add_edge_features(content, spec)
     if spec.label is not None:
         split = content.manifest["split"]
         info.part_sizes = dict(split["sizes"]) if split else {}

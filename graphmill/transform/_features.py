@@ -107,16 +107,19 @@ def encode_vertex_features(
     table: pa.Table,
     features: list[FeatureSpec],
     fit_rows: np.ndarray,
-    public_ids: pa.Array,
+    public_ids: pa.Array | Any,
     pinned: PinnedVocabularies | None = None,
+    *,
+    section: str = "features",
 ) -> FeatureTable:
     """Encode every feature of ``vertex_type``; rows of ``table`` are in index order.
-    With ``pinned``, categorical features reuse that earlier bundle's vocabularies."""
+    With ``pinned``, categorical features reuse that earlier bundle's vocabularies.
+    ``public_ids[i]`` names row ``i`` in errors; ``section`` is the spec key of the list."""
     out = FeatureTable()
     blocks: list[np.ndarray] = []
     indicators: set[str] = set()
     for i, feature in enumerate(features):
-        where = f"features.{vertex_type}[{i}]"
+        where = f"{section}.{vertex_type}[{i}]"
         column = _column(table, feature.property)
         try:
             vocabulary = None
