@@ -16,7 +16,7 @@ from graphmill.errors import SpecError
 from graphmill.spec import RelationKey, spec_from_dict
 from graphmill.transform import build_bundle
 
-from ._snapshots import publish, spec_document
+from ._snapshots import bundle_bytes, publish, spec_document
 
 PAYS = RelationKey("member", "pays", "shop")
 
@@ -104,6 +104,9 @@ def test_edge_features_align_with_the_endpoints(tmp_path: Path) -> None:
         assert matrix[row, 2:].tolist() == [float(j == hot) for j in range(4)] + [0.0]
     entry = bundle.manifest["relations"]["member.pays.shop"]["features"]
     assert entry["fitted_on"] == "all edges"
+    first = bundle_bytes(spec.output.bundle)
+    build_bundle(spec, snapshot)
+    assert bundle_bytes(spec.output.bundle) == first  # rebuilds stay byte-identical
     assert pays.encoders[0]["statistics"]["mean"] == pytest.approx(mean)
 
 
