@@ -138,3 +138,64 @@ def test_one_type_and_one_relation_give_a_homogeneous_graph(tmp_path: Path) -> N
     assert data.validate(raise_on_error=True)
     assert (data.num_nodes, data.num_edges) == (34, 156)  # 78 friendships, both directions
     assert data.x.shape == (34, 2) and int(data.train_mask.sum()) > 0
+
+
+def test_link_prediction_graphs_follow_an_edge_split(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The edge-split tensors come from the edge-split stage; here a fixed split (even edge
+    positions train, odd validation, none test) is written into a real build in their
+    layout, and the negatives are recounted by brute force against every positive."""
+    import networkx as nx
+    import numpy as np
+    import pyarrow as pa
+
+    import graphmill.transform._build as build_module
+    from graphmill.transform import build_bundle
+    from graphmill.transform._edge_features import add_edge_features
+    from tests.transform._snapshots import publish, spec_document
+
+    graph = nx.les_miserables_graph()  # Knuth (1993), as networkx ships it: 77 characters
+    names = sorted(graph)
+    key = "relation.person.knows.person"
+
+    def with_split(content: Any, spec: Any) -> None:
+        add_edge_features(content, spec)
+        endpoints = content.tensors[f"{key}.endpoints"]
+        e = endpoints.shape[1]
+        content.add_tensor(f"{key}.part.train.positions", np.arange(0, e, 2), "train edges")
+        content.add_tensor(f"{key}.part.validation.positions", np.arange(1, e, 2), "validation")
+        known = set(zip(endpoints[0].tolist(), endpoints[1].tolist(), strict=True))
+        absent = [(u, v) for u in range(77) for v in range(77) if u != v and (u, v) not in known]
+        negatives = np.array(absent[: e // 2], dtype=np.int64).T
+        content.add_tensor(f"{key}.negatives.validation", negatives, "validation negatives")
+
+    monkeypatch.setattr(build_module, "add_edge_features", with_split)
+    people = pa.table({"vertex_id": names})
+    knows = pa.table(
+        {"source_id": [u for u, _ in graph.edges], "target_id": [v for _, v in graph.edges]}
+    )
+    document = spec_document(
+        tmp_path,
+        {"person": {}},
+        [{"from": "person", "name": "knows", "to": "person", "undirected": True}],
+    )
+    spec, snapshot = publish(document, {"person": people, "person.knows.person": knows})
+    build_bundle(spec, snapshot)
+    graphs = link_prediction_graphs(spec.output.bundle)
+    endpoints = graphmill.load_bundle(spec.output.bundle).relations
+    (rel,) = endpoints.values()
+    edge = ("person", "knows", "person")
+    for data in graphs.values():
+        assert data.validate(raise_on_error=True)
+        assert torch.equal(data[edge].edge_index, rel.endpoints[:, 0::2])  # train edges only
+    validation = graphs["validation"][edge]
+    positives = rel.endpoints[:, 1::2]
+    assert torch.equal(validation.edge_label_index[:, : positives.shape[1]], positives)
+    assert validation.edge_label.sum().item() == positives.shape[1]
+    assert validation.edge_label.numel() == positives.shape[1] + rel.count // 2
+    known = set(map(tuple, rel.endpoints.T.tolist()))
+    labelled_negative = validation.edge_label_index[:, validation.edge_label == 0]
+    assert not any(tuple(p) in known for p in labelled_negative.T.tolist())
+    assert "edge_label" not in graphs["test"][edge]  # no test positives in this split
+    assert 2 * graph.number_of_edges() == rel.count  # 254 undirected edges, both directions
