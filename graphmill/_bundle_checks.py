@@ -149,6 +149,12 @@ def implied_shapes(manifest: dict[str, Any]) -> dict[str, list[int]]:
         shapes[entry["tensor"]] = [2, entry["count"]]
         if entry["merged"]:
             shapes[f"relation.{dotted}.multiplicity"] = [entry["count"]]
+        features = entry.get("features")
+        if features is not None:
+            if features["tensor"] is not None:
+                shapes[features["tensor"]] = [entry["count"], features["width"]]
+            for code in features["codes"].values():
+                shapes[code] = [entry["count"]]
         for part, size in _edge_part_sizes(entry).items():
             shapes[f"relation.{dotted}.part.{part}.positions"] = [size]
         negatives = (entry.get("link_split") or {}).get("negatives") or {}

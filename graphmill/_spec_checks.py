@@ -14,6 +14,7 @@ import math
 from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
+from graphmill._spec_edge_features import check_edge_features
 from graphmill._spec_explain import did_you_mean, key_path, listed
 from graphmill._spec_targets import check_contract, check_features, check_label
 from graphmill._spec_tasks import check_task
@@ -258,6 +259,7 @@ CHECKS: tuple[Callable[[PipelineSpec], None], ...] = (
     check_table_columns,
     check_property_ranges,
     check_features,
+    check_edge_features,
     check_label,
     check_task,
     check_split,

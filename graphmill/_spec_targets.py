@@ -60,17 +60,24 @@ def check_features(spec: PipelineSpec) -> None:
 
 
 def _check_feature(
-    spec: PipelineSpec, vt: VertexTypeSpec, item: dict[str, Any], where: str, seen: set
+    spec: PipelineSpec,
+    vt: VertexTypeSpec,
+    item: dict[str, Any],
+    where: str,
+    seen: set,
+    *,
+    owner: str = "vertex type",
+    declare_at: str | None = None,
 ) -> None:
     name, encoding = item["property"], item["encoding"]
     prop = vt.property(name)
     if prop is None:
         declared = [p.name for p in vt.properties]
         raise SpecError(
-            f"feature uses property {quote_value(name)}, which vertex type {vt.name!r} does "
+            f"feature uses property {quote_value(name)}, which {owner} {vt.name!r} does "
             f"not declare{did_you_mean(name, declared)}",
             key_path=f"{where}.property",
-            hint="declare it under vertex_types." + vt.name + ".properties",
+            hint="declare it under " + (declare_at or f"vertex_types.{vt.name}.properties"),
         )
     if spec.label is not None and (vt.name, name) == (
         spec.label.vertex_type,

@@ -178,6 +178,8 @@ class VertexTypeTensors:
     parts: dict[str, Any] = field(default_factory=dict)  # part -> torch.int64 positions
     part_flags: dict[str, Any] = field(default_factory=dict)  # part -> torch.bool [N]
     targets: Any = None  # torch.float32 [N], standardized, NaN without (vertex-values task)
+    # The manifest's encoder entries in feature order: property, encoding, columns, statistics.
+    encoders: tuple[dict[str, Any], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -188,6 +190,9 @@ class RelationTensors:
     targets: Any = None  # edge tasks: int64 class codes (-1 missing) or float32 standardized
     parts: dict[str, Any] = field(default_factory=dict)  # part or role -> int64 edge positions
     negatives: dict[str, Any] = field(default_factory=dict)  # part -> int64 [2, n]: non-edges
+    features: Any = None  # torch.float32 [E, F], row i for edge i (spec edge_features)
+    feature_names: tuple[str, ...] = ()
+    encoders: tuple[dict[str, Any], ...] = ()  # the manifest's encoder entries, in order
 
     @property
     def count(self) -> int:
@@ -267,6 +272,7 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
     relations = {}
     for dotted, entry in manifest["relations"].items():
         key = RelationKey.parse(dotted)
+        features = entry.get("features") or {}
         relations[key] = RelationTensors(
             key,
             tensors[entry["tensor"]],
@@ -282,6 +288,9 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
                 for p in PARTS
                 if relation_key(key, f"negatives.{p}") in tensors
             },
+            features=tensors.get(features["tensor"]) if features.get("tensor") else None,
+            feature_names=tuple(features.get("columns", ())),
+            encoders=tuple(features.get("encoders", ())),
         )
     return GraphBundle(root, manifest, vertex_types, relations)
 
@@ -302,6 +311,7 @@ def _vertex_tensors(name: str, entry: dict[str, Any], tensors: dict[str, Any]) -
         parts={p: tensors[vertex_key(name, f"part.{p}.positions")] for p in PARTS if parts},
         part_flags={p: tensors[vertex_key(name, f"part.{p}.flags")] for p in PARTS if parts},
         targets=tensors.get(vertex_key(name, "targets")),
+        encoders=tuple(entry["features"].get("encoders", ())),
     )
 
 

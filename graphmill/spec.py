@@ -134,6 +134,7 @@ class SplitSpec:
     test: float = 0.15
     seed: int = 0
     only_labeled: bool = True
+    tolerance: float = 0.05
 
 
 @dataclass(frozen=True)
@@ -318,6 +319,7 @@ def spec_from_dict(
         test=fractions.get("test", 0.0),
         seed=split_doc.get("seed", 0),
         only_labeled=split_doc.get("only_labeled", True),
+        tolerance=split_doc.get("tolerance", 0.05),
     )
     out = doc["output"]
     bundle = _absolute(out["bundle"], base, "output.bundle", where)

@@ -27,9 +27,11 @@ from graphmill.engine import Engine, open_engine
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
+from graphmill.transform._edge_features import add_edge_features
 from graphmill.transform._edges import EdgeArrays
 from graphmill.transform._indexing import VertexIndex, index_vertices
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
+from graphmill.transform._pinned import read_pinned
 from graphmill.transform._pseudonyms import (
     SCHEME,
     key_fingerprint,
@@ -116,6 +118,7 @@ def build_bundle(
     before = open_side(previous) if previous is not None else None
     progress = progress or SilentProgress()
     key = pseudonym_key(spec.pseudonym_key_env) if spec.pseudonymize else None
+    pinned = read_pinned(spec, previous)
     check_snapshot(spec, snapshot)
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
@@ -133,7 +136,7 @@ def build_bundle(
             name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
         )
         check_unique(vi)
-        info.warnings += add_vertex_type(content, spec, vi)
+        info.warnings += add_vertex_type(content, spec, vi, pinned)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
         task.advance()
@@ -144,6 +147,7 @@ def build_bundle(
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
         _audit_leakage(content, info, spec, even_if_leaking)
+    add_edge_features(content, spec)  # after the edge split: fitted on training edges
     if spec.label is not None:
         split = content.manifest["split"]
         info.part_sizes = dict(split["sizes"]) if split else {}

@@ -1,9 +1,12 @@
 """Vocabulary encoders: ``categories`` (integer codes), ``one-hot`` and ``multi-hot``.
 
 Contract: values are compared as strings (see :func:`graphmill._columns.conform`). The
-vocabulary is fitted on the fitted rows only: the ``max_categories`` most frequent values,
-ties broken by UTF-8 byte order of the value; for multi-hot a value's frequency is the
-number of fitted vertices whose list holds it. Code ``k`` is the ``k``-th vocabulary entry;
+vocabulary is fitted on the fitted rows only: the ``max_categories`` most frequent values
+(ties broken by UTF-8 byte order), then put in UTF-8 byte order of the value, never in
+order of frequency, so a category keeps its column name and relative place when others
+become more or less frequent (a vocabulary pinned from an earlier bundle keeps every
+column, see ``_pinned``); for multi-hot a value's frequency is the number of fitted
+vertices whose list holds it. Code ``k`` is the ``k``-th vocabulary entry;
 the code ``len(vocabulary)`` is the *unknown bucket*: values unseen in the fitted rows, values
 beyond ``max_categories``, and missing values. For multi-hot a missing or empty list sets no
 column; a list holding any out-of-vocabulary value sets the unknown column.
@@ -44,14 +47,21 @@ def list_strings(column: pa.Array) -> pa.Array:
 
 
 def fit_vocabulary(strings: pa.Array, max_categories: int) -> dict[str, Any]:
-    """The most frequent values among ``strings`` (non-null), ties by value."""
+    """The ``max_categories`` most frequent values among ``strings`` (non-null; ties by
+    value), in UTF-8 byte order.
+
+    >>> fit_vocabulary(pa.array(["b", "b", "c", "a", "c", "c"]), 2)["vocabulary"]
+    ['b', 'c']
+    """
     present = strings.drop_null()
     if len(present) == 0:
         return {"vocabulary": [], "max_categories": max_categories, "distinct_fitted": 0}
     counted = pc.value_counts(present)
     table = pa.table({"value": counted.field("values"), "count": counted.field("counts")})
     ranked = table.sort_by([("count", "descending"), ("value", "ascending")])
-    vocabulary = ranked.column("value").slice(0, max_categories).to_pylist()
+    kept = ranked.column("value").slice(0, max_categories)
+    # Arrow orders strings by their bytes: UTF-8 byte order, which is also code point order.
+    vocabulary = pc.take(kept, pc.sort_indices(kept)).to_pylist()
     return {
         "vocabulary": vocabulary,
         "max_categories": max_categories,

@@ -17,6 +17,11 @@ never divides by (almost) zero. An encoded value beyond the float32 range is an 
 * ``datetime``: UTC parts ``year``, ``month`` (1-12), ``day`` (1-31), ``day_of_week`` (Monday
   0 … Sunday 6, like Python's ``date.weekday()``), ``hour`` (0-23), ``epoch_days`` (days since
   1970-01-01T00:00Z, with the time of day as a fraction); naive timestamps are taken as UTC.
+  The raw parts are then scaled by ``_dates`` (standardized, or sin/cos for cycles).
+
+Column names say what was done: ``<p>__standardized``, ``<p>__log__standardized``,
+``<p>__minmax``; ``identity`` keeps the bare property name (the one unscaled output, asked
+for explicitly).
 """
 
 from __future__ import annotations
@@ -180,24 +185,6 @@ def datetime_parts(stamps: pa.Array, parts: tuple[str, ...]) -> np.ndarray:
             column = getattr(pc, part)(stamps).cast(pa.float64())
         columns.append(np.asarray(column.to_numpy(zero_copy_only=False), np.float64))
     return np.stack(columns, axis=1) if columns else np.zeros((len(stamps), 0))
-
-
-def fit_part_means(parts: np.ndarray, names: tuple[str, ...], fit_rows: np.ndarray) -> dict:
-    chosen = parts[fit_rows]
-    fills = {}
-    for j, name in enumerate(names):
-        seen = chosen[:, j][~np.isnan(chosen[:, j])]
-        fills[name] = float(seen.mean()) if len(seen) else 0.0
-    return {
-        "parts": list(names),
-        "fill": fills,
-        "fitted_values": int((~np.isnan(chosen[:, 0])).sum()) if len(names) else 0,
-    }
-
-
-def apply_part_fill(parts: np.ndarray, stats: dict[str, Any]) -> np.ndarray:
-    fills = np.array([stats["fill"][name] for name in stats["parts"]], dtype=np.float64)
-    return np.where(np.isnan(parts), fills[None, :], parts)
 
 
 def check_float32_range(values: np.ndarray) -> None:

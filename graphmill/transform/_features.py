@@ -19,8 +19,10 @@ import pyarrow as pa
 from graphmill.errors import InputError, SpecError
 from graphmill.spec import FeatureSpec
 from graphmill.transform import _categorical as cat
+from graphmill.transform import _dates as dt
 from graphmill.transform import _encoders as enc
 from graphmill.transform._encoders import BadValue
+from graphmill.transform._pinned import CATEGORICAL, PinnedVocabularies
 
 
 @dataclass(frozen=True)
@@ -42,10 +44,17 @@ class FeatureTable:
     matrix: np.ndarray | None = None  # float32 [N, F], None when F == 0
     codes: dict[str, np.ndarray] = field(default_factory=dict)  # property -> int64 [N]
     encoders: list[dict[str, Any]] = field(default_factory=list)  # manifest entries
+    warnings: list[str] = field(default_factory=list)
 
 
-def encode_feature(feature: FeatureSpec, column: pa.Array, fit_rows: np.ndarray) -> Encoded:
-    """Fit ``feature`` on ``fit_rows`` of ``column`` and encode every row."""
+def encode_feature(
+    feature: FeatureSpec,
+    column: pa.Array,
+    fit_rows: np.ndarray,
+    pinned: list[str] | None = None,
+) -> Encoded:
+    """Fit ``feature`` on ``fit_rows`` of ``column`` and encode every row; a categorical
+    feature with a ``pinned`` vocabulary uses it instead of the fitted one."""
     p, kind = feature.property, feature.encoding
     if kind in ("standardize", "min-max", "log", "identity"):
         values = enc.numeric_values(column)
@@ -58,7 +67,7 @@ def encode_feature(feature: FeatureSpec, column: pa.Array, fit_rows: np.ndarray)
         stats = enc.fit_moments(values, fit_rows)
         if kind == "identity":
             return Encoded([p], enc.apply_identity(values, stats), stats, missing)
-        suffix = "__log" if kind == "log" else "__std"
+        suffix = "__log__standardized" if kind == "log" else "__standardized"
         return Encoded([p + suffix], enc.apply_standardize(values, stats), stats, missing)
     if kind == "boolean":
         values = enc.boolean_values(column)
@@ -68,18 +77,21 @@ def encode_feature(feature: FeatureSpec, column: pa.Array, fit_rows: np.ndarray)
     if kind == "datetime":
         stamps = enc.datetime_values(column)
         missing = np.asarray(stamps.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-        parts = enc.datetime_parts(stamps, feature.datetime_parts)
-        stats = enc.fit_part_means(parts, feature.datetime_parts, fit_rows)
-        names = [f"{p}__{part}" for part in feature.datetime_parts]
-        return Encoded(names, enc.apply_part_fill(parts, stats), stats, missing)
+        raw = enc.datetime_parts(stamps, feature.datetime_parts)
+        stats = dt.fit_datetime(raw, feature.datetime_parts, fit_rows)
+        names = dt.column_names(p, feature.datetime_parts)
+        return Encoded(names, dt.apply_datetime(raw, stats), stats, missing)
     if kind == "multi-hot":
         lists = cat.list_strings(column)
         stats = cat.fit_list_vocabulary(lists.take(pa.array(fit_rows)), feature.max_categories)
+        stats = _pin(stats, pinned)
         missing = np.asarray(lists.is_null().to_numpy(zero_copy_only=False), dtype=bool)
         names = cat.column_names(p, stats["vocabulary"])
         return Encoded(names, cat.multi_hot(lists, stats["vocabulary"]), stats, missing)
     strings = cat.category_strings(column)
-    stats = cat.fit_vocabulary(strings.take(pa.array(fit_rows)), feature.max_categories)
+    stats = _pin(
+        cat.fit_vocabulary(strings.take(pa.array(fit_rows)), feature.max_categories), pinned
+    )
     codes = cat.category_codes(strings, stats["vocabulary"])
     stats["unknown_code"] = len(stats["vocabulary"])
     missing = np.asarray(strings.is_null().to_numpy(zero_copy_only=False), dtype=bool)
@@ -95,17 +107,32 @@ def encode_vertex_features(
     table: pa.Table,
     features: list[FeatureSpec],
     fit_rows: np.ndarray,
-    public_ids: pa.Array,
+    public_ids: pa.Array | Any,
+    pinned: PinnedVocabularies | None = None,
+    *,
+    section: str = "features",
 ) -> FeatureTable:
-    """Encode every feature of ``vertex_type``; rows of ``table`` are in index order."""
+    """Encode every feature of ``vertex_type``; rows of ``table`` are in index order.
+    With ``pinned``, categorical features reuse that earlier bundle's vocabularies.
+    ``public_ids[i]`` names row ``i`` in errors; ``section`` is the spec key of the list."""
     out = FeatureTable()
     blocks: list[np.ndarray] = []
     indicators: set[str] = set()
     for i, feature in enumerate(features):
-        where = f"features.{vertex_type}[{i}]"
+        where = f"{section}.{vertex_type}[{i}]"
         column = _column(table, feature.property)
         try:
-            result = encode_feature(feature, column, fit_rows)
+            vocabulary = None
+            if pinned is not None and feature.encoding in CATEGORICAL:
+                vocabulary = pinned.lookup(vertex_type, feature.property, feature.encoding)
+                if vocabulary is None:
+                    out.warnings.append(
+                        f"{where}: {pinned.source['bundle']} has no {feature.encoding} "
+                        f"vocabulary for {vertex_type}.{feature.property}; fitted afresh"
+                    )
+            result = encode_feature(feature, column, fit_rows, vocabulary)
+            if vocabulary is not None and pinned is not None:
+                result.statistics["pinned_from"] = dict(pinned.source)
             enc.check_float32_range(result.values)
         except BadValue as bad:
             record = None if bad.position is None else str(public_ids[bad.position])
@@ -151,6 +178,13 @@ def encode_vertex_features(
     if out.names:
         out.matrix = np.ascontiguousarray(np.column_stack(blocks), dtype=np.float32)
     return out
+
+
+def _pin(stats: dict[str, Any], pinned: list[str] | None) -> dict[str, Any]:
+    """``stats`` with the pinned vocabulary in place of the fitted one (fitted count kept)."""
+    if pinned is None:
+        return stats
+    return {**stats, "vocabulary": list(pinned)}
 
 
 def _column(table: pa.Table, name: str) -> pa.Array:

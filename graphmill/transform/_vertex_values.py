@@ -32,7 +32,7 @@ def add_vertex_values(
     if not has_target.any():
         warnings.append(f"label.property: no {name!r} vertex has a number for {prop!r}")
     strata = np.where(has_target, 0, UNLABELED).astype(np.int64)
-    train = add_vertex_parts(content, spec, name, strata, warnings)
+    train = add_vertex_parts(content, spec, vi, strata, ["with a target"], warnings)
     targets, stats = standardize(values, train)
     key = content.add_tensor(
         vertex_key(name, "targets"),

@@ -19,7 +19,16 @@ from graphmill.spec import PipelineSpec
 from graphmill.transform._features import FeatureTable, encode_vertex_features
 from graphmill.transform._indexing import VertexIndex
 from graphmill.transform._labels import class_codes, label_strings
-from graphmill.transform._splits import PARTS, part_flags, part_positions, split_vertices
+from graphmill.transform._pinned import PinnedVocabularies
+from graphmill.transform._splits import (
+    HASH,
+    PARTS,
+    achieved_shares,
+    part_flags,
+    part_positions,
+    split_vertices,
+    stable_unit_interval,
+)
 from graphmill.transform._targets import refuse_float_classes
 from graphmill.transform._writer import BundleContent
 
@@ -27,7 +36,12 @@ INDEX = "index"
 PSEUDONYM = "pseudonym"
 
 
-def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex) -> list[str]:
+def add_vertex_type(
+    content: BundleContent,
+    spec: PipelineSpec,
+    vi: VertexIndex,
+    pinned: PinnedVocabularies | None = None,
+) -> list[str]:
     """Add everything about ``vi.vertex_type`` to ``content``; return warnings."""
     name, n = vi.vertex_type, vi.count
     warnings: list[str] = []
@@ -57,7 +71,8 @@ def add_vertex_type(content: BundleContent, spec: PipelineSpec, vi: VertexIndex)
                 f"features.{name}: property {label.property!r} is also the label; the "
                 "features reveal the label"
             )
-    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids)
+    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids, pinned)
+    warnings += encoded.warnings
     _add_features(content, name, index, encoded, entry)
     content.manifest.setdefault("vertex_types", {})[name] = entry
     return warnings
@@ -101,7 +116,7 @@ def _add_label_and_parts(
         "tensor": vertex_key(name, "labels"),
         "classes": classes,
     }
-    positions = add_vertex_parts(content, spec, name, codes, warnings)
+    positions = add_vertex_parts(content, spec, vi, codes, classes, warnings)
     content.manifest["label"] = {"vertex_type": name, "property": prop, "classes": classes}
     return positions
 
@@ -109,20 +124,24 @@ def _add_label_and_parts(
 def add_vertex_parts(
     content: BundleContent,
     spec: PipelineSpec,
-    name: str,
+    vi: VertexIndex,
     codes: np.ndarray,
+    classes: list[str],
     warnings: list[str],
 ) -> np.ndarray:
-    """Draw the parts of the target type (strata: ``codes``, -1 without a target), add their
-    tensors, table and manifest entries; return the train positions."""
+    """Draw the parts of the target type (strata: ``codes`` into ``classes``, -1 without a
+    target) from the keyed hash of each original ID, add their tensors, table and manifest
+    entries; return the train positions."""
+    name = vi.vertex_type
     entry = content.manifest["vertex_types"][name]
     split = spec.split
     fractions = (split.train, split.validation, split.test)
     part_of = split_vertices(
         codes,
+        stable_unit_interval(vi.ids, split.seed),  # original IDs, even when pseudonymized
         method=split.method,
         fractions=fractions,
-        seed=split.seed,
+        tolerance=split.tolerance,
         only_labeled=split.only_labeled,
     )
     positions, flags = part_positions(part_of), part_flags(part_of)
@@ -151,9 +170,12 @@ def add_vertex_parts(
         "seed": split.seed,
         "fractions": dict(zip(PARTS, fractions, strict=True)),
         "only_labeled": split.only_labeled,
-        "rounding": "largest remainder per stratum; one train vertex per non-empty stratum",
-        "generator": "numpy.random.Generator(PCG64(seed)).permutation",
+        "tolerance": split.tolerance,
+        "rounding": "hash threshold per vertex; boundary within ceil(tolerance * n) of "
+        "the largest-remainder size per stratum; one train vertex per non-empty stratum",
+        "generator": HASH,
         "sizes": sizes,
+        "achieved_shares": achieved_shares(part_of, codes, classes),
     }
     if sizes["train"] == 0 and spec.features:
         warnings.append(f"split: the train part of {name!r} is empty; encoders use defaults")

@@ -15,6 +15,7 @@ from hypothesis import strategies as st
 from graphmill.errors import InputError, SpecError
 from graphmill.spec import FeatureSpec
 from graphmill.transform import build_bundle
+from graphmill.transform._encoders import datetime_parts, datetime_values
 from graphmill.transform._features import encode_vertex_features
 
 from ._snapshots import publish, spec_document
@@ -71,7 +72,7 @@ def test_standardize_equals_scipy_zscore_on_the_train_rows() -> None:
     np.testing.assert_allclose(out.matrix[fit, 0], scipy.stats.zscore(values[fit]), rtol=1e-6)
     mean, std = values[fit].mean(), values[fit].std()
     np.testing.assert_allclose(out.matrix[5:, 0], (values[5:] - mean) / std, rtol=1e-6)
-    assert out.names == ["a__std"]
+    assert out.names == ["a__standardized"]
     stats = out.encoders[0]["statistics"]
     assert stats["mean"] == pytest.approx(5.0) and stats["std"] == pytest.approx(
         np.std([3, 7, 1, 10, 4])
@@ -91,7 +92,8 @@ def test_min_max_log_identity_and_constant_columns() -> None:
         ],
         np.array([0, 1, 2]),
     )
-    assert out.names == ["a__minmax", "a__log", "a", "c__std"]
+    # names say what was done: the log column is also standardized
+    assert out.names == ["a__minmax", "a__log__standardized", "a", "c__standardized"]
     np.testing.assert_allclose(out.matrix[:, 0], (values - 2) / 8, rtol=1e-6)  # not clipped
     logs = np.log1p(values)
     np.testing.assert_allclose(
@@ -151,8 +153,9 @@ def test_multi_hot_of_a_single_valued_column_with_missing_values() -> None:
     # each value is a one-element set; a missing value is a missing set (once an IndexError)
     values = ["red", None, "blue", "red"]
     out = encode(pa.table({"s": values}), [feature("s", "multi-hot")])
-    assert out.names == ["s=red", "s=blue", "s=<unknown>", "s__missing"]
-    assert out.matrix.tolist() == [[1, 0, 0, 0], [0, 0, 0, 1], [0, 1, 0, 0], [1, 0, 0, 0]]
+    # columns in UTF-8 byte order of the values, not by frequency (red is more frequent)
+    assert out.names == ["s=blue", "s=red", "s=<unknown>", "s__missing"]
+    assert out.matrix.tolist() == [[0, 1, 0, 0], [0, 0, 0, 1], [1, 0, 0, 0], [0, 1, 0, 0]]
 
 
 def test_boolean_zero_one_and_missing_is_zero() -> None:
@@ -168,30 +171,72 @@ STAMPS = [
 ]
 
 
+def raw_parts(stamps: list, parts: tuple[str, ...]) -> np.ndarray:
+    column = pa.array(stamps, pa.timestamp("us", tz="UTC"))
+    return datetime_parts(datetime_values(column), parts)
+
+
 def test_datetime_parts_equal_python_datetime() -> None:
     parts = ("year", "month", "day", "day_of_week", "hour", "epoch_days")
-    column = pa.array(STAMPS, pa.timestamp("us", tz="UTC"))
-    out = encode(pa.table({"d": column}), [feature("d", "datetime", datetime_parts=parts)])
+    raw = raw_parts(STAMPS, parts)
     epoch = dt.datetime(1970, 1, 1, tzinfo=UTC)
-    known = [s for s in STAMPS if s is not None]
-    for row, stamp in enumerate(known):
+    for row, stamp in enumerate(s for s in STAMPS if s is not None):
         # Python: date.weekday() is Monday 0 .. Sunday 6 (Python docs, datetime module).
         want = [stamp.year, stamp.month, stamp.day, stamp.weekday(), stamp.hour]
         want.append((stamp - epoch).total_seconds() / 86400)
-        np.testing.assert_allclose(out.matrix[row, :6], np.float32(want), rtol=1e-6)
-    assert out.matrix[3, 6] == 1.0  # missing indicator
-    means = np.mean([[s.year, s.month] for s in known], axis=0)
-    np.testing.assert_allclose(out.matrix[3, :2], means, rtol=1e-6)  # filled with the mean
+        np.testing.assert_allclose(raw[row], want, rtol=1e-12)
+    assert np.isnan(raw[3]).all()
+
+
+def test_datetime_columns_are_standardized_or_on_the_unit_circle() -> None:
+    parts = ("year", "month", "day", "day_of_week", "hour", "epoch_days")
+    column = pa.array(STAMPS, pa.timestamp("us", tz="UTC"))
+    out = encode(pa.table({"d": column}), [feature("d", "datetime", datetime_parts=parts)])
+    assert out.names == [
+        "d__year__standardized",
+        "d__month__sin", "d__month__cos",
+        "d__day__sin", "d__day__cos",
+        "d__day_of_week__sin", "d__day_of_week__cos",
+        "d__hour__sin", "d__hour__cos",
+        "d__epoch_days__standardized",
+        "d__missing",
+    ]  # fmt: skip
+    known = [s for s in STAMPS if s is not None]
+    epoch = dt.datetime(1970, 1, 1, tzinfo=UTC)
+    years = np.array([s.year for s in known], dtype=np.float64)
+    days = np.array([(s - epoch).total_seconds() / 86400 for s in known])
+    # numpy by hand: z-scores over the three known stamps (ddof 0)
+    np.testing.assert_allclose(out.matrix[:3, 0], (years - years.mean()) / years.std(), rtol=1e-5)
+    np.testing.assert_allclose(out.matrix[:3, 9], (days - days.mean()) / days.std(), rtol=1e-5)
+    for j, (value, origin, period) in enumerate(
+        [(lambda s: s.month, 1, 12), (lambda s: s.day, 1, 31),
+         (lambda s: s.weekday(), 0, 7), (lambda s: s.hour, 0, 24)]
+    ):  # fmt: skip
+        angle = np.array([2 * np.pi * (value(s) - origin) / period for s in known])
+        np.testing.assert_allclose(out.matrix[:3, 1 + 2 * j], np.sin(angle), atol=1e-6)
+        np.testing.assert_allclose(out.matrix[:3, 2 + 2 * j], np.cos(angle), atol=1e-6)
+        # the missing stamp gets the fitted mean of each column
+        assert out.matrix[3, 1 + 2 * j] == pytest.approx(np.sin(angle).mean(), abs=1e-6)
+    assert out.matrix[3, 0] == 0.0 and out.matrix[3, 9] == 0.0 and out.matrix[3, 10] == 1.0
+    assert np.abs(out.matrix[:, :10]).max() <= 1.5  # comparable scales, no raw 1969 beside 0/1
+    # December is as close to January as January to February (the cycle closes)
+    dec_jan = raw_parts([dt.datetime(2020, 12, 1, tzinfo=UTC), dt.datetime(2021, 1, 1, tzinfo=UTC),
+                         dt.datetime(2021, 2, 1, tzinfo=UTC)], ("month",))  # fmt: skip
+    from graphmill.transform._dates import apply_datetime, fit_datetime
+
+    stats = fit_datetime(dec_jan, ("month",), np.arange(3))
+    circle = apply_datetime(dec_jan, stats)
+    gaps = np.linalg.norm(np.diff(circle, axis=0), axis=1)
+    np.testing.assert_allclose(gaps[0], gaps[1])
+    assert stats["columns"] == ["month__sin", "month__cos"]
 
 
 def test_dates_are_midnight_utc() -> None:
     column = pa.array([dt.date(2021, 3, 14)], pa.date32())
-    out = encode(
-        pa.table({"d": column}),
-        [feature("d", "datetime", datetime_parts=("day_of_week", "hour", "epoch_days"))],
-    )
+    parts = ("day_of_week", "hour", "epoch_days")
+    raw = datetime_parts(datetime_values(column), parts)
     day = dt.date(2021, 3, 14)
-    assert out.matrix[0, :3].tolist() == [day.weekday(), 0, (day - dt.date(1970, 1, 1)).days]
+    assert raw[0].tolist() == [day.weekday(), 0, (day - dt.date(1970, 1, 1)).days]
 
 
 def test_iso_text_without_an_offset_is_utc_and_with_one_is_converted() -> None:
@@ -200,11 +245,10 @@ def test_iso_text_without_an_offset_is_utc_and_with_one_is_converted() -> None:
         ["2021-03-14T15:00:00", "2021-03-14T23:30:00"],
         ["2021-03-14T15:00:00+02:00", "2021-03-14T15:00:00Z"],
     ):
-        hour = feature("t", "datetime", datetime_parts=("hour",))
-        out = encode(pa.table({"t": texts}), [hour])
+        raw = datetime_parts(datetime_values(pa.array(texts)), ("hour",))
         parsed = [dt.datetime.fromisoformat(t) for t in texts]
         want = [(p if p.tzinfo is None else p.astimezone(UTC)).hour for p in parsed]
-        assert out.matrix[:, 0].tolist() == want
+        assert raw[:, 0].tolist() == want
 
 
 def test_negative_value_for_log_is_a_one_line_error_naming_the_record() -> None:
@@ -257,12 +301,13 @@ def test_bundle_fits_encoders_on_the_train_part_only(tmp_path: Path) -> None:
     held_out = np.concatenate(
         [vertices.parts["validation"].numpy(), vertices.parts["test"].numpy()]
     )
-    assert len(train) == 20 and len(held_out) == 20
+    # 40 hashed vertices: train within ceil(0.05 * 40) = 2 of 20 (split.tolerance).
+    assert abs(len(train) - 20) <= 2 and len(train) + len(held_out) == n
     mean, std = ages[train].mean(), ages[train].std()
     assert not np.isclose(mean, ages.mean())  # the draw makes the leak observable
     np.testing.assert_allclose(vertices.features[:, 0].numpy(), (ages - mean) / std, rtol=1e-5)
     stats = bundle.manifest["vertex_types"]["p"]["features"]["encoders"][0]["statistics"]
-    assert stats["mean"] == pytest.approx(mean) and stats["fitted_values"] == 20
+    assert stats["mean"] == pytest.approx(mean) and stats["fitted_values"] == len(train)
 
 
 def test_an_outlier_beyond_float32_is_refused_not_turned_into_inf() -> None:
@@ -270,3 +315,30 @@ def test_an_outlier_beyond_float32_is_refused_not_turned_into_inf() -> None:
     table = pa.table({"a": [1.0, 2.0, 1e300]})
     with pytest.raises(InputError, match=r"record v2.*beyond the float32 range"):
         encode(table, [feature("a", "standardize")], np.array([0, 1]))
+
+
+def test_the_loader_names_columns_classes_and_encoders(tmp_path: Path) -> None:
+    pytest.importorskip("torch")
+    document = spec_document(
+        tmp_path,
+        {"p": {"properties": {"amount": {"kind": "float"}, "group": None}}},
+        features={"p": [{"property": "amount", "encoding": "log", "missing": "fill"}]},
+        label={"vertex_type": "p", "property": "group"},
+    )
+    amounts = np.arange(30, dtype=np.float64)
+    table = pa.table(
+        {"vertex_id": [f"p{i:02d}" for i in range(30)], "amount": amounts, "group": ["x", "y"] * 15}
+    )
+    spec, snapshot = publish(document, {"p": table})
+    build_bundle(spec, snapshot)
+    from graphmill.bundle import load_bundle
+
+    vertices = load_bundle(spec.output.bundle).vertex_types["p"]
+    assert vertices.feature_names == ("amount__log__standardized",)
+    assert vertices.class_names == ("x", "y")
+    (encoder,) = vertices.encoders
+    assert (encoder["property"], encoder["encoding"]) == ("amount", "log")
+    train = vertices.parts["train"].numpy()
+    logs = np.log1p(amounts)
+    assert encoder["statistics"]["mean"] == pytest.approx(logs[train].mean())
+    assert encoder["statistics"]["std"] == pytest.approx(logs[train].std())
