@@ -1,22 +1,24 @@
 """RDF files named by a spec: formats, streaming parse, and errors that name file and line.
 
 Formats come from ``source.format`` or the extension (``.nt`` ``.nq`` ``.ttl`` ``.trig``
-``.rdf``/``.owl``/``.xml``; a further ``.gz`` is read through gzip). pyoxigraph reads all of
-them (strictly: ``lenient=False``), so rdflib is not needed. A file that cannot be opened is a
-:class:`SourceUnavailableError`; content that does not parse is an :class:`InputError` with
-``file:line`` (when the parser reports a line) and "fix the line or remove it".
+``.rdf``/``.owl``/``.xml``); a further ``.gz``, ``.bz2``, ``.xz`` or ``.zst`` is decompressed
+as a stream (:mod:`._archives`). pyoxigraph reads all of them (strictly: ``lenient=False``),
+so rdflib is not needed. A file that cannot be opened is a :class:`SourceUnavailableError`;
+content that does not parse is an :class:`InputError` with ``file:line`` (when the parser
+reports a line) and "fix the line or remove it"; a truncated or damaged archive is an
+:class:`InputError` naming the file.
 """
 
 from __future__ import annotations
 
 import contextlib
-import gzip
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
 from graphmill._atomic import sha256_file
+from graphmill.connectors.rdf._archives import COMPRESSIONS, ArchiveError, open_archive
 from graphmill.errors import InputError, SourceUnavailableError, SpecError, require
 from graphmill.spec import PipelineSpec
 
@@ -50,7 +52,11 @@ class RdfInput:
     path: Path
     shown: str
     format: str
-    gzipped: bool
+    compression: str | None = None  # "gzip", "bzip2", "xz" or "zstd"
+
+    @property
+    def gzipped(self) -> bool:
+        return self.compression == "gzip"
 
 
 def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
@@ -60,8 +66,8 @@ def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
     for i, shown in enumerate(spec.source["paths"]):
         path = spec.resolve_path(shown)
         suffixes = [s.lower() for s in path.suffixes]
-        gzipped = bool(suffixes) and suffixes[-1] == ".gz"
-        ext = suffixes[-2] if gzipped and len(suffixes) > 1 else (suffixes[-1] if suffixes else "")
+        compression = COMPRESSIONS.get(suffixes[-1]) if suffixes else None
+        ext = (suffixes[-2] if len(suffixes) > 1 else "") if compression else (suffixes or [""])[-1]
         fmt = declared or EXTENSIONS.get(ext)
         if fmt is None:
             raise SpecError(
@@ -70,7 +76,7 @@ def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
                 hint=f"set source.format or use one of {', '.join(EXTENSIONS)}",
             )
         check_readable(path, shown)
-        inputs.append(RdfInput(path, shown, fmt, gzipped))
+        inputs.append(RdfInput(path, shown, fmt, compression))
     return inputs
 
 
@@ -97,12 +103,18 @@ def check_readable(path: Path, shown: str) -> None:
         ) from exc
 
 
-def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
+def syntax_details(exc: SyntaxError) -> tuple[str, int | None, int | None]:
+    """(reason, line, column) of a pyoxigraph parser error."""
     text = str(exc.args[0]) if exc.args else str(exc)
     reason = text.split(": ", 1)[1] if text.startswith("Parser error") and ": " in text else text
     position = exc.args[1] if len(exc.args) > 1 and isinstance(exc.args[1], tuple) else ()
     line = exc.lineno if isinstance(exc.lineno, int) else None
     column = position[2] if len(position) > 2 and isinstance(position[2], int) else None
+    return reason, line, column
+
+
+def syntax_error(item: RdfInput, reason: str, line: int | None, column: int | None) -> InputError:
+    """The InputError for content of ``item`` that does not parse."""
     where = f" (column {column})" if column is not None else ""
     return InputError(
         f"not valid {item.format}{where}: {reason}",
@@ -118,24 +130,43 @@ def reading(item: RdfInput) -> Iterator[None]:
     try:
         yield
     except SyntaxError as exc:
-        raise _syntax_error(exc, item) from exc
-    except (gzip.BadGzipFile, EOFError, UnicodeDecodeError) as exc:
+        raise syntax_error(item, *syntax_details(exc)) from exc
+    except (ArchiveError, EOFError) as exc:
         raise InputError(
-            f"not a readable gzip file: {exc}", file=item.shown, hint="check the download"
+            f"not a readable {item.compression or 'compressed'} file: {exc}",
+            file=item.shown,
+            hint="the archive is truncated or damaged: download it again, or test it with "
+            "the tool that made it",
+        ) from exc
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"not UTF-8 text: {exc}", file=item.shown, hint="convert the file to UTF-8"
         ) from exc
     except OSError as exc:
         raise SourceUnavailableError(f"cannot read the file: {exc}", file=item.shown) from exc
+
+
+def rdf_format(item: RdfInput) -> Any:
+    """The pyoxigraph ``RdfFormat`` of ``item``."""
+    return getattr(oxigraph().RdfFormat, FORMAT_NAMES[item.format])
+
+
+@contextlib.contextmanager
+def opened(item: RdfInput) -> Iterator[BinaryIO]:
+    """``item``'s bytes, decompressed as they are read; errors as :func:`reading` gives them."""
+    with reading(item), open_archive(item.path, item.compression) as handle:
+        yield handle
 
 
 @contextlib.contextmanager
 def quads(item: RdfInput) -> Iterator[Any]:
     """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written)."""
     ox = oxigraph()
-    fmt = getattr(ox.RdfFormat, FORMAT_NAMES[item.format])
+    fmt = rdf_format(item)
     with contextlib.ExitStack() as stack:
         stack.enter_context(reading(item))
-        if item.gzipped:
-            handle = stack.enter_context(gzip.open(item.path, "rb"))
+        if item.compression:
+            handle = stack.enter_context(opened(item))
             yield ox.parse(handle, format=fmt, lenient=False)
         else:
             yield ox.parse(path=str(item.path), format=fmt, lenient=False)

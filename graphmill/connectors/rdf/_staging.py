@@ -1,15 +1,16 @@
 """RDF files -> the quads a plan can use, staged as Parquet parts in bounded memory.
 
-Each file is parsed once as a stream: pyoxigraph's parser feeds its canonical N-Quads writer
-in blocks of :data:`CHUNK_QUADS` quads (Rust-side), and a worker thread reads each block into
-term columns (:func:`._terms.read_nquads`, which releases the GIL, so parsing and reading
-overlap), keeps the quads of the selected graphs the plan can use, and appends them to three
-parts (one Parquet row group per block), by the role the quad plays:
+Each file is parsed once as a stream (:func:`stage_stream`; line-based dumps may instead be
+cut into blocks parsed by several processes, :mod:`._chunks`): pyoxigraph's parser feeds its
+canonical N-Quads writer in blocks of :data:`CHUNK_QUADS` quads, and a worker thread reads
+each block into term columns (:func:`._terms.read_nquads`; Arrow releases the GIL, so parsing
+and reading overlap), keeps the quads of the selected graphs the plan can use, and writes
+them as one Parquet part per block into a folder per role the quad plays:
 
-* ``types.parquet``: ``s o g`` -- ``rdf:type`` triples naming a declared class (``g`` null
-  in the default graph);
-* ``literals.parquet``: ``s p o o_datatype o_lang`` -- literal objects of property predicates;
-* ``links.parquet``: ``s p o`` -- IRI or blank-node objects of relation predicates.
+* ``types/``: ``s o g`` -- ``rdf:type`` triples naming a declared class (``g`` null in the
+  default graph);
+* ``literals/``: ``s p o o_datatype o_lang`` -- literal objects of property predicates;
+* ``links/``: ``s p o`` -- IRI or blank-node objects of relation predicates.
 
 Literals of XSD datatypes are put, block by block, in the canonical form Oxigraph's store
 keeps them in (a tiny store holding the block's distinct literals once), so this source and
@@ -129,65 +130,61 @@ def split_roles(table: pa.Table, plan: RdfPlan) -> dict[str, pa.Table]:
     return out
 
 
-class PartWriter:
-    """One Parquet file per role in ``folder``; :meth:`write` appends a row group to each."""
-
-    def __init__(self, folder: Path) -> None:
-        self.paths = {role: folder / f"{role}.parquet" for role in ROLES}
-        self._writers = {
-            role: pq.ParquetWriter(path, ROLES[role], compression="lz4")
-            for role, path in self.paths.items()
-        }
-
-    def write(self, tables: dict[str, pa.Table]) -> None:
-        for role, table in tables.items():
-            if table.num_rows:
-                self._writers[role].write_table(table)
-
-    def close(self) -> None:
-        for writer in self._writers.values():
-            writer.close()
+def empty_parts(folder: Path) -> dict[str, Path]:
+    """Make a folder per role in ``folder``, each with an empty part; return their globs."""
+    globs = {}
+    for role, schema in ROLES.items():
+        (folder / role).mkdir(parents=True, exist_ok=True)
+        pq.write_table(schema.empty_table(), folder / role / "empty.parquet")
+        globs[role] = folder / role / "*.parquet"
+    return globs
 
 
-def _stage_block(block: bytes, predicates: pa.Array, plan: RdfPlan, out: PartWriter) -> int:
+def write_parts(table: pa.Table, plan: RdfPlan, folder: Path, name: str) -> None:
+    """Write the rows of a quad table each role keeps as ``folder/<role>/<name>.parquet``."""
+    for role, rows in split_roles(table, plan).items():
+        if rows.num_rows:
+            pq.write_table(rows, folder / role / f"{name}.parquet", compression="lz4")
+
+
+def _stage_block(block: bytes, predicates: pa.Array, plan: RdfPlan, folder: Path, name: str) -> int:
     table = read_nquads(block, predicates=predicates)
-    out.write(split_roles(table, plan))
+    write_parts(table, plan, folder, name)
     return table.num_rows
 
 
-def stage_files(
-    inputs: list[RdfInput],
+def stage_stream(
+    item: RdfInput,
     plan: RdfPlan,
+    predicates: list[str],
     folder: Path,
+    prefix: str,
     *,
     chunk: int = CHUNK_QUADS,
-    on_block: Callable[[int], Any] | None = None,
-) -> tuple[dict[str, Path], int]:
-    """Parse ``inputs`` and stage what ``plan`` can use in ``folder``; return the parts and
-    the number of quads with a wanted predicate. ``on_block(quads)`` follows each block."""
+    on_block: Callable[[int, int], Any] | None = None,
+) -> int:
+    """Stage ``item`` (any format) in this process; return the quads with a wanted predicate.
+
+    ``on_block(quads, -1)`` follows each block of ``chunk`` quads."""
     ox = oxigraph()
-    wanted = pa.array(wanted_predicates(plan), _TEXT)
-    out = PartWriter(folder)
+    wanted = pa.array(predicates, _TEXT)
     pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="graphmill-rdf-stage")
     pending: deque[Future[int]] = deque()
     kept = 0
     try:
-        for item in inputs:
-            with quads(item) as parser, reading(item):
-                while True:
-                    block = ox.serialize(
-                        itertools.islice(parser, chunk), format=ox.RdfFormat.N_QUADS
-                    )
-                    if not block:
-                        break
-                    pending.append(pool.submit(_stage_block, block, wanted, plan, out))
-                    while len(pending) > IN_FLIGHT:
-                        kept += pending.popleft().result()
-                    if on_block is not None:
-                        on_block(block.count(b"\n"))
+        with quads(item) as parser, reading(item):
+            for index in itertools.count():
+                block = ox.serialize(itertools.islice(parser, chunk), format=ox.RdfFormat.N_QUADS)
+                if not block:
+                    break
+                name = f"{prefix}-{index:07d}"
+                pending.append(pool.submit(_stage_block, block, wanted, plan, folder, name))
+                while len(pending) > IN_FLIGHT:
+                    kept += pending.popleft().result()
+                if on_block is not None:
+                    on_block(block.count(b"\n"), -1)
             while pending:
                 kept += pending.popleft().result()
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
-        out.close()
-    return out.paths, kept
+    return kept
