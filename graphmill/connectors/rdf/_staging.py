@@ -1,7 +1,6 @@
 """RDF files -> the quads a plan can use, staged as Parquet parts in bounded memory.
 
-Each file is parsed once as a stream (:func:`stage_stream`; line-based dumps may instead be
-cut into blocks parsed by several processes, :mod:`._chunks`): pyoxigraph's parser feeds its
+Each file is parsed once as a stream (:func:`stage_stream`): pyoxigraph's parser feeds its
 canonical N-Quads writer in blocks of :data:`CHUNK_QUADS` quads, and a worker thread reads
 each block into term columns (:func:`._terms.read_nquads`; Arrow releases the GIL, so parsing
 and reading overlap), keeps the quads of the selected graphs the plan can use, and writes
@@ -36,6 +35,7 @@ from graphmill.connectors.rdf._terms import read_nquads, read_tsv_results
 from graphmill.connectors.rdf._xsd import XSD, XSD_STRING
 
 CHUNK_QUADS = 250_000
+GRAPH_FORMATS = frozenset({"n-quads", "trig"})  # the formats that can name graphs
 IN_FLIGHT = 2  # blocks parsed ahead of the reading thread
 _PROBE = "urn:graphmill:literal"
 _TEXT = pa.string()
@@ -147,8 +147,10 @@ def write_parts(table: pa.Table, plan: RdfPlan, folder: Path, name: str) -> None
             pq.write_table(rows, folder / role / f"{name}.parquet", compression="lz4")
 
 
-def _stage_block(block: bytes, predicates: pa.Array, plan: RdfPlan, folder: Path, name: str) -> int:
-    table = read_nquads(block, predicates=predicates)
+def _stage_block(
+    block: bytes, predicates: pa.Array, graphs: bool, plan: RdfPlan, folder: Path, name: str
+) -> int:
+    table = read_nquads(block, predicates=predicates, graphs=graphs)
     write_parts(table, plan, folder, name)
     return table.num_rows
 
@@ -168,6 +170,7 @@ def stage_stream(
     ``on_block(quads, -1)`` follows each block of ``chunk`` quads."""
     ox = oxigraph()
     wanted = pa.array(predicates, _TEXT)
+    graphs = item.format in GRAPH_FORMATS
     pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="graphmill-rdf-stage")
     pending: deque[Future[int]] = deque()
     kept = 0
@@ -178,7 +181,7 @@ def stage_stream(
                 if not block:
                     break
                 name = f"{prefix}-{index:07d}"
-                pending.append(pool.submit(_stage_block, block, wanted, plan, folder, name))
+                pending.append(pool.submit(_stage_block, block, wanted, graphs, plan, folder, name))
                 while len(pending) > IN_FLIGHT:
                     kept += pending.popleft().result()
                 if on_block is not None:

@@ -10,7 +10,6 @@ stays bounded whatever the size of the dump; measured in ``bench/bench_rdf.py``.
 
 from __future__ import annotations
 
-import os
 import shutil
 import tempfile
 from collections.abc import Iterator
@@ -18,9 +17,8 @@ from pathlib import Path
 from typing import Any, ClassVar
 
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
-from graphmill.connectors.rdf._chunks import LINE_FORMATS, stage_in_parallel
 from graphmill.connectors.rdf._facts import FactParts
-from graphmill.connectors.rdf._files import RdfInput, file_details, spec_inputs
+from graphmill.connectors.rdf._files import file_details, spec_inputs
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
 from graphmill.connectors.rdf._staging import empty_parts, stage_stream, wanted_predicates
@@ -35,29 +33,15 @@ def work_folder(spec: PipelineSpec, purpose: str) -> Path:
     return Path(tempfile.mkdtemp(prefix=f".graphmill-{purpose}-", dir=where))
 
 
-PARALLEL_FROM = 64 << 20  # bytes on disk from which a line-based dump is parsed in parallel
-
-
-def auto_workers(item: RdfInput) -> int:
-    """Parsing processes for ``item``: two for a large line-based dump (two cores suffice:
-    this process cuts and decompresses, DuckDB follows), else one (in this process)."""
-    if item.format in LINE_FORMATS and item.path.stat().st_size >= PARALLEL_FROM:
-        return min(2, os.cpu_count() or 1)
-    return 1
-
-
 class RdfFileSource(GraphSource):
     """Stages ``source.paths`` on :meth:`open` and answers units from the parts."""
 
     kind: ClassVar[str] = "rdf-file"
     capabilities: ClassVar[SourceCapabilities] = SourceCapabilities()
 
-    def __init__(
-        self, spec: PipelineSpec, *, page_rows: int = DEFAULT_PAGE_ROWS, workers: int | None = None
-    ) -> None:
+    def __init__(self, spec: PipelineSpec, *, page_rows: int = DEFAULT_PAGE_ROWS) -> None:
         super().__init__(spec)
         self.page_rows = page_rows
-        self.workers = workers  # parsing processes for line-based dumps; None: auto_workers
         self.rdf = resolve(spec)
         self._facts: FactParts | None = None
         self._folder: Path | None = None
@@ -74,15 +58,7 @@ class RdfFileSource(GraphSource):
             predicates = wanted_predicates(self.rdf)
             self.quads_kept = 0
             for i, item in enumerate(inputs):
-                workers = self.workers if self.workers is not None else auto_workers(item)
-                if item.format in LINE_FORMATS and workers > 1:
-                    self.quads_kept += stage_in_parallel(
-                        item, self.rdf, predicates, folder, f"in{i:04d}", workers=workers
-                    )
-                else:
-                    self.quads_kept += stage_stream(
-                        item, self.rdf, predicates, folder, f"in{i:04d}"
-                    )
+                self.quads_kept += stage_stream(item, self.rdf, predicates, folder, f"in{i:04d}")
             self._facts = FactParts(parts, self.rdf, folder)
         except BaseException:
             self.close()
