@@ -65,8 +65,8 @@ class FactParts:
     def close(self) -> None:
         self.con.close()
 
-    def _rows(self, query: str, params: list[Any], rows: int = BATCH_ROWS) -> Iterator[pa.Table]:
-        reader = self.con.sql(query, params=params).to_arrow_reader(rows)
+    def _rows(self, query: str, params: list[Any], rows: int | None = None) -> Iterator[pa.Table]:
+        reader = self.con.sql(query, params=params).to_arrow_reader(rows or BATCH_ROWS)
         for batch in reader:
             if batch.num_rows:
                 yield _texts(pa.Table.from_batches([batch]))

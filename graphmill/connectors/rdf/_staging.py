@@ -162,13 +162,15 @@ def stage_stream(
     folder: Path,
     prefix: str,
     *,
-    chunk: int = CHUNK_QUADS,
+    chunk: int | None = None,
     on_block: Callable[[int, int], Any] | None = None,
 ) -> int:
     """Stage ``item`` (any format) in this process; return the quads with a wanted predicate.
 
-    ``on_block(quads, -1)`` follows each block of ``chunk`` quads."""
+    ``on_block(quads, -1)`` follows each block of ``chunk`` quads (default
+    :data:`CHUNK_QUADS`)."""
     ox = oxigraph()
+    chunk = chunk or CHUNK_QUADS
     wanted = pa.array(predicates, _TEXT)
     graphs = item.format in GRAPH_FORMATS
     pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="graphmill-rdf-stage")
