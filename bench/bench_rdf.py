@@ -143,10 +143,16 @@ def source_run(kind: str, data: Path, out: Path, merge: bool) -> dict[str, float
         stager.prepare()
         task = SilentProgress().task("bench")
         with source:
+            opened = time.perf_counter()
             units = source.plan()
             for unit in units:
                 stager.stage(unit, task)
         rows = sum(pq.read_metadata(p).num_rows for p in stager.parts(units))
+        return {
+            "seconds": time.perf_counter() - started,
+            "open_seconds": opened - started,
+            "rows": rows,
+        }
     return {"seconds": time.perf_counter() - started, "rows": rows}
 
 
@@ -161,6 +167,8 @@ def peak_rss_mib() -> float:
 def child(mode: str, data: Path, out: Path, merge: bool) -> None:
     result = bare_parse(data) if mode == "bare" else source_run(mode, data, out, merge)
     result["peak_rss_mib"] = peak_rss_mib()
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    result["cpu_seconds"] = usage.ru_utime + usage.ru_stime
     print(json.dumps(result))
 
 
@@ -226,9 +234,11 @@ def main() -> None:
                 continue
             got = bare if mode == "bare" else measure(mode, data, args.workdir / "out", args.merge)
             seconds[(mode + data.suffix, triples)] = got["seconds"]
+            opened = f"{got['open_seconds']:7.1f}" if "open_seconds" in got else " " * 7
             print(
-                f"{data.name:28} {mode:10} {got['seconds']:8.1f} "
+                f"{data.name:24} {mode:9} {got['seconds']:8.1f} {opened} "
                 f"{triples / got['seconds']:11,.0f} {bare['seconds'] / got['seconds']:7.2f} "
+                f"{got['cpu_seconds']:7.1f} {bare['cpu_seconds'] / got['cpu_seconds']:7.2f} "
                 f"{got['peak_rss_mib']:7,.0f} MiB",
                 flush=True,
             )

@@ -37,20 +37,20 @@ def _texts(table: pa.Table) -> pa.Table:
     return table.cast(pa.schema([(name, _TEXT) for name in table.column_names]))
 
 
-class FactParts:
-    """DuckDB over the staged parts of one plan; :meth:`unit_batches` answers a unit."""
+class FacetSorter:
+    """A DuckDB connection under ``memory_limit`` that spills into ``folder``; sorts property
+    facets by subject (:meth:`sorted_facet`) for answers read in batches."""
 
     def __init__(
         self,
-        parts: dict[str, Path],
-        plan: RdfPlan,
         folder: Path,
+        languages: tuple[str, ...] | None,
         *,
         memory_limit: str = MEMORY_LIMIT,
         threads: int = THREADS,
     ) -> None:
         duckdb = require("duckdb", "rdf")
-        self.plan = plan
+        self.languages = languages
         config = {
             "memory_limit": memory_limit,
             "threads": threads,
@@ -58,18 +58,61 @@ class FactParts:
             "preserve_insertion_order": False,
         }
         self.con: Any = duckdb.connect(":memory:", config=config)
-        for role, path in parts.items():
-            self.con.read_parquet(str(path)).create_view(role)
-        self._members: dict[str, str] = {}
 
     def close(self) -> None:
         self.con.close()
+
+    def sorted_facet(self, parts: str) -> tuple[set[str], Iterator[pa.Table]]:
+        """A facet's term tables (Parquet files ``parts``, a glob) as :meth:`FactParts.
+        unit_answer` gives them: the kinds of the whole facet, then whole-subject batches."""
+        self.con.execute("CREATE OR REPLACE TABLE facet AS SELECT * FROM read_parquet(?)", [parts])
+        return self._facet_kinds(), self._facet_rows()
 
     def _rows(self, query: str, params: list[Any], rows: int | None = None) -> Iterator[pa.Table]:
         reader = self.con.sql(query, params=params).to_arrow_reader(rows or BATCH_ROWS)
         for batch in reader:
             if batch.num_rows:
                 yield _texts(pa.Table.from_batches([batch]))
+
+    def _facet_rows(self) -> Iterator[pa.Table]:
+        try:
+            rows = self._rows(f"SELECT * FROM facet ORDER BY {VERTEX}", [])
+            yield from _whole_subjects(self._kept(rows))
+        finally:
+            self.con.execute("DROP TABLE IF EXISTS facet")
+
+    def _kept(self, batches: Iterator[pa.Table]) -> Iterator[pa.Table]:
+        for batch in batches:
+            keep = language_mask(
+                batch.column(VALUE + "_lang").combine_chunks(),
+                batch.column(VALUE + "_datatype").combine_chunks(),
+                self.languages,
+            )
+            yield batch.filter(keep)
+
+    def _facet_kinds(self) -> set[str]:
+        """The value kinds of the current facet (one well-typed, kept literal suffices)."""
+        found: set[str] = set()
+        datatypes = self.con.sql(f"SELECT DISTINCT {VALUE}_datatype FROM facet").fetchall()
+        for (datatype,) in datatypes:
+            query = f"SELECT * FROM facet WHERE {VALUE}_datatype = ?"
+            for batch in self._kept(self._rows(query, [datatype], _PROBE_ROWS)):
+                kinds = present_kinds(batch.column(VALUE), batch.column(VALUE + "_datatype"))
+                if kinds:
+                    found |= kinds
+                    break
+        return found
+
+
+class FactParts(FacetSorter):
+    """DuckDB over the staged parts of one plan; :meth:`unit_answer` answers a unit."""
+
+    def __init__(self, parts: dict[str, Path], plan: RdfPlan, folder: Path) -> None:
+        super().__init__(folder, plan.languages)
+        self.plan = plan
+        for role, path in parts.items():
+            self.con.read_parquet(str(path)).create_view(role)
+        self._members: dict[str, str] = {}
 
     def members(self, vertex_type: str) -> str:
         """The name of a table of the subjects of ``vertex_type`` (column ``s``), made once."""
@@ -126,35 +169,6 @@ class FactParts:
             [predicate],
         )
         return self._facet_kinds(), self._facet_rows()
-
-    def _facet_rows(self) -> Iterator[pa.Table]:
-        try:
-            rows = self._rows(f"SELECT * FROM facet ORDER BY {VERTEX}", [])
-            yield from _whole_subjects(self._kept(rows))
-        finally:
-            self.con.execute("DROP TABLE IF EXISTS facet")
-
-    def _kept(self, batches: Iterator[pa.Table]) -> Iterator[pa.Table]:
-        for batch in batches:
-            keep = language_mask(
-                batch.column(VALUE + "_lang").combine_chunks(),
-                batch.column(VALUE + "_datatype").combine_chunks(),
-                self.plan.languages,
-            )
-            yield batch.filter(keep)
-
-    def _facet_kinds(self) -> set[str]:
-        """The value kinds of the current facet (one well-typed, kept literal suffices)."""
-        found: set[str] = set()
-        datatypes = self.con.sql(f"SELECT DISTINCT {VALUE}_datatype FROM facet").fetchall()
-        for (datatype,) in datatypes:
-            query = f"SELECT * FROM facet WHERE {VALUE}_datatype = ?"
-            for batch in self._kept(self._rows(query, [datatype], _PROBE_ROWS)):
-                kinds = present_kinds(batch.column(VALUE), batch.column(VALUE + "_datatype"))
-                if kinds:
-                    found |= kinds
-                    break
-        return found
 
 
 def _whole_subjects(batches: Iterator[pa.Table]) -> Iterator[pa.Table]:

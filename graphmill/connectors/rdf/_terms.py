@@ -19,6 +19,7 @@ from __future__ import annotations
 import io
 import json
 import re
+from collections.abc import Iterator
 from typing import Any
 
 import pyarrow as pa
@@ -268,3 +269,41 @@ def read_nquads(
     out.update({"o" + k: v for k, v in split_terms(obj, where=where).items()})
     out.update({"g" + k: v for k, v in split_terms(graph, where=where).items()})
     return pa.table(out)
+
+
+TSV_BLOCK_BYTES = 8 << 20
+
+
+def read_tsv_file(
+    path: str, *, where: str = "SPARQL TSV results", block_bytes: int | None = None
+) -> Iterator[pa.Table]:
+    """A SPARQL 1.1 TSV results file -> term tables of about ``block_bytes`` each (default
+    :data:`TSV_BLOCK_BYTES`), streamed."""
+    with open(path, "rb") as fh:
+        header = fh.readline()
+    names = [v.strip() for v in header.decode("utf-8", "replace").rstrip("\r\n").split("\t")]
+    if not names or not all(re.fullmatch(r"[?$][A-Za-z0-9_]+", v) for v in names):
+        raise MalformedResponseError(
+            f"the first line is not a TSV results header: {header[:80]!r}", source=where
+        )
+    names = [v[1:] for v in names]
+    try:
+        reader = pacsv.open_csv(
+            path,
+            read_options=pacsv.ReadOptions(
+                column_names=names, skip_rows=1, block_size=block_bytes or TSV_BLOCK_BYTES
+            ),
+            parse_options=pacsv.ParseOptions(
+                delimiter="\t", quote_char=False, escape_char=False, double_quote=False
+            ),
+            convert_options=pacsv.ConvertOptions(
+                column_types=dict.fromkeys(names, pa.string()),
+                strings_can_be_null=True,
+                null_values=[""],
+            ),
+        )
+        for batch in reader:
+            if batch.num_rows:
+                yield _term_table({n: batch.column(n) for n in names}, where)
+    except pa.ArrowInvalid as exc:
+        raise MalformedResponseError(f"not a TSV results table: {exc}", source=where) from exc
