@@ -67,7 +67,9 @@ class Pipeline:
 
     def pull(self) -> PullInfo:
         """Extract the source into the staged snapshot (resuming an interrupted pull)."""
-        return _pull(self.spec, open_source(self.spec), progress=self.progress)
+        source = open_source(self.spec)
+        source.progress = self.progress  # for sources that report their own long work
+        return _pull(self.spec, source, progress=self.progress)
 
     def snapshot(self) -> Snapshot:
         return Snapshot.open(self.spec.output.snapshot)

@@ -91,11 +91,12 @@ class _Checked(io.RawIOBase):
 
 
 @contextlib.contextmanager
-def open_archive(path: Path, compression: str | None) -> Iterator[BinaryIO]:
-    """``path`` opened for reading, decompressed per ``compression`` (None: as it is)."""
+def open_archive(path: Path | BinaryIO, compression: str | None) -> Iterator[BinaryIO]:
+    """``path`` (or a binary file already open) read decompressed per ``compression`` (None:
+    as it is). The file's own position tells how much of the archive has been read."""
     errors: tuple[type[BaseException], ...] = (EOFError, zlib.error, lzma.LZMAError)
     with contextlib.ExitStack() as stack:
-        raw: Any = stack.enter_context(open(path, "rb"))
+        raw: Any = stack.enter_context(open(path, "rb")) if isinstance(path, Path) else path
         if compression is None:
             yield raw
             return

@@ -15,7 +15,9 @@ from pathlib import Path
 from typing import Any
 
 from graphmill._atomic import write_bytes_atomic
+from graphmill._progress import Progress, SilentProgress
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads
+from graphmill.connectors.rdf._reading import ReadingReport, counted
 from graphmill.errors import SourceUnavailableError, SpecError
 
 MARKER = "graphmill-store.json"
@@ -44,7 +46,9 @@ def _marker(folder: Path) -> dict[str, Any] | None:
     return loaded if isinstance(loaded, dict) else None
 
 
-def open_disk_store(folder: Path, inputs: list[RdfInput], *, shown: str = "") -> Any:
+def open_disk_store(
+    folder: Path, inputs: list[RdfInput], *, shown: str = "", progress: Progress | None = None
+) -> Any:
     """A pyoxigraph ``Store`` in ``folder`` holding exactly ``inputs`` (loading them if needed).
 
     ``shown`` is the folder as the spec names it (for messages). Raises SpecError when the
@@ -67,9 +71,10 @@ def open_disk_store(folder: Path, inputs: list[RdfInput], *, shown: str = "") ->
     write_bytes_atomic(folder / MARKER, json.dumps({"state": "loading", "inputs": key}).encode())
     store = _open(ox, folder, shown)
     for item in inputs:
-        with quads(item) as parser:
+        report = ReadingReport(progress or SilentProgress(), item, verb="load")
+        with quads(item, position=report.position) as parser:
             # bulk_extend keeps blank node labels as written; bulk_load renames them.
-            store.bulk_extend(parser)
+            store.bulk_extend(counted(parser, report))
     store.flush()
     write_bytes_atomic(folder / MARKER, json.dumps({"state": "loaded", "inputs": key}).encode())
     return store

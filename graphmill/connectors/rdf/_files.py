@@ -12,7 +12,7 @@ reports a line) and "fix the line or remove it"; a truncated or damaged archive 
 from __future__ import annotations
 
 import contextlib
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, BinaryIO
@@ -57,6 +57,11 @@ class RdfInput:
     @property
     def gzipped(self) -> bool:
         return self.compression == "gzip"
+
+    @property
+    def size(self) -> int:
+        """Bytes of the file as stored."""
+        return self.path.stat().st_size
 
 
 def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
@@ -152,24 +157,27 @@ def rdf_format(item: RdfInput) -> Any:
 
 
 @contextlib.contextmanager
-def opened(item: RdfInput) -> Iterator[BinaryIO]:
-    """``item``'s bytes, decompressed as they are read; errors as :func:`reading` gives them."""
-    with reading(item), open_archive(item.path, item.compression) as handle:
+def opened(item: RdfInput, raw: BinaryIO | None = None) -> Iterator[BinaryIO]:
+    """``item``'s bytes (read from ``raw`` if given), decompressed as they are read; errors as
+    :func:`reading` gives them."""
+    with reading(item), open_archive(raw or item.path, item.compression) as handle:
         yield handle
 
 
 @contextlib.contextmanager
-def quads(item: RdfInput) -> Iterator[Any]:
-    """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written)."""
+def quads(item: RdfInput, *, position: list[Callable[[], int]] | None = None) -> Iterator[Any]:
+    """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written).
+
+    ``position``, a list, receives a function telling how many bytes of the file (as stored,
+    compressed or not) have been read so far, for progress reports."""
     ox = oxigraph()
-    fmt = rdf_format(item)
     with contextlib.ExitStack() as stack:
         stack.enter_context(reading(item))
-        if item.compression:
-            handle = stack.enter_context(opened(item))
-            yield ox.parse(handle, format=fmt, lenient=False)
-        else:
-            yield ox.parse(path=str(item.path), format=fmt, lenient=False)
+        raw = stack.enter_context(open(item.path, "rb"))
+        if position is not None:
+            position.append(raw.tell)
+        handle = stack.enter_context(opened(item, raw))
+        yield ox.parse(handle, format=rdf_format(item), lenient=False)
 
 
 def file_details(inputs: list[RdfInput]) -> list[dict[str, Any]]:

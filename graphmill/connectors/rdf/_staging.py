@@ -20,10 +20,9 @@ from __future__ import annotations
 
 import itertools
 from collections import deque
-from collections.abc import Callable, Iterable
+from collections.abc import Iterable
 from concurrent.futures import Future, ThreadPoolExecutor
 from pathlib import Path
-from typing import Any
 
 import pyarrow as pa
 import pyarrow.compute as pc
@@ -31,6 +30,7 @@ import pyarrow.parquet as pq
 
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads, reading
 from graphmill.connectors.rdf._plan import RDF_TYPE, RdfPlan
+from graphmill.connectors.rdf._reading import ReadingReport
 from graphmill.connectors.rdf._terms import read_nquads, read_tsv_results
 from graphmill.connectors.rdf._xsd import XSD, XSD_STRING
 
@@ -163,12 +163,11 @@ def stage_stream(
     prefix: str,
     *,
     chunk: int | None = None,
-    on_block: Callable[[int, int], Any] | None = None,
+    report: ReadingReport | None = None,
 ) -> int:
     """Stage ``item`` (any format) in this process; return the quads with a wanted predicate.
 
-    ``on_block(quads, -1)`` follows each block of ``chunk`` quads (default
-    :data:`CHUNK_QUADS`)."""
+    Blocks hold ``chunk`` quads (default :data:`CHUNK_QUADS`); each is told to ``report``."""
     ox = oxigraph()
     chunk = chunk or CHUNK_QUADS
     wanted = pa.array(predicates, _TEXT)
@@ -177,7 +176,8 @@ def stage_stream(
     pending: deque[Future[int]] = deque()
     kept = 0
     try:
-        with quads(item) as parser, reading(item):
+        position = report.position if report is not None else None
+        with quads(item, position=position) as parser, reading(item):
             for index in itertools.count():
                 block = ox.serialize(itertools.islice(parser, chunk), format=ox.RdfFormat.N_QUADS)
                 if not block:
@@ -186,8 +186,8 @@ def stage_stream(
                 pending.append(pool.submit(_stage_block, block, wanted, graphs, plan, folder, name))
                 while len(pending) > IN_FLIGHT:
                     kept += pending.popleft().result()
-                if on_block is not None:
-                    on_block(block.count(b"\n"), -1)
+                if report is not None:
+                    report.update(block.count(b"\n"))
             while pending:
                 kept += pending.popleft().result()
     finally:

@@ -21,6 +21,7 @@ from graphmill.connectors.rdf._facts import FactParts
 from graphmill.connectors.rdf._files import file_details, spec_inputs
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
+from graphmill.connectors.rdf._reading import ReadingReport
 from graphmill.connectors.rdf._staging import empty_parts, stage_stream, wanted_predicates
 from graphmill.errors import GraphmillError
 from graphmill.spec import PipelineSpec
@@ -58,7 +59,10 @@ class RdfFileSource(GraphSource):
             predicates = wanted_predicates(self.rdf)
             self.quads_kept = 0
             for i, item in enumerate(inputs):
-                self.quads_kept += stage_stream(item, self.rdf, predicates, folder, f"in{i:04d}")
+                report = ReadingReport(self.progress, item)
+                self.quads_kept += stage_stream(
+                    item, self.rdf, predicates, folder, f"in{i:04d}", report=report
+                )
             self._facts = FactParts(parts, self.rdf, folder)
         except BaseException:
             self.close()

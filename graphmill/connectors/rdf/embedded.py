@@ -29,6 +29,7 @@ from graphmill.connectors.rdf._files import file_details, oxigraph, quads, spec_
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
 from graphmill.connectors.rdf._queries import CLASH, unit_query
+from graphmill.connectors.rdf._reading import ReadingReport, counted
 from graphmill.connectors.rdf._terms import read_tsv_file, read_tsv_results
 from graphmill.connectors.rdf.dump import work_folder
 from graphmill.errors import GraphmillError, SourceServerError
@@ -63,16 +64,19 @@ class EmbeddedStoreSource(GraphSource):
         if not self.on_disk:
             store = oxigraph().Store()
             for item in inputs:
-                with quads(item) as parser:
+                report = ReadingReport(self.progress, item, verb="load")
+                with quads(item, position=report.position) as parser:
                     # bulk_extend keeps blank node labels as written; bulk_load renames them.
-                    store.bulk_extend(parser)
+                    store.bulk_extend(counted(parser, report))
             self._store = store
             self.quads_loaded = len(store)
             return
         self._folder = work_folder(self.spec, "rdf-store")
         try:
             location = self.spec.resolve_path(named) if named else self._folder / "store"
-            self._store = open_disk_store(location, inputs, shown=named or "")
+            self._store = open_disk_store(
+                location, inputs, shown=named or "", progress=self.progress
+            )
             self.quads_loaded = len(self._store)
             self._sorter = FacetSorter(self._folder, self.rdf.languages)
         except BaseException:
