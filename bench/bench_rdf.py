@@ -225,7 +225,8 @@ def main() -> None:
         runs.append((gzipped(runs[-1][0]), sizes[-1]))
     seconds: dict[tuple[str, int], float] = {}
     print(
-        f"{'input':28} {'mode':10} {'seconds':>8} {'triples/s':>11} {'x bare':>7} {'peak RSS':>10}"
+        f"{'input':24} {'mode':9} {'seconds':>8} {'(open)':>7} {'triples/s':>11} {'x bare':>7} "
+        f"{'CPU s':>7} {'x bare':>7} {'peak RSS':>10}"
     )
     for data, triples in runs:
         bare = measure("bare", data, args.workdir / "out", False)
