@@ -17,7 +17,7 @@ from typing import Any
 from graphmill._atomic import write_bytes_atomic
 from graphmill._progress import Progress, SilentProgress
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads
-from graphmill.connectors.rdf._reading import ReadingReport, counted
+from graphmill.connectors.rdf._reading import ReadingReport, quad_blocks
 from graphmill.errors import SourceUnavailableError, SpecError
 
 MARKER = "graphmill-store.json"
@@ -74,7 +74,8 @@ def open_disk_store(
         report = ReadingReport(progress or SilentProgress(), item, verb="load")
         with quads(item, position=report.position) as parser:
             # bulk_extend keeps blank node labels as written; bulk_load renames them.
-            store.bulk_extend(counted(parser, report))
+            for block in quad_blocks(parser, report):
+                store.bulk_extend(block)
     store.flush()
     write_bytes_atomic(folder / MARKER, json.dumps({"state": "loaded", "inputs": key}).encode())
     return store

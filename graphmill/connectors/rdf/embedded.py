@@ -29,7 +29,7 @@ from graphmill.connectors.rdf._files import file_details, oxigraph, quads, spec_
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
 from graphmill.connectors.rdf._queries import CLASH, unit_query
-from graphmill.connectors.rdf._reading import ReadingReport, counted
+from graphmill.connectors.rdf._reading import ReadingReport, quad_blocks
 from graphmill.connectors.rdf._terms import read_tsv_file, read_tsv_results
 from graphmill.connectors.rdf.dump import work_folder
 from graphmill.errors import GraphmillError, SourceServerError
@@ -67,7 +67,8 @@ class EmbeddedStoreSource(GraphSource):
                 report = ReadingReport(self.progress, item, verb="load")
                 with quads(item, position=report.position) as parser:
                     # bulk_extend keeps blank node labels as written; bulk_load renames them.
-                    store.bulk_extend(counted(parser, report))
+                    for block in quad_blocks(parser, report):
+                        store.bulk_extend(block)
             self._store = store
             self.quads_loaded = len(store)
             return
