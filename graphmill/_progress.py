@@ -12,6 +12,8 @@ from typing import Protocol
 class ProgressTask(Protocol):
     def advance(self, amount: int = 1) -> None: ...
 
+    def describe(self, description: str) -> None: ...
+
 
 class Progress(Protocol):
     def task(self, description: str, total: int | None = None) -> ProgressTask: ...
@@ -19,6 +21,9 @@ class Progress(Protocol):
 
 class _SilentTask:
     def advance(self, amount: int = 1) -> None:
+        return None
+
+    def describe(self, description: str) -> None:
         return None
 
 
@@ -36,6 +41,10 @@ class _RichTask:
     def advance(self, amount: int = 1) -> None:
         with self._lock:
             self._bar.advance(self._id, amount)  # type: ignore[attr-defined]
+
+    def describe(self, description: str) -> None:
+        with self._lock:
+            self._bar.update(self._id, description=description)  # type: ignore[attr-defined]
 
 
 class RichProgress:
@@ -61,6 +70,7 @@ def progress_for_terminal(enabled: bool | None = None) -> Iterator[Progress]:
         MofNCompleteColumn,
         TextColumn,
         TimeElapsedColumn,
+        TimeRemainingColumn,
     )
     from rich.progress import Progress as RichBar
 
@@ -69,6 +79,7 @@ def progress_for_terminal(enabled: bool | None = None) -> Iterator[Progress]:
         BarColumn(),
         MofNCompleteColumn(),
         TimeElapsedColumn(),
+        TimeRemainingColumn(),
         transient=True,
     ) as bar:
         yield RichProgress(bar)

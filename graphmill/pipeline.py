@@ -116,7 +116,9 @@ class Pipeline:
         log.info("pull: %s source into %s", self.spec.source_kind, self.spec.output.snapshot)
         snapshot = self.spec.output.snapshot
         with output_errors("output.snapshot", snapshot, Path(f"{snapshot}.staging")):
-            info = _pull(self.spec, open_source(self.spec), progress=self.progress, fresh=fresh)
+            source = open_source(self.spec)
+            source.progress = self.progress  # for sources that report their own long work
+            info = _pull(self.spec, source, progress=self.progress, fresh=fresh)
         log.info(
             "pull: %s (%d resumed), %s",
             plural(info.units_total, "work unit"),

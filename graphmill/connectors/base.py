@@ -43,6 +43,7 @@ from typing import Any, ClassVar, Literal
 
 import pyarrow as pa
 
+from graphmill._progress import Progress, SilentProgress
 from graphmill.spec import PipelineSpec, RelationKey
 
 VERTEX_ID = "vertex_id"
@@ -113,6 +114,8 @@ class GraphSource(ABC):
 
     kind: ClassVar[str]
     capabilities: ClassVar[SourceCapabilities] = SourceCapabilities()
+    #: where a source may report long work of its own (parsing, loading); set by the pipeline
+    progress: Progress = SilentProgress()
 
     def __init__(self, spec: PipelineSpec) -> None:
         self.spec = spec

@@ -1,22 +1,24 @@
 """RDF files named by a spec: formats, streaming parse, and errors that name file and line.
 
 Formats come from ``source.format`` or the extension (``.nt`` ``.nq`` ``.ttl`` ``.trig``
-``.rdf``/``.owl``/``.xml``; a further ``.gz`` is read through gzip). pyoxigraph reads all of
-them (strictly: ``lenient=False``), so rdflib is not needed. A file that cannot be opened is a
-:class:`SourceUnavailableError`; content that does not parse is an :class:`InputError` with
-``file:line`` (when the parser reports a line) and "fix the line or remove it".
+``.rdf``/``.owl``/``.xml``); a further ``.gz``, ``.bz2``, ``.xz`` or ``.zst`` is decompressed
+as a stream (:mod:`._archives`). pyoxigraph reads all of them (strictly: ``lenient=False``),
+so rdflib is not needed. A file that cannot be opened is a :class:`SourceUnavailableError`;
+content that does not parse is an :class:`InputError` with ``file:line`` (when the parser
+reports a line) and "fix the line or remove it"; a truncated or damaged archive is an
+:class:`InputError` naming the file.
 """
 
 from __future__ import annotations
 
 import contextlib
-import gzip
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, BinaryIO
 
 from graphmill._atomic import sha256_file
+from graphmill.connectors.rdf._archives import COMPRESSIONS, ArchiveError, open_archive
 from graphmill.errors import InputError, SourceUnavailableError, SpecError, require
 from graphmill.spec import PipelineSpec
 
@@ -50,7 +52,16 @@ class RdfInput:
     path: Path
     shown: str
     format: str
-    gzipped: bool
+    compression: str | None = None  # "gzip", "bzip2", "xz" or "zstd"
+
+    @property
+    def gzipped(self) -> bool:
+        return self.compression == "gzip"
+
+    @property
+    def size(self) -> int:
+        """Bytes of the file as stored."""
+        return self.path.stat().st_size
 
 
 def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
@@ -60,8 +71,8 @@ def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
     for i, shown in enumerate(spec.source["paths"]):
         path = spec.resolve_path(shown)
         suffixes = [s.lower() for s in path.suffixes]
-        gzipped = bool(suffixes) and suffixes[-1] == ".gz"
-        ext = suffixes[-2] if gzipped and len(suffixes) > 1 else (suffixes[-1] if suffixes else "")
+        compression = COMPRESSIONS.get(suffixes[-1]) if suffixes else None
+        ext = (suffixes[-2] if len(suffixes) > 1 else "") if compression else (suffixes or [""])[-1]
         fmt = declared or EXTENSIONS.get(ext)
         if fmt is None:
             raise SpecError(
@@ -70,7 +81,7 @@ def spec_inputs(spec: PipelineSpec) -> list[RdfInput]:
                 hint=f"set source.format or use one of {', '.join(EXTENSIONS)}",
             )
         check_readable(path, shown)
-        inputs.append(RdfInput(path, shown, fmt, gzipped))
+        inputs.append(RdfInput(path, shown, fmt, compression))
     return inputs
 
 
@@ -97,12 +108,18 @@ def check_readable(path: Path, shown: str) -> None:
         ) from exc
 
 
-def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
+def syntax_details(exc: SyntaxError) -> tuple[str, int | None, int | None]:
+    """(reason, line, column) of a pyoxigraph parser error."""
     text = str(exc.args[0]) if exc.args else str(exc)
     reason = text.split(": ", 1)[1] if text.startswith("Parser error") and ": " in text else text
     position = exc.args[1] if len(exc.args) > 1 and isinstance(exc.args[1], tuple) else ()
     line = exc.lineno if isinstance(exc.lineno, int) else None
     column = position[2] if len(position) > 2 and isinstance(position[2], int) else None
+    return reason, line, column
+
+
+def syntax_error(item: RdfInput, reason: str, line: int | None, column: int | None) -> InputError:
+    """The InputError for content of ``item`` that does not parse."""
     if "dot" in reason and column == 1 and line is not None and line > 1:
         # the parser notices a missing final dot at the next statement: name the line
         # that lacks it instead
@@ -119,9 +136,8 @@ def _syntax_error(exc: SyntaxError, item: RdfInput) -> InputError:
 
 def _previous_statement_line(item: RdfInput, line: int) -> int:
     """The last line before ``line`` that holds more than blanks and comments."""
-    opener = gzip.open if item.gzipped else open
     found = line - 1
-    with opener(item.path, "rb") as fh:
+    with opened(item) as fh:
         for number, text in enumerate(fh, start=1):
             if number >= line:
                 break
@@ -136,14 +152,21 @@ def reading(item: RdfInput) -> Iterator[None]:
     try:
         yield
     except SyntaxError as exc:
-        raise _syntax_error(exc, item) from exc
+        raise syntax_error(item, *syntax_details(exc)) from exc
     except MemoryError as exc:
         if "buffer maximal size" not in str(exc):
             raise
         raise _oversized_term(item) from exc
-    except (gzip.BadGzipFile, EOFError, UnicodeDecodeError) as exc:
+    except (ArchiveError, EOFError) as exc:
         raise InputError(
-            f"not a readable gzip file: {exc}", file=item.shown, hint="check the download"
+            f"not a readable {item.compression or 'compressed'} file: {exc}",
+            file=item.shown,
+            hint="the archive is truncated or damaged: download it again, or test it with "
+            "the tool that made it",
+        ) from exc
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"not UTF-8 text: {exc}", file=item.shown, hint="convert the file to UTF-8"
         ) from exc
     except OSError as exc:
         raise SourceUnavailableError(f"cannot read the file: {exc}", file=item.shown) from exc
@@ -155,9 +178,8 @@ TERM_LIMIT = 16 << 20
 
 def _oversized_term(item: RdfInput) -> InputError:
     """The parser's buffer overflowed: name the first line that is too long, if one is."""
-    opener = gzip.open if item.gzipped else open
     line = None
-    with opener(item.path, "rb") as fh:
+    with opened(item) as fh:
         for number, text in enumerate(fh, start=1):
             if len(text) >= TERM_LIMIT:
                 line = number
@@ -171,18 +193,33 @@ def _oversized_term(item: RdfInput) -> InputError:
     )
 
 
+def rdf_format(item: RdfInput) -> Any:
+    """The pyoxigraph ``RdfFormat`` of ``item``."""
+    return getattr(oxigraph().RdfFormat, FORMAT_NAMES[item.format])
+
+
 @contextlib.contextmanager
-def quads(item: RdfInput) -> Iterator[Any]:
-    """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written)."""
+def opened(item: RdfInput, raw: BinaryIO | None = None) -> Iterator[BinaryIO]:
+    """``item``'s bytes (read from ``raw`` if given), decompressed as they are read; errors as
+    :func:`reading` gives them."""
+    with reading(item), open_archive(raw or item.path, item.compression) as handle:
+        yield handle
+
+
+@contextlib.contextmanager
+def quads(item: RdfInput, *, position: list[Callable[[], int]] | None = None) -> Iterator[Any]:
+    """A streaming pyoxigraph parser over ``item`` (blank node labels kept as written).
+
+    ``position``, a list, receives a function telling how many bytes of the file (as stored,
+    compressed or not) have been read so far, for progress reports."""
     ox = oxigraph()
-    fmt = getattr(ox.RdfFormat, FORMAT_NAMES[item.format])
     with contextlib.ExitStack() as stack:
         stack.enter_context(reading(item))
-        if item.gzipped:
-            handle = stack.enter_context(gzip.open(item.path, "rb"))
-            yield ox.parse(handle, format=fmt, lenient=False)
-        else:
-            yield ox.parse(path=str(item.path), format=fmt, lenient=False)
+        raw = stack.enter_context(open(item.path, "rb"))
+        if position is not None:
+            position.append(raw.tell)
+        handle = stack.enter_context(opened(item, raw))
+        yield ox.parse(handle, format=rdf_format(item), lenient=False)
 
 
 def file_details(inputs: list[RdfInput]) -> list[dict[str, Any]]:

@@ -71,21 +71,42 @@ def _check_clashes(terms: pa.Table, plan: RdfPlan, vertex_type: str) -> None:
     )
 
 
+def _present(read: LiteralValues) -> set[str]:
+    return {k for k in read.values if k in pc.unique(read.kinds).to_pylist()}
+
+
+def present_kinds(lexical: pa.Array, datatype: pa.Array) -> set[str]:
+    """The value kinds with at least one well-typed literal among ``lexical``/``datatype``."""
+    return _present(literal_values(lexical, datatype))
+
+
 def typed_values(
     lexical: pa.Array,
     datatype: pa.Array,
     lang: pa.Array | None = None,
     declared: str | None = None,
+    *,
+    present: set[str] | None = None,
 ) -> tuple[pa.Array, pa.Array, pa.Array]:
     """(values, kinds, identity) of literals, with one column type for all (module doc).
 
     ``identity`` is a string equal for equal values of one kind, used to drop repeats. A
     ``declared`` kind applies the gate of :mod:`graphmill.connectors._declared`: literals of
     other kinds become ``ill-typed`` (null); under ``string`` every literal is its lexical form.
+    ``present`` (default: those of these literals) are the kinds the column type is chosen
+    for, so that a unit read in batches gets one type (see :func:`present_kinds`); a declared
+    kind fixes the column type by itself.
     """
     read = _declared_read(literal_values(lexical, datatype), lexical, declared)
     lang = pa.nulls(len(lexical), pa.string()) if lang is None else lang
-    present = {k for k in read.values if k in pc.unique(read.kinds).to_pylist()}
+    if declared is not None and declared in KIND_TO_ARROW:
+        present = {declared}  # a declared kind fixes the column type, in every batch
+    elif present is None:
+        present = _present(read)
+    else:  # kinds seen elsewhere in the unit: null here
+        present = set(present)
+        missing = {k: pa.nulls(len(lexical), KIND_TO_ARROW[k]) for k in present - set(read.values)}
+        read = LiteralValues(kinds=read.kinds, values={**read.values, **missing})
     rendered = {k: conform(v, pa.string()) for k, v in read.values.items()}
     # Strings are equal only with equal datatype and language tag (RDF 1.1 Concepts, 3.3);
     # ill-typed literals only as terms; typed values by value.
@@ -143,8 +164,11 @@ def _distinct_values(
     return grouped.rename_columns([*keys, "value", "raw"])
 
 
-def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table, pa.Array | None]:
-    """The unit's rows in the snapshot convention, and each row's value kind (facets only)."""
+def unit_table(
+    plan: RdfPlan, unit: WorkUnit, terms: pa.Table, *, present: set[str] | None = None
+) -> tuple[pa.Table, pa.Array | None]:
+    """The unit's rows in the snapshot convention, and each row's value kind (facets only);
+    ``present`` as for :func:`typed_values`."""
     if unit.table == "edges":
         table = pa.table({SOURCE_ID: _column(terms, SOURCE), TARGET_ID: _column(terms, TARGET)})
         return table, None
@@ -160,7 +184,11 @@ def unit_table(plan: RdfPlan, unit: WorkUnit, terms: pa.Table) -> tuple[pa.Table
     lexical = _column(terms, VALUE)
     declared = plan.kinds.get((unit.name, unit.facet))
     values, kinds, identity = typed_values(
-        lexical, _column(terms, VALUE + "_datatype"), _column(terms, VALUE + "_lang"), declared
+        lexical,
+        _column(terms, VALUE + "_datatype"),
+        _column(terms, VALUE + "_lang"),
+        declared,
+        present=present,
     )
     distinct = _distinct_values(ids, values, kinds, identity, ill_typed_raw(lexical, kinds))
     table = pa.table(
@@ -183,10 +211,19 @@ def _kind_counts(kinds: pa.Array) -> dict[str, int]:
 
 
 def unit_pages(
-    plan: RdfPlan, unit: WorkUnit, terms: pa.Table, *, page_rows: int = DEFAULT_PAGE_ROWS
+    plan: RdfPlan,
+    unit: WorkUnit,
+    terms: pa.Table,
+    *,
+    page_rows: int = DEFAULT_PAGE_ROWS,
+    present: set[str] | None = None,
 ) -> Iterator[Page]:
-    """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds."""
-    table, kinds = unit_table(plan, unit, terms)
+    """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds.
+
+    ``terms`` may be one batch of a unit read in batches: then pass the unit's ``present``
+    kinds, and keep each subject's facet rows in one batch (values are made distinct per
+    subject within a batch)."""
+    table, kinds = unit_table(plan, unit, terms, present=present)
     table = table.combine_chunks()
     for start in range(0, table.num_rows, page_rows):
         batch = table.slice(start, page_rows).to_batches()[0]

@@ -19,6 +19,7 @@ from __future__ import annotations
 import io
 import json
 import re
+from collections.abc import Iterator
 from typing import Any
 
 import pyarrow as pa
@@ -45,6 +46,14 @@ _GRAPH_TAIL = r' (?P<g><[^<>"\s]*>|_:[^\s"\\<>]+)$'
 
 def _flat(array: pa.Array | pa.ChunkedArray) -> pa.Array:
     return array.combine_chunks() if isinstance(array, pa.ChunkedArray) else array
+
+
+def _byte_slice(text: pa.Array, start: int, stop: int | None = None) -> pa.Array:
+    """``text`` sliced by bytes (no UTF-8 decoding): only for cutting ASCII delimiters."""
+    raw = text.view(pa.binary())
+    if stop is None:  # (None overflows the kernel's size estimate on long arrays)
+        stop = (pc.max(pc.binary_length(raw)).as_py() or 0) + 1
+    return pc.binary_slice(raw, start, stop).view(pa.string())
 
 
 def _decode_uchars(text: str) -> str:
@@ -101,7 +110,7 @@ def _literals(cells: pa.Array, quote: str, where: str) -> tuple[pa.Array, pa.Arr
     tag, dt = pc.struct_field(tail, "lang"), pc.struct_field(tail, "dt")
     tagged = pc.greater(pc.utf8_length(tag), 0)
     dt = pc.if_else(tagged, RDF_LANG_STRING, pc.if_else(pc.equal(dt, ""), XSD_STRING, dt))
-    return unescape(pc.utf8_slice_codeunits(head, 1)), dt, tag
+    return unescape(_byte_slice(head, 1)), dt, tag
 
 
 def split_terms(cells: pa.Array, *, where: str = "SPARQL results") -> dict[str, pa.Array]:
@@ -109,10 +118,10 @@ def split_terms(cells: pa.Array, *, where: str = "SPARQL results") -> dict[str, 
     cells = _flat(cells)
     n = len(cells)
     value = kind = datatype = lang = pa.nulls(n, pa.string())
-    first = pc.utf8_slice_codeunits(cells, 0, 1)
+    first = _byte_slice(cells, 0, 1)
     is_iri = pc.fill_null(pc.and_(pc.equal(first, "<"), pc.ends_with(cells, ">")), False)
     if pc.any(is_iri).as_py():
-        iris = unescape(pc.utf8_slice_codeunits(cells.filter(is_iri), 1, -1))
+        iris = unescape(_byte_slice(cells.filter(is_iri), 1, -1))
         value, kind = _scatter(is_iri, iris, value), _scatter(is_iri, "iri", kind)
     is_blank = pc.fill_null(pc.starts_with(cells, "_:"), False)
     value, kind = pc.if_else(is_blank, cells, value), _scatter(is_blank, "blank", kind)
@@ -237,32 +246,75 @@ def read_json_results(data: bytes | str, *, where: str = "SPARQL JSON results") 
     return pa.table(out) if out else pa.table({})
 
 
-def read_nquads(data: bytes, *, predicates: pa.Array | None = None) -> pa.Table:
+def read_nquads(
+    data: bytes, *, predicates: pa.Array | None = None, graphs: bool = True
+) -> pa.Table:
     """Canonical N-Quads (one quad a line, as Oxigraph writes them) -> columns ``s*``, ``p``,
     ``o*``, ``g*`` (term tables; ``g`` null in the default graph).
 
-    ``predicates`` (IRIs) keeps only quads with those predicates, before objects are parsed.
+    ``predicates`` (IRIs) keeps only quads with those predicates, before objects are parsed;
+    ``graphs=False`` says that no line names a graph (N-Triples), which skips looking.
     """
     offsets = pa.array([0, len(data)], pa.int32())
     text = pa.StringArray.from_buffers(1, offsets.buffers()[1], pa.py_buffer(data))
     text.validate(full=True)  # UTF-8
     lines = pc.list_flatten(pc.split_pattern(text, pattern="\n"))
-    lines = lines.filter(pc.greater(pc.utf8_length(lines), 0))
+    lines = lines.filter(pc.greater(pc.binary_length(lines), 0))
     parts = pc.split_pattern(lines, pattern=" ", max_splits=2)
     subject = pc.list_element(parts, 0)
-    predicate = pc.utf8_slice_codeunits(pc.list_element(parts, 1), 1, -1)
+    predicate = _byte_slice(pc.list_element(parts, 1), 1, -1)
     rest = pc.list_element(parts, 2)
     if predicates is not None:
         keep = pc.is_in(predicate, value_set=predicates)
         subject, predicate, rest = subject.filter(keep), predicate.filter(keep), rest.filter(keep)
-    rest = pc.utf8_slice_codeunits(rest, 0, -2)  # the closing " ."
-    # The graph, if any, is the last space-separated token: no object can end in one.
-    found = pc.extract_regex(rest, _GRAPH_TAIL)
-    graph = pc.struct_field(found, "g")
-    obj = pc.replace_substring_regex(rest, pattern=_GRAPH_TAIL, replacement="")
+    rest = _byte_slice(rest, 0, -2)  # the closing " ."
+    if graphs:
+        # The graph, if any, is the last space-separated token: no object can end in one.
+        graph = pc.struct_field(pc.extract_regex(rest, _GRAPH_TAIL), "g")
+        obj = pc.replace_substring_regex(rest, pattern=_GRAPH_TAIL, replacement="")
+    else:
+        graph, obj = pa.nulls(len(rest), pa.string()), rest
     where = "N-Quads"
     out = {"s" + k: v for k, v in split_terms(subject, where=where).items()}
     out["p"] = predicate
     out.update({"o" + k: v for k, v in split_terms(obj, where=where).items()})
     out.update({"g" + k: v for k, v in split_terms(graph, where=where).items()})
     return pa.table(out)
+
+
+TSV_BLOCK_BYTES = 8 << 20
+
+
+def read_tsv_file(
+    path: str, *, where: str = "SPARQL TSV results", block_bytes: int | None = None
+) -> Iterator[pa.Table]:
+    """A SPARQL 1.1 TSV results file -> term tables of about ``block_bytes`` each (default
+    :data:`TSV_BLOCK_BYTES`), streamed."""
+    with open(path, "rb") as fh:
+        header = fh.readline()
+    names = [v.strip() for v in header.decode("utf-8", "replace").rstrip("\r\n").split("\t")]
+    if not names or not all(re.fullmatch(r"[?$][A-Za-z0-9_]+", v) for v in names):
+        raise MalformedResponseError(
+            f"the first line is not a TSV results header: {header[:80]!r}", source=where
+        )
+    names = [v[1:] for v in names]
+    try:
+        reader = pacsv.open_csv(
+            path,
+            read_options=pacsv.ReadOptions(
+                column_names=names, skip_rows=1, block_size=block_bytes or TSV_BLOCK_BYTES
+            ),
+            parse_options=pacsv.ParseOptions(
+                delimiter="\t", quote_char=False, escape_char=False, double_quote=False
+            ),
+            convert_options=pacsv.ConvertOptions(
+                column_types=dict.fromkeys(names, pa.string()),
+                strings_can_be_null=True,
+                null_values=[""],
+            ),
+        )
+        for batch in reader:
+            if batch.num_rows:
+                yield _term_table({n: batch.column(n) for n in names}, where)
+    except pa.ArrowInvalid as exc:
+        raise MalformedResponseError(f"not a TSV results table: {exc}", source=where) from exc
