@@ -16,15 +16,18 @@ CARD_FILE = "card.html"
 
 def card_html(root: Path, manifest: dict[str, Any]) -> str:
     """The card of the bundle in ``root`` whose (verified) manifest is ``manifest``."""
-    from graphmill.card import _more, _page
+    from graphmill.card import _more, _page, _tasks
 
     sections = [
         _page.counts_section(manifest),
         _page.schema_section(manifest),
         _page.degree_section(root, manifest),
         _page.split_section(root, manifest),
+        _tasks.task_section(manifest),
         _page.features_section(root, manifest),
+        _tasks.edge_features_section(manifest),
         _page.checks_section(manifest),
+        _tasks.leakage_section(manifest),
         _more.comparison_section(manifest),
         _more.provenance_section(manifest),
         _more.privacy_section(),

@@ -138,6 +138,9 @@ def split_section(root: Path, m: dict[str, Any]) -> str:
         f"<p>{escape(split['method'])} split, seed {split['seed']}, "
         f"{escape(split['generator'])}.</p>" + table(["part", "vertices", "fraction"], rows)
     )
+    from graphmill.card._tasks import shares_table
+
+    body += shares_table(m)
     balance = class_balance(root, m)
     if balance:
         classes = sorted({c for per in balance.values() for c in per})

@@ -145,8 +145,10 @@ def test_card_renders_every_plot_and_the_manifest_numbers(
         "validation/counts/warning",
         "comparison/vertex_types/person/added",
     } <= set(tagged)
+    shares = [p for p in tagged if p.startswith("split/achieved_shares/")]
+    assert len(shares) == 3 * len(manifest["split"]["achieved_shares"]) > 0
     for path, text in tagged.items():
-        assert int(text.replace(",", "")) == _lookup(manifest, path), path
+        assert _equal(text, _lookup(manifest, path)), path
 
 
 def test_the_built_card_is_hashed_and_shows_the_comparison(bundles) -> None:
@@ -162,3 +164,54 @@ def test_the_built_card_is_hashed_and_shows_the_comparison(bundles) -> None:
         and "http://" not in html.replace('xmlns="http://www.w3.org/2000/svg"', "")
     )
     assert "Changes since" not in (old / CARD_FILE).read_text()
+
+
+def _links_bundle(root: Path) -> Path:
+    """A links task on the shop graph of the leakage tests (a parallel relation, so the audit
+    has a finding), with an encoded edge property on the split relation."""
+    from tests.transform.test_leakage import shop_document, shop_tables
+
+    tables = shop_tables()
+    stocks = tables["shop.stocks.item"]
+    amounts = pa.array([float(i % 7) for i in range(stocks.num_rows)], pa.float64())
+    tables["shop.stocks.item"] = stocks.append_column("amount", amounts)
+    document = shop_document(root)
+    document["relations"][0]["properties"] = {"amount": {"kind": "float"}}
+    document["edge_features"] = {
+        "shop.stocks.item": [{"property": "amount", "encoding": "standardize"}]
+    }
+    spec, snapshot = publish(document, tables)
+    build_bundle(spec, snapshot)
+    return spec.output.bundle
+
+
+def _equal(text: str, value: Any) -> bool:
+    shown = float(text.replace(",", ""))
+    if isinstance(value, int):
+        return shown == value
+    return shown == pytest.approx(value, rel=1e-3, abs=1e-4)  # the card shows 4 digits
+
+
+def test_the_card_shows_the_task_edge_parts_leakage_and_edge_features(
+    chromium, tmp_path: Path
+) -> None:
+    bundle = _links_bundle(tmp_path / "links")
+    manifest = json.loads((bundle / "manifest.json").read_text())
+    seen = _inspect(chromium, bundle / CARD_FILE)
+    assert seen["problems"] == []
+    tagged = dict(seen["numbers"])
+    stocks = "relations/shop.stocks.item"
+    expected = {
+        f"{stocks}/link_split/sizes/{p}"
+        for p in manifest["relations"]["shop.stocks.item"]["link_split"]["sizes"]
+        if p in ("train", "validation", "test")
+    } | {"leakage/findings/0/count", "leakage/findings/0/denominator", f"{stocks}/features/width"}
+    assert expected <= set(tagged), sorted(tagged)
+    for path, text in tagged.items():
+        assert _equal(text, _lookup(manifest, path)), path
+    html = (bundle / CARD_FILE).read_text()
+    finding = manifest["leakage"]["findings"][0]
+    assert finding["rule"] in html and "Link prediction on" in html
+    sample = finding["sample"][0]
+    assert f"source={sample['source']}" in html  # a sample row, not a raw dict
+    assert "{'" not in html and '{"' not in html
