@@ -66,6 +66,12 @@ def comparison_section(m: dict[str, Any]) -> str:
                 f"<p>{e['part_moves']['changed']:,} of {e['kept']:,} kept {escape(vt)} vertices "
                 "are in another part than before.</p>"
             )
+    for rel, e in c["relations"].items():
+        if e.get("part_moves"):
+            body += (
+                f"<p>{e['part_moves']['changed']:,} of {e['kept']:,} kept {escape(rel)} edges "
+                "are in another part than before.</p>"
+            )
     gate = c["gate"]
     word = "passed" if gate["passed"] else "failed"
     body += f"<p class='verdict {word}'>Drift gate {word}: {gate['evaluated']} limits evaluated"

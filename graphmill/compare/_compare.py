@@ -23,6 +23,7 @@ from graphmill.compare._drift import (
     label_drift,
     numeric_drift,
 )
+from graphmill.compare._edge_moves import edge_part_moves, edge_parts_table
 from graphmill.compare._gate import evaluate, gate_summary
 from graphmill.compare._result import COMPARISON_FORMAT, Comparison
 from graphmill.compare._tables import (
@@ -178,7 +179,11 @@ def _relation(
     if not (in_old and in_new):
         count = (old if in_old else new).manifest["relations"][dotted]["count"]
         status = "only-old" if in_old else "only-new"
-        return {**_whole(status, count if in_old else 0, 0 if in_old else count), "degree": {}}
+        return {
+            **_whole(status, count if in_old else 0, 0 if in_old else count),
+            "degree": {},
+            "part_moves": None,
+        }
     entry = new.manifest["relations"][dotted]
     src, dst = matches[entry["source_type"]], matches[entry["target_type"]]
     result = compare_edges(
@@ -188,6 +193,18 @@ def _relation(
         dst.lookup(),
         (src.old_count, src.new_count, dst.old_count, dst.new_count),
     )
+    old_table = edge_parts_table(old.manifest["relations"][dotted])
+    new_table = edge_parts_table(entry)
+    moves = None
+    if old_table and new_table:
+        moves = edge_part_moves(
+            old.edge_file(dotted),
+            new.edge_file(dotted),
+            old.root / old_table,
+            new.root / new_table,
+            (src.lookup(), dst.lookup()),
+            dst.new_count,
+        )
     return {
         "status": "both",
         "old": result.old,
@@ -199,6 +216,7 @@ def _relation(
             "out": degree_drift(result.old_out, result.new_out),
             "in": degree_drift(result.old_in, result.new_in),
         },
+        "part_moves": moves,
     }
 
 

@@ -27,6 +27,7 @@ RULES = {
     "label-shift": "total variation distance of the class shares",
     "degree-shift": "largest KS statistic of a relation's out- and in-degrees",
     "part-changed": "share of kept vertices that moved to another part",
+    "edge-part-changed": "share of kept edges of a relation that moved to another part",
     "findings-appeared": "number of check findings that were not there before",
 }
 
@@ -64,6 +65,8 @@ def measures(doc: dict[str, Any]) -> Iterator[tuple[str, dict[str, str], float]]
         ks = [d["ks"] for d in e["degree"].values() if d["ks"] is not None]
         if ks:
             yield "degree-shift", subject, max(ks)
+        if e.get("part_moves") is not None:
+            yield "edge-part-changed", subject, _share(e["part_moves"]["changed"], e["kept"])
     if doc["label"] is not None:
         yield (
             "label-shift",

@@ -107,7 +107,7 @@ def render(console: Any, doc: dict[str, Any]) -> None:
     for kind, items in (("vertices", doc["vertex_types"]), ("edges", doc["relations"])):
         for name, e in items.items():
             note = "" if e["status"] == "both" else e["status"]
-            if kind == "vertices" and e.get("part_moves"):
+            if e.get("part_moves"):
                 note = f"{e['part_moves']['changed']:,} changed part"
             counts.add_row(
                 f"{kind} {name}",
