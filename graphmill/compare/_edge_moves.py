@@ -81,9 +81,10 @@ def edge_part_moves(
     b_keys, b_parts = _numbered(new_keys, new_codes, spread)
     _, ia, ib = np.intersect1d(a_keys, b_keys, assume_unique=True, return_indices=True)
     pairs = np.bincount(a_parts[ia] * 4 + b_parts[ib], minlength=16)
+    found = [int(k) for k in np.flatnonzero(pairs)]
     transitions = [
         {"from": PART_NAMES[k // 4], "to": PART_NAMES[k % 4], "count": int(pairs[k])}
-        for k in np.flatnonzero(pairs)
+        for k in found
     ]
-    changed = sum(x["count"] for x in transitions if x["from"] != x["to"])
+    changed = sum(int(pairs[k]) for k in found if k // 4 != k % 4)
     return {"changed": changed, "transitions": transitions}
