@@ -83,8 +83,7 @@ def edge_part_moves(
     pairs = np.bincount(a_parts[ia] * 4 + b_parts[ib], minlength=16)
     found = [int(k) for k in np.flatnonzero(pairs)]
     transitions = [
-        {"from": PART_NAMES[k // 4], "to": PART_NAMES[k % 4], "count": int(pairs[k])}
-        for k in found
+        {"from": PART_NAMES[k // 4], "to": PART_NAMES[k % 4], "count": int(pairs[k])} for k in found
     ]
     changed = sum(int(pairs[k]) for k in found if k // 4 != k % 4)
     return {"changed": changed, "transitions": transitions}
