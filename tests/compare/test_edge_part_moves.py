@@ -53,7 +53,8 @@ def _edges_with_parts(bundle: Path, dotted: str) -> pd.DataFrame:
         for t in (entry["source_type"], entry["target_type"])
     }
     edges = pd.read_parquet(bundle / entry["table"])
-    parts = pd.read_parquet(bundle / entry["link_split"]["table"]).set_index("edge")["part"]
+    split = entry.get("link_split") or entry["parts"]
+    parts = pd.read_parquet(bundle / split["table"]).set_index("edge")["part"]
     return pd.DataFrame(
         {
             "source": ids[entry["source_type"]].loc[edges["source_index"]].to_numpy(),
@@ -122,3 +123,27 @@ def test_edge_part_changed_gates_and_shows_in_the_summary(versions: dict[str, Pa
 def test_relations_without_edge_parts_have_none(versions: dict[str, Path]) -> None:
     doc = compare_bundles(versions["v1"], versions["v2"]).to_dict()
     assert doc["relations"]["shop.sells.item"]["part_moves"] is None
+
+
+@pytest.mark.parametrize("seed", [1862, 1863])
+def test_edge_task_parts_are_compared_too(tmp_path: Path, seed: int) -> None:
+    from tests.transform.test_tasks import les_miserables_document, les_miserables_tables
+
+    def build(out: Path, seed: int, drop: int) -> Path:
+        _, tables = les_miserables_tables()
+        tables["character.meets.character"] = tables["character.meets.character"].slice(drop)
+        document = les_miserables_document(out, kind="edge-values")
+        document["split"]["seed"] = seed  # type: ignore[index]
+        spec, snapshot = publish(document, tables)
+        build_bundle(spec, snapshot)
+        return spec.output.bundle
+
+    old, new = build(tmp_path / "a", 1862, 0), build(tmp_path / "b", seed, 10)
+    dotted = "character.meets.character"
+    entry = compare_bundles(old, new).to_dict()["relations"][dotted]
+    expected = _recount(old, new, dotted)
+    got = {(t["from"], t["to"]): t["count"] for t in entry["part_moves"]["transitions"]}
+    assert got == expected and entry["removed"] > 0
+    moved = sum(n for (a, b), n in expected.items() if a != b)
+    assert entry["part_moves"]["changed"] == moved
+    assert (moved == 0) if seed == 1862 else (moved > 0)
