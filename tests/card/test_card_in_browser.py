@@ -215,3 +215,20 @@ def test_the_card_shows_the_task_edge_parts_leakage_and_edge_features(
     sample = finding["sample"][0]
     assert f"source={sample['source']}" in html  # a sample row, not a raw dict
     assert "{'" not in html and '{"' not in html
+
+
+def test_an_edge_task_card_shows_its_edge_parts(chromium, tmp_path: Path) -> None:
+    from tests.transform.test_tasks import les_miserables_document, les_miserables_tables
+
+    _, tables = les_miserables_tables()
+    spec, snapshot = publish(les_miserables_document(tmp_path, kind="edge-values"), tables)
+    build_bundle(spec, snapshot)
+    manifest = json.loads((spec.output.bundle / "manifest.json").read_text())
+    seen = _inspect(chromium, spec.output.bundle / CARD_FILE)
+    assert seen["problems"] == []
+    tagged = dict(seen["numbers"])
+    parts = "relations/character.meets.character/parts/sizes"
+    assert {f"{parts}/{p}" for p in ("train", "validation", "test")} <= set(tagged)
+    for path, text in tagged.items():
+        assert _equal(text, _lookup(manifest, path)), path
+    assert "edge-values" in (spec.output.bundle / CARD_FILE).read_text()
