@@ -6,11 +6,8 @@ value of the form ``"package.module:ClassName"``.
 
 from __future__ import annotations
 
-import importlib
-from importlib.metadata import entry_points
-
+from graphmill._plugins import available, load_class
 from graphmill.connectors.base import GraphSource
-from graphmill.errors import MissingExtraError, SpecError
 from graphmill.spec import PipelineSpec
 
 #: kind -> (import path, extra that provides its dependencies)
@@ -27,37 +24,14 @@ ENTRY_POINT_GROUP = "graphmill.sources"
 
 def available_kinds() -> list[str]:
     """Every source kind known: built in and registered by installed packages."""
-    kinds = set(BUILTIN_SOURCES)
-    kinds.update(ep.name for ep in entry_points(group=ENTRY_POINT_GROUP))
-    return sorted(kinds)
+    return available(BUILTIN_SOURCES, ENTRY_POINT_GROUP)
 
 
 def source_class(kind: str) -> type[GraphSource]:
     """The class for ``kind``; a clear error if unknown or if its extra is missing."""
-    target, extra = BUILTIN_SOURCES.get(kind, ("", ""))
-    if not target:
-        found = [ep for ep in entry_points(group=ENTRY_POINT_GROUP) if ep.name == kind]
-        if not found:
-            raise SpecError(
-                f"unknown source kind {kind!r}",
-                key_path="source.kind",
-                hint=f"use one of: {', '.join(available_kinds())}",
-            )
-        target = found[0].value
-    module_name, _, class_name = target.partition(":")
-    try:
-        module = importlib.import_module(module_name)
-    except ImportError as exc:
-        if (exc.name or "").startswith("graphmill"):
-            raise MissingExtraError(
-                f"source kind {kind!r} is not part of this installation ({exc.name} is missing)"
-            ) from exc
-        hint = f"install it with: pip install 'graphmill[{extra}]'" if extra else None
-        raise MissingExtraError(
-            f"source kind {kind!r} needs a package that is not installed ({exc.name})",
-            hint=hint,
-        ) from exc
-    cls: type[GraphSource] = getattr(module, class_name)
+    cls: type[GraphSource] = load_class(
+        kind, BUILTIN_SOURCES, ENTRY_POINT_GROUP, what="source kind", key_path="source.kind"
+    )
     return cls
 
 

@@ -6,14 +6,12 @@ of the form ``"package.module:ClassName"`` (a subclass of :class:`~graphmill.eng
 
 from __future__ import annotations
 
-import difflib
-import importlib
 import re
-from importlib.metadata import entry_points
 from pathlib import Path
 
+from graphmill._plugins import available, load_class
 from graphmill.engine._base import Engine
-from graphmill.errors import MissingExtraError, SpecError
+from graphmill.errors import SpecError
 from graphmill.spec import EngineSpec, PipelineSpec
 
 #: kind -> (import path, extra that provides its dependencies; "" = the core install)
@@ -27,39 +25,19 @@ DEFAULT_ENGINE = "local"
 
 def available_engines() -> list[str]:
     """Every engine kind known: built in and registered by installed packages."""
-    kinds = set(BUILTIN_ENGINES)
-    kinds.update(ep.name for ep in entry_points(group=ENTRY_POINT_GROUP))
-    return sorted(kinds)
+    return available(BUILTIN_ENGINES, ENTRY_POINT_GROUP)
 
 
 def engine_class(kind: str) -> type[Engine]:
     """The class for ``kind``; a clear error if unknown or if its package is missing."""
-    target, extra = BUILTIN_ENGINES.get(kind, ("", ""))
-    if not target:
-        found = [ep for ep in entry_points(group=ENTRY_POINT_GROUP) if ep.name == kind]
-        if not found:
-            close = difflib.get_close_matches(kind, available_engines(), n=1)
-            maybe = f"did you mean {close[0]!r}? " if close else ""
-            raise SpecError(
-                f"unknown engine kind {kind!r}",
-                key_path="engine.kind",
-                hint=f"{maybe}use one of: {', '.join(available_engines())}",
-            )
-        target = found[0].value
-    module_name, _, class_name = target.partition(":")
-    try:
-        module = importlib.import_module(module_name)
-    except ImportError as exc:
-        if (exc.name or "").startswith("graphmill"):
-            raise MissingExtraError(
-                f"engine {kind!r} is not part of this installation ({exc.name} is missing)"
-            ) from exc
-        what = f"pip install 'graphmill[{extra}]'" if extra else f"pip install {exc.name}"
-        raise MissingExtraError(
-            f"engine {kind!r} needs a package that is not installed ({exc.name})",
-            hint=f"install it with: {what}, or set engine.kind: reference",
-        ) from exc
-    cls: type[Engine] = getattr(module, class_name)
+    cls: type[Engine] = load_class(
+        kind,
+        BUILTIN_ENGINES,
+        ENTRY_POINT_GROUP,
+        what="engine kind",
+        key_path="engine.kind",
+        fallback=", or set engine.kind: reference",
+    )
     return cls
 
 
