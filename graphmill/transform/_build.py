@@ -236,7 +236,7 @@ def _audit_part_moves(
     from graphmill.transform._leakage_moves import add_part_moves
 
     manifest, new = add_part_moves(scratch, manifest, document, spec)
-    info.leakage = manifest["leakage"]
+    info.leakage = manifest.get("leakage")
     _warn(info, new)
     return manifest
 
