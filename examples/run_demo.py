@@ -6,9 +6,9 @@ train the two-layer GCN of :mod:`gcn` on members; print its accuracy beside the
 majority-class baseline. Then link prediction: build a second bundle from the same snapshot
 with a links task on ``member.co_signs.member`` (:func:`links_spec`), train the plain-PyTorch
 link predictor of :mod:`link_prediction` and print its MRR and Hits@10 over the bundle's own
-test negatives beside common neighbours'. Then a week later: derive a second dump (:mod:`next_week`), build it
-after the first (the comparison and lineage go into its manifest), show the comparison and
-where both dataset cards are.
+test negatives beside common neighbours'. Then a week later: derive a second dump
+(:mod:`next_week`), build it after the first (the comparison and lineage go into its
+manifest), show the comparison and where both dataset cards are.
 
 Run from anywhere: ``python examples/run_demo.py [--spec PATH] [--epochs N] [--seed S]``.
 """
