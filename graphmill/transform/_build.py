@@ -335,6 +335,10 @@ def _add_relation(
             add_link_split(
                 content, spec, reverse, reversed_edges, properties, (dst, src), forward=key
             )
+        if spec.task is not None and spec.task.relation == key.dotted:
+            from graphmill.transform._edge_targets import add_edge_parts
+
+            add_edge_parts(content, spec, reverse, reversed_edges, (dst, src), forward=key)
 
 
 def _emit_relation(

@@ -296,3 +296,56 @@ def test_values_task_refuses_text_found_at_build(tmp_path: Path) -> None:
         build_bundle(spec, snapshot)
     assert refused.value.key_path == "label.property" and "vertex-classes" in str(refused.value)
     assert not spec.output.bundle.exists()
+
+
+def test_an_edge_tasks_reverse_relation_follows_its_forward_edges(tmp_path: Path) -> None:
+    graph = nx.bipartite.random_graph(20, 30, 0.25, seed=12)  # networkx.bipartite generator
+    left = {n for n, side in graph.nodes(data="bipartite") if side == 0}
+    rows = sorted((u, v) if u in left else (v, u) for u, v in graph.edges)
+    tables = {
+        "shop": pa.table({"vertex_id": [f"s{n}" for n in sorted(left)]}),
+        "item": pa.table({"vertex_id": [f"i{n}" for n in sorted(set(graph) - left)]}),
+        "shop.ships.item": pa.table(
+            {
+                "source_id": [f"s{u}" for u, _ in rows],
+                "target_id": [f"i{v}" for _, v in rows],
+                "days": [float(u + v) for u, v in rows],
+            }
+        ),
+    }
+    document = spec_document(
+        tmp_path,
+        {"shop": {}, "item": {}},
+        [{"from": "shop", "name": "ships", "to": "item", "properties": {"days": None}}],
+        task={"kind": "edge-values", "relation": "shop.ships.item", "property": "days"},
+        edges={"add_reverse": True},
+    )
+    spec, snapshot = publish(document, tables)
+    build_bundle(spec, snapshot)
+    bundle = load_bundle(spec.output.bundle)
+
+    def frame(dotted: str, flip: bool) -> pd.DataFrame:
+        """(shop ID, item ID, part) of each edge of ``dotted``, read with pandas."""
+        entry = bundle.manifest["relations"][dotted]
+        edges = pd.read_parquet(spec.output.bundle / entry["table"])
+        parts = pd.read_parquet(spec.output.bundle / entry["parts"]["table"])
+        ids = {
+            t: bundle.vertex_table(t).column("vertex_id").to_pylist()
+            for t in tables
+            if "." not in t
+        }
+        a = [ids[entry["source_type"]][i] for i in edges["source_index"]]
+        b = [ids[entry["target_type"]][i] for i in edges["target_index"]]
+        shop, item = (b, a) if flip else (a, b)
+        return pd.DataFrame({"shop": shop, "item": item, "part": parts["part"]})
+
+    forward = frame("shop.ships.item", flip=False)
+    reverse = frame("item.rev_ships.shop", flip=True)
+    joined = forward.merge(reverse, on=["shop", "item"], suffixes=("_f", "_r"))
+    assert len(joined) == len(forward) == len(reverse) == graph.number_of_edges()
+    assert (joined["part_f"] == joined["part_r"]).all()  # the reverse follows its forward edge
+    rev = bundle.relations[RelationKey("item", "rev_ships", "shop")]
+    assert sorted(np.concatenate([rev.parts[p].numpy() for p in PARTS]).tolist()) == list(
+        range(graph.number_of_edges())
+    )
+    assert rev.targets is None and set(joined["part_f"]) == set(PARTS)
