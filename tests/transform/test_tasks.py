@@ -349,3 +349,37 @@ def test_an_edge_tasks_reverse_relation_follows_its_forward_edges(tmp_path: Path
         range(graph.number_of_edges())
     )
     assert rev.targets is None and set(joined["part_f"]) == set(PARTS)
+
+
+def test_an_undeclared_float_label_is_one_clear_line_from_the_cli(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The spec cannot know the values' kind before the pull (no kind declared): the build
+    refuses with exit code 2, one line naming label.property and the task to declare."""
+    import yaml
+
+    from graphmill.cli import main
+    from graphmill.errors import ExitCode
+
+    graph = nx.karate_club_graph()  # networkx: weighted degrees are floats
+    strength = dict(graph.degree(weight="weight"))
+    (tmp_path / "people.csv").write_text(
+        "ref,strength\n" + "".join(f"k{n:02d},{strength[n] + 0.5}\n" for n in graph)
+    )
+    document = {
+        "spec_version": 1,
+        "source": {
+            "kind": "table-files",
+            "vertex_files": [{"path": "people.csv", "id_column": "ref", "type": "person"}],
+        },
+        "vertex_types": {"person": {"properties": {"strength": None}}},
+        "label": {"vertex_type": "person", "property": "strength"},
+        "output": {"bundle": "out/bundle"},
+    }
+    (tmp_path / "spec.yaml").write_text(yaml.safe_dump(document, sort_keys=False))
+    code = main(["run", str(tmp_path / "spec.yaml"), "--no-progress"])
+    err = capsys.readouterr().err.strip()
+    assert code == ExitCode.BAD_INPUT == 2, err
+    line = next(e for e in err.splitlines() if "label.property" in e)
+    assert "floating-point" in line and "vertex-values" in err and "Traceback" not in err
+    assert not (tmp_path / "out" / "bundle").exists()
