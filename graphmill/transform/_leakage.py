@@ -38,7 +38,7 @@ LEAKAGE_RULES: dict[str, tuple[str, str]] = {
         "at or above checks.label_copy_threshold",
     ),
     "part-changed-since-previous": (
-        "error",
+        "warning",
         "a vertex or edge kept from the previous bundle that moved to another part",
     ),
 }

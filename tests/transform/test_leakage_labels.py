@@ -136,6 +136,9 @@ def test_severity_threshold_and_did_you_mean(tmp_path: Path) -> None:
     with pytest.raises(SpecError) as bad:
         build(tmp_path / "b", copy=True, checks={"label_copy_threshold": 1.5})
     assert "label_copy_threshold" in str(bad.value) + str(bad.value.key_path)
+    with pytest.raises(SpecError) as misspelt:
+        build(tmp_path / "m", copy=True, checks={"label_copy_treshold": 0.9})
+    assert "did you mean 'label_copy_threshold'" in misspelt.value.one_line()
 
 
 def test_numeric_target_copy_scored_by_correlation(tmp_path: Path) -> None:
