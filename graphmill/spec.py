@@ -153,6 +153,7 @@ class CheckSpec:
     max_unlabeled_rate: float = 0.9
     sample_size: int = 5
     expect: dict[str, Any] = field(default_factory=dict)
+    label_copy_threshold: float = 0.99
 
 
 @dataclass(frozen=True)
@@ -363,6 +364,7 @@ def spec_from_dict(
             max_unlabeled_rate=checks_doc.get("max_unlabeled_rate", 0.9),
             sample_size=checks_doc.get("sample_size", 5),
             expect=dict(checks_doc.get("expect", {})),
+            label_copy_threshold=checks_doc.get("label_copy_threshold", 0.99),
         ),
         rdf=rdf,
         pseudonymize=doc.get("ids", {}).get("pseudonymize", False),

@@ -170,6 +170,7 @@ def test_the_demo_script_runs_on_a_copy_of_the_spec(
     warnings = demo["result"].report.counts["warning"]
     assert f"PASSED: 0 errors, {warnings} warnings" in printed
     assert "majority-class baseline on test" in printed
+    assert "5b. link prediction" in printed and "common-neighbours baseline: MRR" in printed
     assert (tmp_path / "out" / "bundle" / "manifest.json").is_file()
 
 
@@ -208,3 +209,92 @@ def test_a_week_later_the_demo_compares_two_versions(demo: dict[str, Any], tmp_p
     for bundle in (first, second):
         assert (bundle / "card.html").is_file()
     assert next_week.SENDS in (second.parent / "coop.nt").read_text()
+
+
+@pytest.mark.parametrize(
+    "graph",
+    [nx.karate_club_graph(), nx.les_miserables_graph()],  # networkx classic graphs
+    ids=["karate", "les-miserables"],
+)
+def test_common_neighbours_match_networkx(graph: nx.Graph) -> None:
+    import link_prediction
+    import numpy as np
+
+    nodes = sorted(graph)
+    at = {n: i for i, n in enumerate(nodes)}
+    one_way = np.array([[at[u], at[v]] for u, v in graph.edges], dtype=np.int64).T
+    noisy = np.concatenate([one_way, one_way[::-1, :5], [[0], [0]]], axis=1)  # repeats, a loop
+    rnd = np.random.default_rng(5)
+    pairs = rnd.integers(0, len(nodes), size=(2, 300))
+    got = link_prediction.common_neighbours(
+        link_prediction.undirected_adjacency(noisy, len(nodes)), pairs
+    )
+    expected = [
+        len(list(nx.common_neighbors(graph, nodes[u], nodes[v]))) if u != v else None
+        for u, v in pairs.T
+    ]  # networkx.common_neighbors refuses u == v; there it is the degree
+    for i, (u, v) in enumerate(pairs.T):
+        want = expected[i] if u != v else graph.degree(nodes[u])
+        assert got[i] == want, (nodes[u], nodes[v])
+    assert max(got) > 2
+
+
+def test_ranks_match_scipy_average_ranks() -> None:
+    import link_prediction
+    import numpy as np
+    from scipy.stats import rankdata
+
+    rnd = np.random.default_rng(8)
+    positive = rnd.integers(0, 5, size=200).astype(float)  # small integers: many ties
+    negative = rnd.integers(0, 5, size=(200, 20)).astype(float)
+    got = link_prediction.ranks(positive, negative)
+    want = [
+        rankdata(-np.concatenate([[p], n]), method="average")[0]
+        for p, n in zip(positive, negative, strict=True)
+    ]
+    np.testing.assert_allclose(got, want)  # scipy's average rank of the positive
+    metrics = link_prediction.ranking_metrics(positive, negative)
+    assert metrics["mrr"] == pytest.approx(float(np.mean(1 / np.array(want))))
+    assert metrics["hits@10"] == pytest.approx(float(np.mean(np.array(want) <= 10)))
+
+
+def test_link_prediction_beats_common_neighbours_on_the_demo(demo: dict[str, Any]) -> None:
+    """The demo's links bundle, its learned ranking, and a networkx recount of the baseline."""
+    pytest.importorskip("torch")
+    import io
+
+    import numpy as np
+    import run_demo
+    from rich.console import Console
+    from scipy.stats import rankdata
+
+    first = Path(demo["result"].build.bundle)
+    out = io.StringIO()
+    metrics = run_demo.link_run(demo["spec"], first, seed=0, console=Console(file=out))
+    assert "5b. link prediction" in out.getvalue()
+    bundle = graphmill.load_bundle(first.parent / "links" / "bundle")
+    assert bundle.manifest["task"] == {"kind": "links", "relations": [CO_SIGNS]}
+    relation = bundle.relations[RelationKey.parse(CO_SIGNS)]
+    message = relation.endpoints[:, relation.parts["message"]].numpy()
+    graph = nx.Graph()
+    graph.add_nodes_from(range(bundle.vertex_types["member"].count))
+    graph.add_edges_from((int(u), int(v)) for u, v in message.T if u != v)
+    test = relation.endpoints[:, relation.parts["test"]].numpy()
+    negatives = relation.negatives["test"].numpy()
+    k = negatives.shape[1] // test.shape[1]
+    assert k == 50 and metrics["positives"] == test.shape[1]
+
+    def cn(u: int, v: int) -> int:
+        return len(list(nx.common_neighbors(graph, int(u), int(v))))  # networkx
+
+    reciprocal = []
+    for i, (u, v) in enumerate(test.T):
+        scores = [cn(u, v)] + [cn(a, b) for a, b in negatives[:, i * k : (i + 1) * k].T]
+        reciprocal.append(1 / rankdata(-np.array(scores), method="average")[0])
+    assert metrics["baseline_mrr"] == pytest.approx(float(np.mean(reciprocal)))
+    # Measured (seeds 0-4): MRR 0.137-0.176 and Hits@10 0.30-0.42 against the baseline's
+    # 0.057 and 0.019 on 208 test edges with 50 negatives each (chance: MRR about 0.04 when
+    # every score ties). The standard error of an MRR here is about 0.02; the margin of 0.04
+    # sits two of them below the worst seed measured.
+    assert metrics["mrr"] >= metrics["baseline_mrr"] + 0.04, metrics
+    assert metrics["hits@10"] > metrics["baseline_hits@10"], metrics

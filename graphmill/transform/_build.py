@@ -146,7 +146,7 @@ def build_bundle(
         task.advance()
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
-        _audit_leakage(content, info, spec, even_if_leaking)
+    _audit_leakage(content, info, spec, even_if_leaking)
     add_edge_features(content, spec)  # after the edge split: fitted on training edges
     if spec.label is not None:
         split = content.manifest["split"]
@@ -200,6 +200,9 @@ def build_bundle(
                 even_if_drifting=even_if_drifting,
             )
             info.drift = comparison.document["gate"]
+            manifest = _audit_part_moves(scratch, manifest, comparison.document, info, spec)
+            if not even_if_leaking:
+                _refuse_leakage(info.leakage, "part-changed-since-previous")
         from graphmill.card import seal_with_card
 
         seal_with_card(scratch, manifest)
@@ -211,21 +214,58 @@ def _audit_leakage(
     content: BundleContent, info: BuildInfo, spec: PipelineSpec, even_if_leaking: bool
 ) -> None:
     """Run the leakage audit into the manifest; refuse on an error finding unless asked."""
-    from graphmill.transform._leakage_audit import LeakageError, audit_links
+    from graphmill.transform._leakage_audit import audit_content
 
-    audit = content.manifest["leakage"] = info.leakage = audit_links(content, spec)
-    for finding in audit["findings"]:
+    audit = info.leakage = audit_content(content, spec)
+    if audit is None:
+        return
+    content.manifest["leakage"] = audit
+    _warn(info, audit["findings"])
+    if not even_if_leaking:
+        _refuse_leakage(audit, None)
+
+
+def _audit_part_moves(
+    scratch: Path,
+    manifest: dict[str, Any],
+    document: dict[str, Any],
+    info: BuildInfo,
+    spec: PipelineSpec,
+) -> dict[str, Any]:
+    """Add ``part-changed-since-previous`` (from the comparison) to the written manifest."""
+    from graphmill.transform._leakage_moves import add_part_moves
+
+    manifest, new = add_part_moves(scratch, manifest, document, spec)
+    info.leakage = manifest.get("leakage")
+    _warn(info, new)
+    return manifest
+
+
+def _warn(info: BuildInfo, findings: list[dict[str, Any]]) -> None:
+    for finding in findings:
         info.warnings.append(
             f"leakage {finding['rule']} ({finding['severity']}): " + finding["message"]
         )
-    if not audit["passed"] and not even_if_leaking:
-        first = next(f for f in audit["findings"] if f["severity"] == "error")
-        raise LeakageError(
-            f"leakage audit failed with {plural(audit['counts']['error'], 'error finding')}, "
-            f"the first {first['rule']}: {first['message']}; no bundle built",
-            hint="change the task's split, set checks.severity for that rule, or build with "
-            "--even-if-failing",
-        )
+
+
+def _refuse_leakage(audit: dict[str, Any] | None, rule: str | None) -> None:
+    """Raise :class:`LeakageError` for the audit's error findings (of ``rule`` when given)."""
+    from graphmill.transform._leakage_audit import LeakageError
+
+    errors = [
+        f
+        for f in (audit or {}).get("findings", [])
+        if f["severity"] == "error" and rule in (None, f["rule"])
+    ]
+    if not errors:
+        return
+    first = errors[0]
+    raise LeakageError(
+        f"leakage audit failed with {plural(len(errors), 'error finding')}, "
+        f"the first {first['rule']}: {first['message']}; no bundle built",
+        hint="change the task's split or features, set checks.severity for that rule, or "
+        "build with --even-if-failing",
+    )
 
 
 def _add_relation(
@@ -295,6 +335,10 @@ def _add_relation(
             add_link_split(
                 content, spec, reverse, reversed_edges, properties, (dst, src), forward=key
             )
+        if spec.task is not None and spec.task.relation == key.dotted:
+            from graphmill.transform._edge_targets import add_edge_parts
+
+            add_edge_parts(content, spec, reverse, reversed_edges, (dst, src), forward=key)
 
 
 def _emit_relation(

@@ -32,6 +32,15 @@ LEAKAGE_RULES: dict[str, tuple[str, str]] = {
         "error",
         "a training (message-passing) edge timed at or after the temporal split's first cut",
     ),
+    "feature-copies-label": (
+        "error",
+        "a feature property of the labelled type that predicts the label on the train part "
+        "at or above checks.label_copy_threshold",
+    ),
+    "part-changed-since-previous": (
+        "warning",
+        "a vertex or edge kept from the previous bundle that moved to another part",
+    ),
 }
 
 

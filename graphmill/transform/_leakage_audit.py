@@ -1,10 +1,13 @@
 """The edge-leakage audit of a links task, run by the build after the split.
 
-Contract: :func:`audit_links` evaluates :data:`~graphmill.transform._leakage.LEAKAGE_RULES`
-on the gathered bundle content for every relation of the task (severities from
-``checks.severity``; ``off`` skips a rule) and returns the manifest's ``leakage`` entry:
-``passed`` (no error finding), counts by severity, and the findings, each with a sorted
-sample of offending pairs by original ID (pseudonym when pseudonymized).
+Contract: :func:`audit_content` evaluates the rules of
+:data:`~graphmill.transform._leakage.LEAKAGE_RULES` that need no earlier bundle on the
+gathered bundle content (the edge rules for every relation of a links task, and
+``feature-copies-label``; severities from ``checks.severity``; ``off`` skips a rule) and
+returns the manifest's ``leakage`` entry: ``passed`` (no error finding), counts by severity,
+and the findings, each with a sorted sample of offenders by original ID (pseudonym when
+pseudonymized). ``part-changed-since-previous`` is added after the comparison with the
+previous bundle (:mod:`graphmill.transform._leakage_moves`).
 :class:`LeakageError` is what the build raises on an error finding, unless asked to build
 anyway (``--even-if-failing``).
 """
@@ -36,11 +39,45 @@ class LeakageError(GraphmillError):
     exit_code = ExitCode.CHECKS_FAILED
 
 
-def audit_links(content: BundleContent, spec: PipelineSpec) -> dict[str, Any]:
-    """The ``leakage`` manifest entry for ``spec``'s links task."""
+def severities(spec: PipelineSpec) -> dict[str, str]:
+    """Each leakage rule's severity: its default, then ``checks.severity``."""
+    return {r: spec.checks.severity.get(r, d) for r, (d, _) in LEAKAGE_RULES.items()}
+
+
+def leakage_entry(severity: dict[str, str], findings: list[dict[str, Any]]) -> dict[str, Any]:
+    """The manifest's ``leakage`` entry: verdict, counts by severity, rules, findings."""
+    counts = {s: sum(f["severity"] == s for f in findings) for s in ("error", "warning", "info")}
+    return {
+        "passed": counts["error"] == 0,
+        "counts": counts,
+        "rules": severity,
+        "findings": findings,
+    }
+
+
+def audit_content(content: BundleContent, spec: PipelineSpec) -> dict[str, Any] | None:
+    """The ``leakage`` entry for the rules that apply before publishing (a links task's edge
+    rules, ``feature-copies-label`` for a label with features); None when none applies."""
+    from graphmill.transform._leakage_labels import audit_label_copies
+
+    links = spec.task is not None and spec.task.links is not None
+    labelled = spec.label is not None and any(
+        f.vertex_type == spec.label.vertex_type for f in spec.features
+    )
+    if not (links or labelled):
+        return None
+    severity = severities(spec)
+    findings = audit_links(content, spec, severity) if links else []
+    findings += audit_label_copies(content, spec, severity["feature-copies-label"])
+    return leakage_entry(severity, findings)
+
+
+def audit_links(
+    content: BundleContent, spec: PipelineSpec, severity: dict[str, str]
+) -> list[dict[str, Any]]:
+    """The findings of the edge rules on ``spec``'s links task."""
     assert spec.task is not None and spec.task.links is not None
     relations = content.manifest["relations"]
-    severity = {r: spec.checks.severity.get(r, d) for r, (d, _) in LEAKAGE_RULES.items()}
     findings: list[dict[str, Any]] = []
 
     def report(rule: str, dotted: str, found: np.ndarray, of: int, ends: np.ndarray) -> None:
@@ -91,13 +128,7 @@ def audit_links(content: BundleContent, spec: PipelineSpec) -> dict[str, Any]:
             times = _times(content, key, "both" if both else cut.of, cut.property, ends)
             found = after_cut(times, training, first)
             report("training-edge-after-cut", dotted, found, len(training), ends)
-    counts = {s: sum(f["severity"] == s for f in findings) for s in ("error", "warning", "info")}
-    return {
-        "passed": counts["error"] == 0,
-        "counts": counts,
-        "rules": severity,
-        "findings": findings,
-    }
+    return findings
 
 
 def relations_count(content: BundleContent, vertex_type: str) -> int:

@@ -24,8 +24,8 @@ def refuse_float_classes(column: pa.Array | pa.ChunkedArray, *, where: str, side
     """Raise :class:`InputError` when ``column`` holds floats and would be coded as classes."""
     if pa.types.is_floating(column.type):
         raise InputError(
-            f"{where} holds floating-point numbers; read as classes every distinct value "
-            "would be a class",
+            "the values are floating-point numbers (no kind was declared to refuse them at "
+            "spec load); read as classes, every distinct value would be a class",
             key_path=where,
             hint=f"declare task: {{kind: {side}-values}} to predict the number, or choose a "
             "property whose values are classes",

@@ -158,6 +158,12 @@ def test_the_built_card_is_hashed_and_shows_the_comparison(bundles) -> None:
     html = (new / CARD_FILE).read_text()
     assert "Changes since the previous version" in html
     assert manifest["lineage"]["previous_manifest_sha256"] in html
+    moves = [
+        f for f in manifest["leakage"]["findings"] if f["rule"] == "part-changed-since-previous"
+    ]
+    comparison = manifest["comparison"]["vertex_types"]["person"]["part_moves"]
+    assert [f["count"] for f in moves] == [comparison["changed"]] and moves[0]["count"] > 0
+    assert "part-changed-since-previous" in html  # a stratified boundary moved with growth
     assert (
         "Personal data" in html
         and "<script" not in html

@@ -296,3 +296,90 @@ def test_values_task_refuses_text_found_at_build(tmp_path: Path) -> None:
         build_bundle(spec, snapshot)
     assert refused.value.key_path == "label.property" and "vertex-classes" in str(refused.value)
     assert not spec.output.bundle.exists()
+
+
+def test_an_edge_tasks_reverse_relation_follows_its_forward_edges(tmp_path: Path) -> None:
+    graph = nx.bipartite.random_graph(20, 30, 0.25, seed=12)  # networkx.bipartite generator
+    left = {n for n, side in graph.nodes(data="bipartite") if side == 0}
+    rows = sorted((u, v) if u in left else (v, u) for u, v in graph.edges)
+    tables = {
+        "shop": pa.table({"vertex_id": [f"s{n}" for n in sorted(left)]}),
+        "item": pa.table({"vertex_id": [f"i{n}" for n in sorted(set(graph) - left)]}),
+        "shop.ships.item": pa.table(
+            {
+                "source_id": [f"s{u}" for u, _ in rows],
+                "target_id": [f"i{v}" for _, v in rows],
+                "days": [float(u + v) for u, v in rows],
+            }
+        ),
+    }
+    document = spec_document(
+        tmp_path,
+        {"shop": {}, "item": {}},
+        [{"from": "shop", "name": "ships", "to": "item", "properties": {"days": None}}],
+        task={"kind": "edge-values", "relation": "shop.ships.item", "property": "days"},
+        edges={"add_reverse": True},
+    )
+    spec, snapshot = publish(document, tables)
+    build_bundle(spec, snapshot)
+    bundle = load_bundle(spec.output.bundle)
+
+    def frame(dotted: str, flip: bool) -> pd.DataFrame:
+        """(shop ID, item ID, part) of each edge of ``dotted``, read with pandas."""
+        entry = bundle.manifest["relations"][dotted]
+        edges = pd.read_parquet(spec.output.bundle / entry["table"])
+        parts = pd.read_parquet(spec.output.bundle / entry["parts"]["table"])
+        ids = {
+            t: bundle.vertex_table(t).column("vertex_id").to_pylist()
+            for t in tables
+            if "." not in t
+        }
+        a = [ids[entry["source_type"]][i] for i in edges["source_index"]]
+        b = [ids[entry["target_type"]][i] for i in edges["target_index"]]
+        shop, item = (b, a) if flip else (a, b)
+        return pd.DataFrame({"shop": shop, "item": item, "part": parts["part"]})
+
+    forward = frame("shop.ships.item", flip=False)
+    reverse = frame("item.rev_ships.shop", flip=True)
+    joined = forward.merge(reverse, on=["shop", "item"], suffixes=("_f", "_r"))
+    assert len(joined) == len(forward) == len(reverse) == graph.number_of_edges()
+    assert (joined["part_f"] == joined["part_r"]).all()  # the reverse follows its forward edge
+    rev = bundle.relations[RelationKey("item", "rev_ships", "shop")]
+    assert sorted(np.concatenate([rev.parts[p].numpy() for p in PARTS]).tolist()) == list(
+        range(graph.number_of_edges())
+    )
+    assert rev.targets is None and set(joined["part_f"]) == set(PARTS)
+
+
+def test_an_undeclared_float_label_is_one_clear_line_from_the_cli(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """The spec cannot know the values' kind before the pull (no kind declared): the build
+    refuses with exit code 2, one line naming label.property and the task to declare."""
+    import yaml
+
+    from graphmill.cli import main
+    from graphmill.errors import ExitCode
+
+    graph = nx.karate_club_graph()  # networkx: weighted degrees are floats
+    strength = dict(graph.degree(weight="weight"))
+    (tmp_path / "people.csv").write_text(
+        "ref,strength\n" + "".join(f"k{n:02d},{strength[n] + 0.5}\n" for n in graph)
+    )
+    document = {
+        "spec_version": 1,
+        "source": {
+            "kind": "table-files",
+            "vertex_files": [{"path": "people.csv", "id_column": "ref", "type": "person"}],
+        },
+        "vertex_types": {"person": {"properties": {"strength": None}}},
+        "label": {"vertex_type": "person", "property": "strength"},
+        "output": {"bundle": "out/bundle"},
+    }
+    (tmp_path / "spec.yaml").write_text(yaml.safe_dump(document, sort_keys=False))
+    code = main(["run", str(tmp_path / "spec.yaml"), "--no-progress"])
+    err = capsys.readouterr().err.strip()
+    assert code == ExitCode.BAD_INPUT == 2, err
+    line = next(e for e in err.splitlines() if "label.property" in e)
+    assert "floating-point" in line and "vertex-values" in err and "Traceback" not in err
+    assert not (tmp_path / "out" / "bundle").exists()
