@@ -16,7 +16,9 @@ Subjects per rule:
   ``value-out-of-range`` on numeric columns with a declared ``min`` or ``max``;
 * the label: ``unlabeled-vertices``, ``thin-class``;
 * what ``checks.expect`` names: the contract rules; the whole graph:
-  ``vertex-id-in-several-types``, ``snapshot-note``.
+  ``vertex-id-in-several-types``, ``snapshot-note``;
+* last, the build's leakage audit on the parts the build would draw
+  (:mod:`graphmill.validate._leakage_checks`).
 """
 
 from __future__ import annotations
@@ -40,6 +42,7 @@ from graphmill.validate._findings import (
     Severity,
     resolve_severities,
 )
+from graphmill.validate._leakage_checks import leakage_checks
 from graphmill.validate._report import Report
 from graphmill.validate.rules._properties import (
     ILL_TYPED,
@@ -237,6 +240,9 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None 
             found = [_finding(rule_id, level, subject, o) for o in outcomes if o.reported]
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
+    leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
+    findings += leaks
+    evaluated += audited
     return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
 
 
