@@ -19,9 +19,9 @@ from graphmill._schemas import load_schema, validate_document
 from graphmill.errors import InputError, SpecError
 from graphmill.spec import CheckSpec
 from graphmill.validate import rule_catalogue, run_checks
-from graphmill.validate._leakage_checks import CHECKED
 from graphmill.validate._findings import Evaluation, Finding, subject_label
 from graphmill.validate._junit import junit_xml, xml_text
+from graphmill.validate._leakage_checks import CHECKED
 from graphmill.validate._report import Report
 from graphmill.validate._runner import CHECKS
 from tests.validate._graphs import make_spec, publish
