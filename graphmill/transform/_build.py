@@ -197,13 +197,14 @@ def assemble_content(
     *,
     key: bytes | None = None,
     pinned: PinnedVocabularies | None = None,
-    features: bool = True,
+    audit_only: bool = False,
     progress: Progress | None = None,
 ) -> BundleContent:
     """The bundle content up to the leakage audit: the vertex indices, labels, targets and
-    parts, the features (unless ``features`` is false), and each relation's edges with their
-    edge and link parts. The build continues from here; ``graphmill check`` stops here to run
-    the leakage audit on the same parts (see :mod:`graphmill.validate._leakage_checks`)."""
+    parts, the features, and each relation's edges with their edge and link parts and
+    negatives. The build continues from here; ``graphmill check`` stops here to run the
+    leakage audit on the same parts (see :mod:`graphmill.validate._leakage_checks`), with
+    ``audit_only``: no feature encoders and no negatives, which no audit rule reads."""
     progress = progress or SilentProgress()
     content = BundleContent()
     content.manifest.update(
@@ -219,13 +220,13 @@ def assemble_content(
             name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
         )
         check_unique(vi)
-        info.warnings += add_vertex_type(content, spec, vi, pinned, features=features)
+        info.warnings += add_vertex_type(content, spec, vi, pinned, features=not audit_only)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
         task.advance()
     task = progress.task("build relations", total=len(spec.relations))
     for rel in spec.relations:
-        _add_relation(content, info, spec, snapshot, rel, indices, engine)
+        _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
         task.advance()
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
@@ -298,6 +299,7 @@ def _add_relation(
     rel: Any,
     indices: dict[str, VertexIndex],
     engine: Engine,
+    audit_only: bool = False,
 ) -> None:
     key: RelationKey = rel.key
     edges_file = snapshot.file("edges", key.dotted)  # the engine maps IDs from the file
@@ -335,7 +337,14 @@ def _add_relation(
         from graphmill.transform._link_task import add_link_split
 
         sizes = add_link_split(
-            content, spec, key, outcome.edges, properties, (src, dst), forward=key
+            content,
+            spec,
+            key,
+            outcome.edges,
+            properties,
+            (src, dst),
+            forward=key,
+            negatives=not audit_only,
         )
         for part, n in sizes.items():
             info.part_sizes[part] = info.part_sizes.get(part, 0) + n

@@ -2,12 +2,12 @@
 
 Contract: :func:`leakage_checks` computes, from the snapshot and the spec, what the build
 computes before its audit (:func:`graphmill.transform._build.assemble_content`: vertex
-indices, labels or targets, the keyed-hash parts, each relation's edges and link parts; the
-feature encoders are not fitted, the audit does not read them) and runs the build's audit
-(:func:`graphmill.transform._leakage_audit.audit_content`) on it. There is one copy of the
-rules; the check report's leakage findings equal the manifest's ``leakage`` findings for
-the same snapshot and spec, except that samples name original IDs where a pseudonymized
-bundle names pseudonyms (every check sample names original IDs).
+indices, labels or targets, the keyed-hash parts, each relation's edges and link parts; no
+feature encoders are fitted and no negatives drawn, since no rule reads them) and runs the
+build's audit (:func:`graphmill.transform._leakage_audit.audit_content`) on it. There is one
+copy of the rules; the check report's leakage findings equal the manifest's ``leakage``
+findings for the same snapshot and spec, except that samples name original IDs where a
+pseudonymized bundle names pseudonyms (every check sample names original IDs).
 
 ``part-changed-since-previous`` needs the comparison with an earlier bundle, which only a
 build makes (it compares the written bundle); check does not evaluate it, and the manifest
@@ -76,7 +76,7 @@ def leakage_checks(
         return [], []
     started = time.perf_counter()
     content = assemble_content(
-        spec, snapshot, engine, BuildInfo(spec.output.bundle), features=False
+        spec, snapshot, engine, BuildInfo(spec.output.bundle), audit_only=True
     )
     entry = audit_content(content, spec)
     log.info(
