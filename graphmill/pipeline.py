@@ -138,10 +138,12 @@ class Pipeline:
             )
         return Snapshot.open(root)
 
-    def check(self) -> Report:
-        """Validate the snapshot; write the JSON report (and JUnit XML if configured)."""
+    def check(self, *, previous: str | Path | None = None) -> Report:
+        """Validate the snapshot; write the JSON report (and JUnit XML if configured).
+        ``previous`` (or ``drift_gate.previous``): the earlier bundle that the leakage rule
+        ``part-changed-since-previous`` compares with."""
         self._ensure_outputs("report", "junit")
-        report = self._checked(self.snapshot())
+        report = self._checked(self.snapshot(), previous)
         report.write_json(self.spec.output.report)
         log.info("check: wrote %s", self.spec.output.report)
         if self.spec.output.junit is not None:
@@ -149,11 +151,13 @@ class Pipeline:
             log.info("check: wrote %s", self.spec.output.junit)
         return report
 
-    def _checked(self, snapshot: Snapshot) -> Report:
+    def _checked(self, snapshot: Snapshot, previous: str | Path | None = None) -> Report:
         from graphmill.validate import run_checks
 
         log.info("check: %s", snapshot.root)
-        report = run_checks(self.spec, snapshot)
+        report = run_checks(
+            self.spec, snapshot, previous=Path(previous) if previous is not None else None
+        )
         rules = sorted({e.rule for e in report.evaluated})
         log.info(
             "check: %s on %s: %s",
@@ -193,7 +197,7 @@ class Pipeline:
 
         snapshot = self.snapshot()
         if report is None:
-            report = self._checked(snapshot)
+            report = self._checked(snapshot, previous)
         self.last_report = report
         if not report.passed and not even_if_failing:
             raise ChecksFailedError(
@@ -252,7 +256,7 @@ class Pipeline:
         self._ensure_outputs("snapshot", "report", "junit", "bundle")
         try:
             pulled = self.pull(fresh=fresh)
-            report = self.check()
+            report = self.check(previous=previous)
         except BaseException as exc:
             self._retire(exc)
             raise
@@ -321,8 +325,8 @@ def pull(spec: PipelineSpec | str | Path, *, fresh: bool = False) -> PullInfo:
     return _pipeline(spec).pull(fresh=fresh)
 
 
-def check(spec: PipelineSpec | str | Path) -> Report:
-    return _pipeline(spec).check()
+def check(spec: PipelineSpec | str | Path, *, previous: str | Path | None = None) -> Report:
+    return _pipeline(spec).check(previous=previous)
 
 
 def build(spec: PipelineSpec | str | Path, *, even_if_failing: bool = False) -> BuildInfo:

@@ -9,9 +9,12 @@ copy of the rules; the check report's leakage findings equal the manifest's ``le
 findings for the same snapshot and spec, except that samples name original IDs where a
 pseudonymized bundle names pseudonyms (every check sample names original IDs).
 
-``part-changed-since-previous`` needs the comparison with an earlier bundle, which only a
-build makes (it compares the written bundle); check does not evaluate it, and the manifest
-stays where it is recorded.
+``part-changed-since-previous`` needs the comparison of the new version with an earlier
+bundle, which compares written bundles: when a previous bundle is named (``--previous`` or
+``drift_gate.previous``), :func:`part_move_checks` builds the new version into a temporary
+folder beside the output bundle with the build's own :func:`build_bundle` (compared with that
+bundle, never published, removed afterwards) and reports that build's findings of the rule.
+That costs a whole build; it is logged, and ``off`` is the only way to skip it.
 
 Subjects: each relation of a links task for ``evaluation-edge-in-training`` and
 ``evaluation-pair-in-other-relation`` (and ``training-edge-after-cut`` under ``by_time``);
@@ -23,8 +26,11 @@ the time is logged at INFO (``-v``), never skipped.
 
 from __future__ import annotations
 
+import dataclasses
 import logging
+import tempfile
 import time
+from pathlib import Path
 from typing import Any
 
 from graphmill.engine import Engine
@@ -36,12 +42,13 @@ log = logging.getLogger("graphmill.validate")
 
 #: the JUnit suite of the leakage rules
 FAMILY = "leakage"
-#: rules check evaluates (``part-changed-since-previous`` needs a built bundle)
+#: rules check evaluates (``part-changed-since-previous`` only with a previous bundle)
 CHECKED = (
     "evaluation-edge-in-training",
     "evaluation-pair-in-other-relation",
     "training-edge-after-cut",
     "feature-copies-label",
+    "part-changed-since-previous",
 )
 
 
@@ -51,7 +58,7 @@ def leakage_subjects(spec: PipelineSpec, severity: dict[str, str]) -> list[tuple
     links = spec.task.links if spec.task is not None else None
     if links is not None:
         for dotted in links.relations:
-            rules = list(CHECKED[:2]) + (["training-edge-after-cut"] if links.by_time else [])
+            rules = [*CHECKED[:2]] + (["training-edge-after-cut"] if links.by_time else [])
             out += [(rule, {"relation": dotted}) for rule in rules]
     label = spec.label
     if label is not None:
@@ -83,14 +90,67 @@ def leakage_checks(
         "check: leakage audit: parts computed and audited in %.2f s", time.perf_counter() - started
     )
     findings = [_finding(f) for f in (entry or {}).get("findings", [])]
-    evaluated = []
+    return findings, _evaluations(subjects, findings)
+
+
+def part_move_checks(
+    spec: PipelineSpec, snapshot: Snapshot, engine: Engine, previous: Path
+) -> tuple[list[Finding], list[Evaluation]]:
+    """``part-changed-since-previous`` against ``previous``, from a trial build of the new
+    version (see the module's contract). Subjects: the vertex types with parts and the
+    relations with edge parts in both versions."""
+    from graphmill.bundle import read_manifest
+    from graphmill.compare._edge_moves import edge_parts_table
+    from graphmill.transform._build import build_bundle
+    from graphmill.transform._leakage_audit import severities
+    from graphmill.transform._leakage_moves import RULE
+
+    if severities(spec)[RULE] == "off":
+        return [], []
+    started = time.perf_counter()
+    folder = spec.output.bundle.parent
+    with tempfile.TemporaryDirectory(
+        prefix=f".{spec.output.bundle.name}.check-", dir=folder if folder.is_dir() else None
+    ) as scratch:
+        output = dataclasses.replace(spec.output, bundle=Path(scratch) / "bundle")
+        trial = dataclasses.replace(spec, output=output)
+        info = build_bundle(
+            trial, snapshot, previous=previous, even_if_drifting=True, even_if_leaking=True,
+            engine=engine,
+        )  # fmt: skip
+        new = read_manifest(output.bundle, verify=False)
+    old = read_manifest(previous, verify=False)
+    log.info(
+        "check: %s: a trial build compared with %s in %.2f s",
+        RULE,
+        previous,
+        time.perf_counter() - started,
+    )
+    subjects: list[tuple[str, dict[str, str]]] = [
+        (RULE, {"vertex_type": vt})
+        for vt, entry in new["vertex_types"].items()
+        if entry.get("parts") and (old["vertex_types"].get(vt) or {}).get("parts")
+    ]
+    subjects += [
+        (RULE, {"relation": dotted})
+        for dotted, entry in new["relations"].items()
+        if edge_parts_table(entry) and edge_parts_table(old["relations"].get(dotted) or {})
+    ]
+    findings = [_finding(f) for f in (info.leakage or {}).get("findings", []) if f["rule"] == RULE]
+    return findings, _evaluations(subjects, findings)
+
+
+def _evaluations(
+    subjects: list[tuple[str, dict[str, str]]], findings: list[Finding]
+) -> list[Evaluation]:
+    out = []
     for rule, subject in subjects:
         found = [f for f in findings if f.rule == rule and f.subject == subject]
         worst = next(
             (s for s in ("error", "warning", "info") if any(f.severity == s for f in found)), None
         )
-        evaluated.append(Evaluation(rule, subject, STATUS_OF[worst] if worst else "pass"))
-    return findings, evaluated
+        out.append(Evaluation(rule, subject, STATUS_OF[worst] if worst else "pass"))
+    return out
 
 
 def _finding(found: dict[str, Any]) -> Finding:

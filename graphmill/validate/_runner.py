@@ -24,6 +24,7 @@ Subjects per rule:
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
+from pathlib import Path
 
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
@@ -42,7 +43,7 @@ from graphmill.validate._findings import (
     Severity,
     resolve_severities,
 )
-from graphmill.validate._leakage_checks import leakage_checks
+from graphmill.validate._leakage_checks import leakage_checks, part_move_checks
 from graphmill.validate._report import Report
 from graphmill.validate.rules._properties import (
     ILL_TYPED,
@@ -212,10 +213,18 @@ def _snapshot_info(snapshot: Snapshot) -> dict[str, object]:
     }
 
 
-def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None = None) -> Report:
+def run_checks(
+    spec: PipelineSpec,
+    snapshot: Snapshot,
+    *,
+    engine: Engine | None = None,
+    previous: Path | None = None,
+) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
     ``engine`` runs the set operations (default: the one the spec names, opened here).
+    ``previous`` (default: ``drift_gate.previous``): the earlier bundle that
+    ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -224,7 +233,7 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None 
     """
     if engine is None:
         with open_engine(spec) as opened:
-            return run_checks(spec, snapshot, engine=opened)
+            return run_checks(spec, snapshot, engine=opened, previous=previous)
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
     ctx = CheckContext(spec, snapshot, engine)
@@ -243,6 +252,11 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None 
     leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
     findings += leaks
     evaluated += audited
+    previous = previous or spec.drift_gate.previous
+    if previous is not None:
+        leaks, audited = part_move_checks(spec, snapshot, engine, previous)
+        findings += leaks
+        evaluated += audited
     return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
 
 

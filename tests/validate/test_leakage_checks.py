@@ -12,8 +12,11 @@ from typing import Any
 import networkx as nx
 import pyarrow as pa
 import pytest
+import yaml
 
 from graphmill._schemas import validate_document
+from graphmill.cli import main
+from graphmill.errors import ExitCode
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
 from graphmill.transform import build_bundle
@@ -23,6 +26,7 @@ from graphmill.validate._leakage_checks import CHECKED
 from tests.transform._snapshots import publish, spec_document
 from tests.transform.test_leakage import shop_document, shop_tables
 from tests.transform.test_leakage_labels import build as karate_case
+from tests.transform.test_leakage_moves import karate_build
 
 
 def les_miserables(out: Path, **checks: Any) -> tuple[PipelineSpec, Snapshot]:
@@ -85,6 +89,7 @@ def _shop(out: Path) -> tuple[PipelineSpec, Snapshot]:
     return publish(shop_document(out), shop_tables())  # networkx.bipartite generator
 
 
+MOVES = "part-changed-since-previous"
 CASES = {"karate": _karate, "les-miserables": les_miserables, "bipartite": _shop}
 
 
@@ -172,3 +177,46 @@ def test_no_audit_without_a_task_or_labelled_features(tmp_path: Path) -> None:
     )
     report = run_checks(*publish(document, tables))
     assert not [e for e in report.evaluated if e.rule in CHECKED]
+
+
+@pytest.mark.parametrize("seed", [5, 6])
+def test_part_moves_in_check_equal_the_manifests(tmp_path: Path, seed: int) -> None:
+    """Karate club twice (networkx), the second time 5% changed; another seed moves kept
+    vertices. The check compares with the previous bundle through a trial build."""
+    spec, snapshot = karate_build(tmp_path / "v1", changed=False, seed=5)
+    first = build_bundle(spec, snapshot).bundle
+    spec, snapshot = karate_build(
+        tmp_path / "v2",
+        changed=True,
+        seed=seed,
+        drift_gate={"previous": str(first)},
+        checks={"severity": {MOVES: "error"}},
+    )
+    report = run_checks(spec, snapshot)
+    validate_document("report", report.to_dict())
+    assert [e.status for e in report.evaluated if e.rule == MOVES] == [
+        "pass" if seed == 5 else "fail"
+    ]
+    assert not spec.output.bundle.exists()  # the trial build published nothing
+    assert not list((tmp_path / "v2").glob(".bundle.check-*"))  # and left nothing behind
+    build_bundle(spec, snapshot, even_if_leaking=True)
+    manifest = json.loads((spec.output.bundle / "manifest.json").read_text())
+    expected = [
+        f for f in (manifest.get("leakage") or {}).get("findings", []) if f["rule"] == MOVES
+    ]
+    assert [f for f in _as_manifest(report) if f["rule"] == MOVES] == expected
+    assert report.passed is (seed == 5) and bool(expected) is (seed == 6)
+
+
+def test_check_cli_takes_previous(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    spec, snapshot = karate_build(tmp_path / "v1", changed=False, seed=5)
+    first = build_bundle(spec, snapshot).bundle
+    spec, snapshot = karate_build(
+        tmp_path / "v2", changed=True, seed=6, checks={"severity": {MOVES: "error"}}
+    )
+    spec_file = tmp_path / "v2.yaml"
+    spec_file.write_text(yaml.safe_dump(spec.raw))
+    assert main(["check", str(spec_file), "--no-progress"]) == 0  # nothing named: not run
+    code = main(["check", str(spec_file), "--previous", str(first), "--no-progress"])
+    out = capsys.readouterr().out
+    assert code == ExitCode.CHECKS_FAILED and MOVES in out
