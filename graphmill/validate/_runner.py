@@ -219,12 +219,15 @@ def run_checks(
     *,
     engine: Engine | None = None,
     previous: Path | None = None,
+    part_moves: bool = True,
 ) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
     ``engine`` runs the set operations (default: the one the spec names, opened here).
     ``previous`` (default: ``drift_gate.previous``): the earlier bundle that
-    ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``).
+    ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``);
+    ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
+    whose build evaluates it on the bundle it writes and gates the same way).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -233,7 +236,9 @@ def run_checks(
     """
     if engine is None:
         with open_engine(spec) as opened:
-            return run_checks(spec, snapshot, engine=opened, previous=previous)
+            return run_checks(
+                spec, snapshot, engine=opened, previous=previous, part_moves=part_moves
+            )
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
     ctx = CheckContext(spec, snapshot, engine)
@@ -253,7 +258,7 @@ def run_checks(
     findings += leaks
     evaluated += audited
     previous = previous or spec.drift_gate.previous
-    if previous is not None:
+    if previous is not None and part_moves:
         leaks, audited = part_move_checks(spec, snapshot, engine, previous)
         findings += leaks
         evaluated += audited
