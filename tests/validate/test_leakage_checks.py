@@ -220,3 +220,21 @@ def test_check_cli_takes_previous(tmp_path: Path, capsys: pytest.CaptureFixture[
     code = main(["check", str(spec_file), "--previous", str(first), "--no-progress"])
     out = capsys.readouterr().out
     assert code == ExitCode.CHECKS_FAILED and MOVES in out
+
+
+def test_build_leaves_part_moves_to_its_own_build(
+    tmp_path: Path, caplog: pytest.LogCaptureFixture
+) -> None:
+    from graphmill.pipeline import Pipeline
+
+    spec, snapshot = karate_build(tmp_path / "v1", changed=False, seed=5)
+    first = build_bundle(spec, snapshot).bundle
+    spec, _ = karate_build(tmp_path / "v2", changed=True, seed=6)
+    pipeline = Pipeline(spec)
+    with caplog.at_level("INFO", logger="graphmill.pipeline"):
+        info = pipeline.build(previous=first)
+    assert "left to the build" in caplog.text
+    assert pipeline.last_report is not None
+    assert MOVES not in {e.rule for e in pipeline.last_report.evaluated}
+    assert info.leakage is not None  # the build evaluated it (a warning by default)
+    assert [f["rule"] for f in info.leakage["findings"]] == [MOVES]
