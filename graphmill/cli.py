@@ -79,6 +79,13 @@ def _parser() -> argparse.ArgumentParser:
                 action="store_true",
                 help="discard what an interrupted pull staged and read every unit again",
             )
+        if name == "check":
+            cmd.add_argument(
+                "--previous",
+                metavar="BUNDLE",
+                help="the earlier version for the leakage rule part-changed-since-previous "
+                "(overrides drift_gate.previous; costs a trial build)",
+            )
         if name in ("build", "run"):
             cmd.add_argument(
                 "--even-if-failing",
@@ -236,7 +243,7 @@ def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
         check_output_paths(pipeline.spec, extra={"--junit": args.junit})
         junit = expand_path(args.junit, Path.cwd())
         ensure_replaceable(junit, "junit", "--junit")
-    report = pipeline.check()
+    report = pipeline.check(previous=args.previous)
     if junit is not None:
         report.write_junit(junit, key="--junit")
     if args.json:

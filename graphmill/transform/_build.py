@@ -31,7 +31,7 @@ from graphmill.transform._edge_features import add_edge_features
 from graphmill.transform._edges import EdgeArrays
 from graphmill.transform._indexing import VertexIndex, index_vertices
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
-from graphmill.transform._pinned import read_pinned
+from graphmill.transform._pinned import PinnedVocabularies, read_pinned
 from graphmill.transform._pseudonyms import (
     SCHEME,
     key_fingerprint,
@@ -122,30 +122,9 @@ def build_bundle(
     check_snapshot(spec, snapshot)
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
-    content = BundleContent()
-    content.manifest.update(
-        {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
+    content = assemble_content(
+        spec, snapshot, engine, info, key=key, pinned=pinned, progress=progress
     )
-    indices: dict[str, VertexIndex] = {}
-    task = progress.task("build vertices", total=len(spec.vertex_types))
-    for name, vt in spec.vertex_types.items():
-        columns = [VERTEX_ID] + [p.name for p in vt.properties]
-        table = snapshot.vertices(name).select(columns)
-        fn = pseudonymizer(name, key) if key is not None else None
-        indices[name] = vi = index_vertices(
-            name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
-        )
-        check_unique(vi)
-        info.warnings += add_vertex_type(content, spec, vi, pinned)
-        info.vertex_counts[name] = vi.count
-        info.duplicate_vertices[name] = vi.duplicates
-        task.advance()
-    task = progress.task("build relations", total=len(spec.relations))
-    for rel in spec.relations:
-        _add_relation(content, info, spec, snapshot, rel, indices, engine)
-        task.advance()
-    if links_task := (spec.task.links if spec.task is not None else None):
-        content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
     _audit_leakage(content, info, spec, even_if_leaking)
     add_edge_features(content, spec)  # after the edge split: fitted on training edges
     if spec.label is not None:
@@ -208,6 +187,50 @@ def build_bundle(
         seal_with_card(scratch, manifest)
     info.seconds = time.perf_counter() - started
     return info
+
+
+def assemble_content(
+    spec: PipelineSpec,
+    snapshot: Snapshot,
+    engine: Engine,
+    info: BuildInfo,
+    *,
+    key: bytes | None = None,
+    pinned: PinnedVocabularies | None = None,
+    audit_only: bool = False,
+    progress: Progress | None = None,
+) -> BundleContent:
+    """The bundle content up to the leakage audit: the vertex indices, labels, targets and
+    parts, the features, and each relation's edges with their edge and link parts and
+    negatives. The build continues from here; ``graphmill check`` stops here to run the
+    leakage audit on the same parts (see :mod:`graphmill.validate._leakage_checks`), with
+    ``audit_only``: no feature encoders and no negatives, which no audit rule reads."""
+    progress = progress or SilentProgress()
+    content = BundleContent()
+    content.manifest.update(
+        {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
+    )
+    indices: dict[str, VertexIndex] = {}
+    task = progress.task("build vertices", total=len(spec.vertex_types))
+    for name, vt in spec.vertex_types.items():
+        columns = [VERTEX_ID] + [p.name for p in vt.properties]
+        table = snapshot.vertices(name).select(columns)
+        fn = pseudonymizer(name, key) if key is not None else None
+        indices[name] = vi = index_vertices(
+            name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
+        )
+        check_unique(vi)
+        info.warnings += add_vertex_type(content, spec, vi, pinned, features=not audit_only)
+        info.vertex_counts[name] = vi.count
+        info.duplicate_vertices[name] = vi.duplicates
+        task.advance()
+    task = progress.task("build relations", total=len(spec.relations))
+    for rel in spec.relations:
+        _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
+        task.advance()
+    if links_task := (spec.task.links if spec.task is not None else None):
+        content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
+    return content
 
 
 def _audit_leakage(
@@ -276,6 +299,7 @@ def _add_relation(
     rel: Any,
     indices: dict[str, VertexIndex],
     engine: Engine,
+    audit_only: bool = False,
 ) -> None:
     key: RelationKey = rel.key
     edges_file = snapshot.file("edges", key.dotted)  # the engine maps IDs from the file
@@ -313,7 +337,14 @@ def _add_relation(
         from graphmill.transform._link_task import add_link_split
 
         sizes = add_link_split(
-            content, spec, key, outcome.edges, properties, (src, dst), forward=key
+            content,
+            spec,
+            key,
+            outcome.edges,
+            properties,
+            (src, dst),
+            forward=key,
+            negatives=not audit_only,
         )
         for part, n in sizes.items():
             info.part_sizes[part] = info.part_sizes.get(part, 0) + n

@@ -55,8 +55,10 @@ def add_link_split(
     ends: tuple[VertexIndex, VertexIndex],
     *,
     forward: RelationKey,
+    negatives: bool = True,
 ) -> dict[str, int]:
-    """Add the link split of ``key`` (``forward`` is itself, or the relation it reverses)."""
+    """Add the link split of ``key`` (``forward`` is itself, or the relation it reverses);
+    without ``negatives`` none are drawn (the check stage's leakage audit reads none)."""
     assert spec.task is not None and spec.task.links is not None
     links = spec.task.links
     is_reverse = key != forward
@@ -110,7 +112,7 @@ def add_link_split(
     entry["supervision_share"] = links.supervision_share
     entry["unseen_vertices"] = links.unseen_vertices
     entry["negatives"] = None
-    if not is_reverse:
+    if negatives and not is_reverse:
         entry["negatives"] = _add_negatives(content, spec, key, edges, positions, rel.undirected)
     content.manifest["relations"][key.dotted]["link_split"] = entry
     return {p: len(positions[p]) for p in PARTS}

@@ -41,8 +41,11 @@ def add_vertex_type(
     spec: PipelineSpec,
     vi: VertexIndex,
     pinned: PinnedVocabularies | None = None,
+    *,
+    features: bool = True,
 ) -> list[str]:
-    """Add everything about ``vi.vertex_type`` to ``content``; return warnings."""
+    """Add everything about ``vi.vertex_type`` to ``content``; return warnings. Without
+    ``features`` the feature encoders are not fitted (what the check stage's audit needs)."""
     name, n = vi.vertex_type, vi.count
     warnings: list[str] = []
     index = pa.array(np.arange(n, dtype=np.int64))
@@ -62,18 +65,19 @@ def add_vertex_type(
     }
     fit_rows = np.arange(n, dtype=np.int64)
     content.manifest.setdefault("vertex_types", {})[name] = entry
-    features = [f for f in spec.features if f.vertex_type == name]
+    wanted = [f for f in spec.features if f.vertex_type == name]
     label = spec.label
     if label is not None and label.vertex_type == name:
         fit_rows = _add_label_and_parts(content, spec, vi, entry, warnings)
-        if any(f.property == label.property for f in features):
+        if any(f.property == label.property for f in wanted):
             warnings.append(
                 f"features.{name}: property {label.property!r} is also the label; the "
                 "features reveal the label"
             )
-    encoded = encode_vertex_features(name, vi.table, features, fit_rows, vi.public_ids, pinned)
-    warnings += encoded.warnings
-    _add_features(content, name, index, encoded, entry)
+    if features:
+        encoded = encode_vertex_features(name, vi.table, wanted, fit_rows, vi.public_ids, pinned)
+        warnings += encoded.warnings
+        _add_features(content, name, index, encoded, entry)
     content.manifest.setdefault("vertex_types", {})[name] = entry
     return warnings
 

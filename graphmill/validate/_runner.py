@@ -16,12 +16,15 @@ Subjects per rule:
   ``value-out-of-range`` on numeric columns with a declared ``min`` or ``max``;
 * the label: ``unlabeled-vertices``, ``thin-class``;
 * what ``checks.expect`` names: the contract rules; the whole graph:
-  ``vertex-id-in-several-types``, ``snapshot-note``.
+  ``vertex-id-in-several-types``, ``snapshot-note``;
+* last, the build's leakage audit on the parts the build would draw
+  (:mod:`graphmill.validate._leakage_checks`).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
+from pathlib import Path
 
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
@@ -40,6 +43,7 @@ from graphmill.validate._findings import (
     Severity,
     resolve_severities,
 )
+from graphmill.validate._leakage_checks import leakage_checks, part_move_checks
 from graphmill.validate._report import Report
 from graphmill.validate.rules._properties import (
     ILL_TYPED,
@@ -209,10 +213,21 @@ def _snapshot_info(snapshot: Snapshot) -> dict[str, object]:
     }
 
 
-def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None = None) -> Report:
+def run_checks(
+    spec: PipelineSpec,
+    snapshot: Snapshot,
+    *,
+    engine: Engine | None = None,
+    previous: Path | None = None,
+    part_moves: bool = True,
+) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
     ``engine`` runs the set operations (default: the one the spec names, opened here).
+    ``previous`` (default: ``drift_gate.previous``): the earlier bundle that
+    ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``);
+    ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
+    whose build evaluates it on the bundle it writes and gates the same way).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -221,7 +236,9 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None 
     """
     if engine is None:
         with open_engine(spec) as opened:
-            return run_checks(spec, snapshot, engine=opened)
+            return run_checks(
+                spec, snapshot, engine=opened, previous=previous, part_moves=part_moves
+            )
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
     ctx = CheckContext(spec, snapshot, engine)
@@ -237,6 +254,14 @@ def run_checks(spec: PipelineSpec, snapshot: Snapshot, *, engine: Engine | None 
             found = [_finding(rule_id, level, subject, o) for o in outcomes if o.reported]
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
+    leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
+    findings += leaks
+    evaluated += audited
+    previous = previous or spec.drift_gate.previous
+    if previous is not None and part_moves:
+        leaks, audited = part_move_checks(spec, snapshot, engine, previous)
+        findings += leaks
+        evaluated += audited
     return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
 
 

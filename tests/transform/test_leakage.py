@@ -229,9 +229,15 @@ def _cli_project(root: Path, severity: str) -> Path:
 def test_cli_gate_and_even_if_failing(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     spec = _cli_project(tmp_path / "a", "error")
     assert main(["pull", str(spec), "--no-progress"]) == 0
-    code = main(["build", str(spec), "--no-progress"])
+    assert main(["check", str(spec), "--no-progress"]) == ExitCode.CHECKS_FAILED
+    report = json.loads((tmp_path / "a/out/bundle.snapshot.report.json").read_text())
+    assert [f["rule"] for f in report["findings"] if f["severity"] == "error"] == [
+        "evaluation-pair-in-other-relation"
+    ]
+    capsys.readouterr()
+    code = main(["build", str(spec), "--no-progress"])  # its checks hold the audit
     err = capsys.readouterr().err
-    assert code == ExitCode.CHECKS_FAILED and "leakage audit failed" in err
+    assert code == ExitCode.CHECKS_FAILED and "evaluation-pair-in-other-relation" in err
     assert "Traceback" not in err and not (tmp_path / "a/out/bundle").exists()
     assert main(["build", str(spec), "--even-if-failing", "--no-progress"]) == 1
     manifest = json.loads((tmp_path / "a/out/bundle/manifest.json").read_text())
