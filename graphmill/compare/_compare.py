@@ -1,13 +1,17 @@
 """``compare_bundles``: two bundle folders in, a :class:`Comparison` out.
 
 Contract: both bundles are verified (manifest self-hash and every file's sha256) unless
-``verify=False``; vertices are matched by the ID column both bundles ship (original IDs, or
+``verify=False``: each file the comparison reads is hashed from the very bytes it parses, on
+worker threads while the comparison runs, the others are hashed from disk beside it, and no
+result is returned before every hash matched (else :class:`BundleIntegrityError`, exit 8);
+vertices are matched by the ID column both bundles ship (original IDs, or
 pseudonyms when both builds used the same key; anything else is refused with exit code 2).
 Vertex types and relations present in only one bundle are reported whole as added or removed.
 """
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 from typing import Any
 
@@ -24,15 +28,16 @@ from graphmill.compare._drift import (
     numeric_drift,
 )
 from graphmill.compare._edge_moves import edge_part_moves, edge_parts_table
+from graphmill.compare._files import SideFiles, shared_pool
 from graphmill.compare._gate import evaluate, gate_summary
 from graphmill.compare._result import COMPARISON_FORMAT, Comparison
 from graphmill.compare._tables import (
     BundleSide,
     VertexMatch,
-    column_values,
     comparable_properties,
     compare_edges,
     connect,
+    endpoints,
     match_vertices,
 )
 from graphmill.errors import InputError
@@ -66,6 +71,10 @@ def matching_column(old: BundleSide, new: BundleSide) -> str:
     return "pseudonym" if a["pseudonymized"] else "vertex_id"
 
 
+WORKERS = 2  # vertex types (then relations) compared at once
+READ_BY_COMPARISON = ("tables/vertices/", "tables/edges/", "tables/parts/", "tables/edge_parts/")
+
+
 def compare_bundles(
     old: str | Path,
     new: str | Path,
@@ -74,25 +83,49 @@ def compare_bundles(
     verify: bool = True,
 ) -> Comparison:
     """Compare bundle ``new`` with the earlier bundle ``old``; apply the drift ``rules``."""
-    return compare_sides(open_side(old, verify=verify), open_side(new, verify=verify), rules=rules)
+    with shared_pool() as pool:
+        sides = [_side(Path(p), verify, pool) for p in (old, new)]
+        try:
+            result = compare_sides(*sides, rules=rules)
+        except Exception:
+            for side in sides:  # a tampered file explains a failure better than its symptom
+                side.files.settle()
+            raise
+        for side in sides:
+            side.files.settle()
+    return result
+
+
+def _side(root: Path, verify: bool, pool: ThreadPoolExecutor) -> BundleSide:
+    manifest = read_manifest(root, verify=verify)
+    expected = {e["path"]: (e["bytes"], e["sha256"]) for e in manifest["files"]}
+    files = SideFiles(root, expected, verify=verify, pool=pool)
+    files.hash_unread(READ_BY_COMPARISON)
+    return BundleSide(root, manifest, files)
 
 
 def compare_sides(
     old: BundleSide, new: BundleSide, *, rules: dict[str, GateRule] | None = None
 ) -> Comparison:
     matched_by = matching_column(old, new)
+    kinds = sorted(set(old.manifest["vertex_types"]) | set(new.manifest["vertex_types"]))
+    dotted = sorted(set(old.manifest["relations"]) | set(new.manifest["relations"]))
+    matches: dict[str, VertexMatch] = {}
     con = connect()
+    # Types, then relations, side by side on worker threads: Parquet decoding, DuckDB and
+    # numpy's sorts and gathers run without the GIL, and each type or relation stands alone.
     try:
-        matches: dict[str, VertexMatch] = {}
-        vertex_types = {}
-        for vt in sorted(set(old.manifest["vertex_types"]) | set(new.manifest["vertex_types"])):
-            vertex_types[vt] = _vertex_type(con, old, new, vt, matches)
+        with ThreadPoolExecutor(WORKERS, thread_name_prefix="gm-compare") as pool:
+            done = list(pool.map(lambda vt: _vertex_type(con, old, new, vt), kinds))
+            vertex_types = {vt: entry for vt, (entry, _) in zip(kinds, done, strict=True)}
+            matches = {vt: m for vt, (_, m) in zip(kinds, done, strict=True) if m is not None}
+            relations = dict(
+                zip(
+                    dotted, pool.map(lambda r: _relation(old, new, r, matches), dotted), strict=True
+                )
+            )
     finally:
         con.close()
-    relations = {
-        dotted: _relation(old, new, dotted, matches)
-        for dotted in sorted(set(old.manifest["relations"]) | set(new.manifest["relations"]))
-    }
     doc: dict[str, Any] = {
         "comparison_format": COMPARISON_FORMAT,
         "graphmill_version": __version__,
@@ -120,20 +153,25 @@ def _whole(status: str, old: int, new: int) -> dict[str, Any]:
 
 
 def _vertex_type(
-    con: Any, old: BundleSide, new: BundleSide, vt: str, matches: dict[str, VertexMatch]
-) -> dict[str, Any]:
+    con: Any, old: BundleSide, new: BundleSide, vt: str
+) -> tuple[dict[str, Any], VertexMatch | None]:
+    """The type's entry, and how its vertices match (None for a type on one side only)."""
     in_old, in_new = vt in old.manifest["vertex_types"], vt in new.manifest["vertex_types"]
     if not (in_old and in_new):
         count = (old if in_old else new).manifest["vertex_types"][vt]["count"]
         status = "only-old" if in_old else "only-new"
-        return {
-            **_whole(status, count if in_old else 0, 0 if in_old else count),
-            **_empty_details(),
-        }
-    m = matches[vt] = match_vertices(con, old, new, vt)
+        entry = {**_whole(status, count if in_old else 0, 0 if in_old else count)}
+        return {**entry, **_empty_details()}, None
+    tables = old.vertices(vt), new.vertices(vt)
+    shared = comparable_properties(old, (tables[0].schema, tables[1].schema), vt)
+    cursor = con.cursor()  # one per thread
+    try:
+        m = match_vertices(cursor, old, new, vt, tables, shared)
+    finally:
+        cursor.close()
     numeric, categorical = {}, {}
-    for prop in comparable_properties(old, new, vt):
-        a, b = column_values(old.vertex_file(vt), prop), column_values(new.vertex_file(vt), prop)
+    for prop in shared:
+        a, b = tables[0].column(prop), tables[1].column(prop)
         kind = kind_of(a.type)
         if kind == "numeric":
             numeric[prop] = numeric_drift(a, b)
@@ -158,7 +196,7 @@ def _vertex_type(
         "numeric_drift": numeric,
         "categorical_drift": categorical,
         "part_moves": moves,
-    }
+    }, m
 
 
 def _empty_details() -> dict[str, Any]:
@@ -186,9 +224,9 @@ def _relation(
         }
     entry = new.manifest["relations"][dotted]
     src, dst = matches[entry["source_type"]], matches[entry["target_type"]]
+    ends = endpoints(old, old.edge_file(dotted)), endpoints(new, new.edge_file(dotted))
     result = compare_edges(
-        old.edge_file(dotted),
-        new.edge_file(dotted),
+        *ends,
         src.lookup(),
         dst.lookup(),
         (src.old_count, src.new_count, dst.old_count, dst.new_count),
@@ -198,10 +236,8 @@ def _relation(
     moves = None
     if old_table and new_table:
         moves = edge_part_moves(
-            old.edge_file(dotted),
-            new.edge_file(dotted),
-            old.root / old_table,
-            new.root / new_table,
+            ends,
+            ((old, old_table), (new, new_table)),
             (src.lookup(), dst.lookup()),
             dst.new_count,
         )
