@@ -18,7 +18,7 @@ from typing import Any
 import pyarrow as pa
 
 from graphmill._version import __version__
-from graphmill.bundle import read_manifest, verify_files
+from graphmill.bundle import MANIFEST_FILE, read_manifest, verify_files
 from graphmill.compare._drift import (
     categorical_drift,
     degree_drift,
@@ -41,6 +41,7 @@ from graphmill.compare._tables import (
     match_vertices,
 )
 from graphmill.errors import InputError
+from graphmill.snapshot import SNAPSHOT_FILE
 from graphmill.spec import GateRule
 
 
@@ -82,11 +83,26 @@ def compare_bundles(
     rules: dict[str, GateRule] | None = None,
     verify: bool = True,
 ) -> Comparison:
-    """Compare bundle ``new`` with the earlier bundle ``old``; apply the drift ``rules``."""
+    """Compare ``new`` with the earlier ``old`` and apply the drift ``rules``: two bundle
+    folders, or two snapshot folders (see ``_snapshots.py`` for what snapshots compare)."""
+    roots = Path(old), Path(new)
+    kinds = [side_kind(root) for root in roots]
+    if kinds[0] != kinds[1]:
+        raise InputError(
+            f"{roots[0]} is a {kinds[0]} and {roots[1]} a {kinds[1]}: nothing to compare",
+            file=str(roots[1]),
+            hint="compare two bundles (what build wrote) or two snapshots (what pull wrote)",
+        )
     with shared_pool() as pool:
-        sides = [_side(Path(p), verify, pool) for p in (old, new)]
+        if kinds[0] == "snapshot":
+            from graphmill.compare._snapshots import compare_snapshot_sides, open_snapshot_side
+
+            sides: list[BundleSide] = [open_snapshot_side(r, verify, pool) for r in roots]
+            run: Any = compare_snapshot_sides
+        else:
+            sides, run = [_side(r, verify, pool) for r in roots], compare_sides
         try:
-            result = compare_sides(*sides, rules=rules)
+            result: Comparison = run(*sides, rules=rules)
         except Exception:
             for side in sides:  # a tampered file explains a failure better than its symptom
                 side.files.settle()
@@ -94,6 +110,13 @@ def compare_bundles(
         for side in sides:
             side.files.settle()
     return result
+
+
+def side_kind(root: Path) -> str:
+    """``snapshot`` for a folder with ``snapshot.json`` and no manifest, else ``bundle``."""
+    if (root / SNAPSHOT_FILE).is_file() and not (root / MANIFEST_FILE).is_file():
+        return "snapshot"
+    return "bundle"
 
 
 def _side(root: Path, verify: bool, pool: ThreadPoolExecutor) -> BundleSide:
@@ -108,26 +131,20 @@ def compare_sides(
     old: BundleSide, new: BundleSide, *, rules: dict[str, GateRule] | None = None
 ) -> Comparison:
     matched_by = matching_column(old, new)
-    kinds = sorted(set(old.manifest["vertex_types"]) | set(new.manifest["vertex_types"]))
     dotted = sorted(set(old.manifest["relations"]) | set(new.manifest["relations"]))
-    matches: dict[str, VertexMatch] = {}
     con = connect()
     # Types, then relations, side by side on worker threads: Parquet decoding, DuckDB and
     # numpy's sorts and gathers run without the GIL, and each type or relation stands alone.
     try:
         with ThreadPoolExecutor(WORKERS, thread_name_prefix="gm-compare") as pool:
-            done = list(pool.map(lambda vt: _vertex_type(con, old, new, vt), kinds))
-            vertex_types = {vt: entry for vt, (entry, _) in zip(kinds, done, strict=True)}
-            matches = {vt: m for vt, (_, m) in zip(kinds, done, strict=True) if m is not None}
-            relations = dict(
-                zip(
-                    dotted, pool.map(lambda r: _relation(old, new, r, matches), dotted), strict=True
-                )
-            )
+            vertex_types, matches = compare_vertex_types(pool, con, old, new)
+            compared = pool.map(lambda r: _relation(old, new, r, matches), dotted)
+            relations = dict(zip(dotted, compared, strict=True))
     finally:
         con.close()
     doc: dict[str, Any] = {
         "comparison_format": COMPARISON_FORMAT,
+        "compared": "bundles",
         "graphmill_version": __version__,
         "old": _identity(old),
         "new": _identity(new),
@@ -137,9 +154,25 @@ def compare_sides(
         "label": label_drift(old.manifest, new.manifest),
         "findings": findings_drift(old.manifest, new.manifest),
     }
+    return judged(doc, rules, {vt: m.index_map for vt, m in matches.items()})
+
+
+def compare_vertex_types(
+    pool: ThreadPoolExecutor, con: Any, old: BundleSide, new: BundleSide
+) -> tuple[dict[str, Any], dict[str, VertexMatch]]:
+    """Every vertex type's entry, and the matches of the types both sides have."""
+    kinds = sorted(set(old.manifest["vertex_types"]) | set(new.manifest["vertex_types"]))
+    done = list(pool.map(lambda vt: _vertex_type(con, old, new, vt), kinds))
+    entries = {vt: entry for vt, (entry, _) in zip(kinds, done, strict=True)}
+    return entries, {vt: m for vt, (_, m) in zip(kinds, done, strict=True) if m is not None}
+
+
+def judged(
+    doc: dict[str, Any], rules: dict[str, GateRule] | None, maps: dict[str, pa.Table]
+) -> Comparison:
+    """The comparison ``doc`` with the drift gate's verdict on it."""
     findings, evaluated = evaluate(doc, rules or {})
     doc["gate"] = gate_summary(findings, evaluated)
-    maps = {vt: m.index_map for vt, m in matches.items()}
     return Comparison(doc, maps, evaluated)
 
 

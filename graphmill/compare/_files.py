@@ -31,12 +31,13 @@ def _digest(buffer: pa.Buffer) -> str:
 
 class SideFiles:
     """Reads of one bundle's (or snapshot's) files. ``expected`` maps each relative path to
-    its (size in bytes, sha256); with ``verify=False`` nothing is hashed."""
+    its (size in bytes or None when not recorded, sha256); with ``verify=False`` nothing is
+    hashed."""
 
     def __init__(
         self,
         root: Path,
-        expected: dict[str, tuple[int, str]],
+        expected: dict[str, tuple[int | None, str]],
         *,
         verify: bool,
         pool: ThreadPoolExecutor | None = None,
@@ -52,7 +53,7 @@ class SideFiles:
         if verify:
             for rel, (size, _) in expected.items():  # cheap: a missing file fails at once
                 path = root / rel
-                if not path.is_file() or path.stat().st_size != size:
+                if not path.is_file() or size not in (None, path.stat().st_size):
                     self._fail(rel)
 
     def _fail(self, rel: str) -> None:
