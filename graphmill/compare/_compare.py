@@ -89,9 +89,9 @@ def compare_bundles(
     kinds = [side_kind(root) for root in roots]
     if kinds[0] != kinds[1]:
         raise InputError(
-            f"{roots[0]} is a {kinds[0]} and {roots[1]} a {kinds[1]}: nothing to compare",
+            f"is a {kinds[1]}, but {roots[0]} is a {kinds[0]}: nothing to compare",
             file=str(roots[1]),
-            hint="compare two bundles (what build wrote) or two snapshots (what pull wrote)",
+            hint="compare two bundles (what build writes) or two snapshots (what pull writes)",
         )
     with shared_pool() as pool:
         if kinds[0] == "snapshot":
