@@ -21,23 +21,20 @@ from graphmill._version import __version__
 from graphmill.bundle import MANIFEST_FILE, read_manifest, verify_files
 from graphmill.compare._drift import (
     categorical_drift,
-    degree_drift,
     findings_drift,
     kind_of,
     label_drift,
     numeric_drift,
 )
-from graphmill.compare._edge_moves import edge_part_moves, edge_parts_table
 from graphmill.compare._files import SideFiles, shared_pool
 from graphmill.compare._gate import evaluate, gate_summary
+from graphmill.compare._relations import bundle_relation, whole
 from graphmill.compare._result import COMPARISON_FORMAT, Comparison
 from graphmill.compare._tables import (
     BundleSide,
     VertexMatch,
     comparable_properties,
-    compare_edges,
     connect,
-    endpoints,
     match_vertices,
 )
 from graphmill.errors import InputError
@@ -138,7 +135,7 @@ def compare_sides(
     try:
         with ThreadPoolExecutor(WORKERS, thread_name_prefix="gm-compare") as pool:
             vertex_types, matches = compare_vertex_types(pool, con, old, new)
-            compared = pool.map(lambda r: _relation(old, new, r, matches), dotted)
+            compared = pool.map(lambda r: bundle_relation(old, new, r, matches), dotted)
             relations = dict(zip(dotted, compared, strict=True))
     finally:
         con.close()
@@ -181,10 +178,6 @@ def _identity(side: BundleSide) -> dict[str, Any]:
     return {"name": m["name"], "bundle": str(side.root), "manifest_sha256": m["manifest_sha256"]}
 
 
-def _whole(status: str, old: int, new: int) -> dict[str, Any]:
-    return {"status": status, "old": old, "new": new, "kept": 0, "added": new, "removed": old}
-
-
 def _vertex_type(
     con: Any, old: BundleSide, new: BundleSide, vt: str
 ) -> tuple[dict[str, Any], VertexMatch | None]:
@@ -193,7 +186,7 @@ def _vertex_type(
     if not (in_old and in_new):
         count = (old if in_old else new).manifest["vertex_types"][vt]["count"]
         status = "only-old" if in_old else "only-new"
-        entry = {**_whole(status, count if in_old else 0, 0 if in_old else count)}
+        entry = whole(status, count if in_old else 0, 0 if in_old else count)
         return {**entry, **_empty_details()}, None
     tables = old.vertices(vt), new.vertices(vt)
     shared = comparable_properties(old, (tables[0].schema, tables[1].schema), vt)
@@ -240,52 +233,6 @@ def _empty_details() -> dict[str, Any]:
         "numeric_drift": {},
         "categorical_drift": {},
         "part_moves": None,
-    }
-
-
-def _relation(
-    old: BundleSide, new: BundleSide, dotted: str, matches: dict[str, VertexMatch]
-) -> dict[str, Any]:
-    in_old, in_new = dotted in old.manifest["relations"], dotted in new.manifest["relations"]
-    if not (in_old and in_new):
-        count = (old if in_old else new).manifest["relations"][dotted]["count"]
-        status = "only-old" if in_old else "only-new"
-        return {
-            **_whole(status, count if in_old else 0, 0 if in_old else count),
-            "degree": {},
-            "part_moves": None,
-        }
-    entry = new.manifest["relations"][dotted]
-    src, dst = matches[entry["source_type"]], matches[entry["target_type"]]
-    ends = endpoints(old, old.edge_file(dotted)), endpoints(new, new.edge_file(dotted))
-    result = compare_edges(
-        *ends,
-        src.lookup(),
-        dst.lookup(),
-        (src.old_count, src.new_count, dst.old_count, dst.new_count),
-    )
-    old_table = edge_parts_table(old.manifest["relations"][dotted])
-    new_table = edge_parts_table(entry)
-    moves = None
-    if old_table and new_table:
-        moves = edge_part_moves(
-            ends,
-            ((old, old_table), (new, new_table)),
-            (src.lookup(), dst.lookup()),
-            dst.new_count,
-        )
-    return {
-        "status": "both",
-        "old": result.old,
-        "new": result.new,
-        "kept": result.kept,
-        "added": result.added,
-        "removed": result.removed,
-        "degree": {
-            "out": degree_drift(result.old_out, result.new_out),
-            "in": degree_drift(result.old_in, result.new_in),
-        },
-        "part_moves": moves,
     }
 
 

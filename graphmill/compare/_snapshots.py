@@ -25,6 +25,7 @@ import pyarrow.compute as pc
 from graphmill._version import __version__
 from graphmill.compare._drift import degree_drift, findings_drift
 from graphmill.compare._files import SideFiles
+from graphmill.compare._relations import one_side_relation
 from graphmill.compare._result import Comparison
 from graphmill.compare._tables import BundleSide, connect
 from graphmill.connectors.base import SOURCE_ID, TARGET_ID, VERTEX_ID
@@ -224,17 +225,6 @@ def compare_snapshot_sides(
 
 
 def _relation(con: Any, old: SnapshotSide, new: SnapshotSide, dotted: str) -> dict[str, Any]:
-    in_old, in_new = dotted in old.manifest["relations"], dotted in new.manifest["relations"]
-    if in_old and in_new:
+    if dotted in old.manifest["relations"] and dotted in new.manifest["relations"]:
         return compare_snapshot_edges(con, old, new, dotted)
-    count = (old if in_old else new).manifest["relations"][dotted]["count"]
-    return {
-        "status": "only-old" if in_old else "only-new",
-        "old": count if in_old else 0,
-        "new": 0 if in_old else count,
-        "kept": 0,
-        "added": 0 if in_old else count,
-        "removed": count if in_old else 0,
-        "degree": {},
-        "part_moves": None,
-    }
+    return one_side_relation(old, new, dotted)
