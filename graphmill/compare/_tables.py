@@ -217,23 +217,68 @@ def compare_edges(
     new_s, new_t = new_ends
     old_src_n, new_src_n, old_dst_n, new_dst_n = counts
     width = max(new_dst_n, 1)
-    mapped_s, mapped_t = source_lut[old_s], target_lut[old_t]
-    alive = (mapped_s >= 0) & (mapped_t >= 0)
-    old_keys = np.multiply(mapped_s, width, out=mapped_s)  # in place: no 10M-row temporaries
-    old_keys += mapped_t
-    if not alive.all():
-        old_keys = old_keys[alive]
-    new_keys = np.multiply(new_s, width)
-    new_keys += new_t
+    kept = _kept_by_blocks(old_ends, new_ends, (source_lut, target_lut), width)
+    if kept is None:  # repeated pairs, or an order the bundle layout does not promise
+        kept = multiset_overlap(*_keys(old_ends, new_ends, (source_lut, target_lut), width))
     return EdgeComparison(
         old=len(old_s),
         new=len(new_s),
-        kept=multiset_overlap(old_keys, new_keys),
+        kept=kept,
         old_out=np.bincount(old_s, minlength=old_src_n),
         new_out=np.bincount(new_s, minlength=new_src_n),
         old_in=np.bincount(old_t, minlength=old_dst_n),
         new_in=np.bincount(new_t, minlength=new_dst_n),
     )
+
+
+def _keys(
+    old_ends: Endpoints, new_ends: Endpoints, luts: tuple[np.ndarray, np.ndarray], width: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """(source * width + target) in the new index space: the old edges whose ends are kept,
+    and the new edges."""
+    mapped_s, mapped_t = luts[0][old_ends[0]], luts[1][old_ends[1]]
+    alive = (mapped_s >= 0) & (mapped_t >= 0)
+    old_keys = np.multiply(mapped_s, width, out=mapped_s)  # in place: no 10M-row temporaries
+    old_keys += mapped_t
+    if not alive.all():
+        old_keys = old_keys[alive]
+    new_keys = np.multiply(new_ends[0], width)
+    new_keys += new_ends[1]
+    return old_keys, new_keys
+
+
+def _increasing(keys: np.ndarray) -> bool:
+    return len(keys) < 2 or bool(np.all(keys[1:] > keys[:-1]))
+
+
+def _kept_by_blocks(
+    old_ends: Endpoints, new_ends: Endpoints, luts: tuple[np.ndarray, np.ndarray], width: int
+) -> int | None:
+    """Kept edges when both sides are sets sorted by (source, target), the bundle layout
+    without repeated pairs; None otherwise. Block by block of old edges: map the block, find
+    the new edges of its source range, merge the two sorted runs (a value in both sits
+    twice). Temporaries stay block-sized, so memory is reused instead of faulted in."""
+    (old_s, old_t), (new_s, new_t) = old_ends, new_ends
+    if not (len(new_s) < 2 or bool(np.all(new_s[1:] >= new_s[:-1]))):
+        return None
+    found, last = 0, -1
+    for start in range(0, len(old_s), BLOCK):
+        s = luts[0][old_s[start : start + BLOCK]]
+        t = luts[1][old_t[start : start + BLOCK]]
+        keys = (s * width + t)[(s >= 0) & (t >= 0)]
+        if len(keys) == 0:
+            continue
+        if keys[0] <= last or not _increasing(keys):
+            return None
+        last = int(keys[-1])
+        lo = int(np.searchsorted(new_s, keys[0] // width))
+        hi = int(np.searchsorted(new_s, keys[-1] // width, side="right"))
+        other = new_s[lo:hi] * width + new_t[lo:hi]
+        if not _increasing(other):
+            return None
+        merged = np.sort(np.concatenate([keys, other]), kind="stable")
+        found += int(np.count_nonzero(merged[1:] == merged[:-1]))
+    return found
 
 
 def _sorted(keys: np.ndarray) -> np.ndarray:
@@ -256,15 +301,30 @@ def _repeats(keys: np.ndarray) -> bool:
     return len(keys) > 1 and bool(np.any(keys[1:] == keys[:-1]))
 
 
+BLOCK = 1 << 20  # values of ``a`` merged at a time: small temporaries, reused memory
+
+
+def _sets_overlap(a: np.ndarray, b: np.ndarray) -> int:
+    """Values in both of two sorted arrays without repeats: block by block of ``a``, a stable
+    sort of the block and the slice of ``b`` it spans (two sorted runs: one linear merge), where
+    a value in both sits twice."""
+    found = 0
+    for start in range(0, len(a), BLOCK):
+        block = a[start : start + BLOCK]
+        lo = int(np.searchsorted(b, block[0]))
+        hi = int(np.searchsorted(b, block[-1], side="right"))
+        merged = np.sort(np.concatenate([block, b[lo:hi]]), kind="stable")
+        found += int(np.count_nonzero(merged[1:] == merged[:-1]))
+    return found
+
+
 def multiset_overlap(a: np.ndarray, b: np.ndarray) -> int:
     """Size of the multiset intersection: sum over values of min(count in a, count in b)."""
     a, b = _sorted(a), _sorted(b)
     if len(a) == 0 or len(b) == 0:
         return 0
     if not _repeats(a) and not _repeats(b):  # the usual case (repeats dropped): plain sets
-        # a stable sort of two sorted runs is one linear merge; a value in both sits twice
-        merged = np.sort(np.concatenate([a, b]), kind="stable")
-        return int(np.count_nonzero(merged[1:] == merged[:-1]))
+        return _sets_overlap(a, b)
     ua, ca = _runs(a)
     ub, cb = _runs(b)
     # both sorted: a binary search of each distinct value of a in b, no further sort

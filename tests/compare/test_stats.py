@@ -110,6 +110,23 @@ def test_multiset_overlap_equals_counter_intersection(a: np.ndarray, b: np.ndarr
     assert multiset_overlap(unique_a, unique_b) == len(set(a.tolist()) & set(b.tolist()))
 
 
+@given(
+    st.lists(st.integers(0, 60), max_size=50, unique=True).map(sorted).map(np.array),
+    st.lists(st.integers(0, 60), max_size=50, unique=True).map(sorted).map(np.array),
+    st.integers(1, 7),
+)
+@settings(max_examples=100, deadline=None)
+def test_sets_overlap_block_by_block(a: np.ndarray, b: np.ndarray, block: int) -> None:
+    from graphmill.compare import _tables
+
+    old, _tables.BLOCK = _tables.BLOCK, block  # blocks of a few values: many boundaries
+    try:
+        got = multiset_overlap(a.astype(np.int64), b.astype(np.int64))
+    finally:
+        _tables.BLOCK = old
+    assert got == len(set(a.tolist()) & set(b.tolist()))  # Python sets, the reference
+
+
 categories = st.lists(st.one_of(st.none(), st.sampled_from(["a", "b", "c", "dé", "€", ""])))
 
 
