@@ -5,6 +5,7 @@ maps of snapshots) and an altered snapshot file, through the CLI's exit codes.""
 
 from __future__ import annotations
 
+import io
 import json
 import shutil
 import tempfile
@@ -17,6 +18,7 @@ import pyarrow.parquet as pq
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from rich.console import Console
 from scipy.stats import ks_2samp
 
 from graphmill import compare_bundles
@@ -137,6 +139,9 @@ def test_snapshot_counts_equal_pandas_recounts(old: dict[str, Any], new: dict[st
         result = compare_bundles(a, b)
         _check_against_recounts(a, b, result.to_dict())
         assert result.index_maps == {} and result.to_dict()["findings"] is None
+        shown = io.StringIO()
+        result.render(Console(file=shown, width=200))
+        assert "not compared (no check report beside both snapshots)" in shown.getvalue()
 
 
 OLD = {
@@ -195,6 +200,9 @@ def test_gate_cli_and_refusals(reported, tmp_path: Path, capsys) -> None:
     a, b = reported
     rules = {"vertices-removed": GateRule(0.2, "error")}
     assert not compare_bundles(a, b, rules=rules).passed  # 1 of 3 people gone
+    assert main(["compare", str(a), str(b)]) == 0  # the terminal summary
+    summary = capsys.readouterr().out
+    assert "snapshots, matched by vertex_id" in summary and "check findings:" in summary
     assert main(["compare", str(a), str(b), "--json"]) == 0
     printed = json.loads(capsys.readouterr().out)
     validate_document("comparison", printed)
