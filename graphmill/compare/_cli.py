@@ -15,8 +15,8 @@ from graphmill.errors import ExitCode
 
 def add_arguments(name: str, cmd: argparse.ArgumentParser) -> None:
     if name == "compare":
-        cmd.add_argument("old", help="the earlier bundle folder")
-        cmd.add_argument("new", help="the later bundle folder")
+        cmd.add_argument("old", help="the earlier bundle (or snapshot) folder")
+        cmd.add_argument("new", help="the later bundle (or snapshot) folder")
         cmd.add_argument("--spec", help="take the drift limits from this spec's drift_gate")
         cmd.add_argument("--junit", metavar="PATH", help="also write a JUnit XML report")
         cmd.add_argument("--report", metavar="PATH", help="also write the JSON document here")
@@ -65,7 +65,16 @@ def run_command(args: argparse.Namespace, console: Any) -> int:
 
 def _compare(args: argparse.Namespace, console: Any) -> int:
     from graphmill.compare import compare_bundles
+    from graphmill.compare._compare import side_kind
 
+    if args.index_maps and side_kind(Path(args.old)) == "snapshot":
+        from graphmill.errors import InputError
+
+        raise InputError(
+            "snapshots have no vertex indices, so no index maps",
+            key_path="--index-maps",
+            hint="compare the bundles built from them for index maps",
+        )
     rules = None
     if args.spec:
         from graphmill.spec import load_spec

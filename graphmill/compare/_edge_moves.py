@@ -5,15 +5,13 @@ on one side is matched with the k-th copy on the other, copies ordered by part."
 
 from __future__ import annotations
 
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.parquet as pq
 
-from graphmill.compare._tables import PART_NAMES, endpoints
+from graphmill.compare._tables import PART_NAMES, BundleSide, Endpoints
 
 EDGE_PART_KEYS = ("link_split", "parts")
 
@@ -26,9 +24,9 @@ def edge_parts_table(entry: dict[str, Any]) -> str | None:
     return None
 
 
-def edge_part_codes(path: Path, count: int) -> np.ndarray:
+def edge_part_codes(side: BundleSide, rel: str, count: int) -> np.ndarray:
     """Part code (index into :data:`PART_NAMES`) of each of ``count`` edges; 3 = none."""
-    table = pq.read_table(path, columns=["edge", "part"])
+    table = side.files.table(rel, columns=["edge", "part"])
     codes = np.full(count, 3, dtype=np.int64)
     found = pc.index_in(table.column("part"), value_set=pa.array(PART_NAMES[:3]))
     codes[table.column("edge").to_numpy()] = pc.fill_null(found, 3).to_numpy()
@@ -58,19 +56,17 @@ def _spread(*sides: np.ndarray) -> int:
 
 
 def edge_part_moves(
-    old_edges: Path,
-    new_edges: Path,
-    old_parts: Path,
-    new_parts: Path,
+    ends: tuple[Endpoints, Endpoints],
+    parts: tuple[tuple[BundleSide, str], tuple[BundleSide, str]],
     luts: tuple[np.ndarray, np.ndarray],
     new_target_count: int,
 ) -> dict[str, Any]:
     """``{"changed", "transitions"}`` over the kept edges of one relation, like the vertices'
-    ``part_moves``; ``luts`` map old source / target indices to new ones (-1: removed)."""
-    old_s, old_t = endpoints(old_edges)
-    new_s, new_t = endpoints(new_edges)
-    old_codes = edge_part_codes(old_parts, len(old_s))
-    new_codes = edge_part_codes(new_parts, len(new_s))
+    ``part_moves``; ``ends`` are the old and new endpoints, ``parts`` each side and its
+    edge-parts table; ``luts`` map old source / target indices to new ones (-1: removed)."""
+    (old_s, old_t), (new_s, new_t) = ends
+    old_codes = edge_part_codes(*parts[0], len(old_s))
+    new_codes = edge_part_codes(*parts[1], len(new_s))
     width = max(new_target_count, 1)
     mapped_s, mapped_t = luts[0][old_s], luts[1][old_t]
     alive = (mapped_s >= 0) & (mapped_t >= 0)

@@ -73,7 +73,8 @@ def measures(doc: dict[str, Any]) -> Iterator[tuple[str, dict[str, str], float]]
             {"vertex_type": doc["label"]["vertex_type"]},
             doc["label"]["total_variation"],
         )
-    yield "findings-appeared", {}, len(doc["findings"]["appeared"])
+    if doc["findings"] is not None:  # null: snapshots without check reports
+        yield "findings-appeared", {}, len(doc["findings"]["appeared"])
 
 
 def evaluate(

@@ -97,9 +97,10 @@ def render(console: Any, doc: dict[str, Any]) -> None:
     """Tables of counts and drift, then the gate's verdict, on a rich console."""
     from rich.table import Table
 
+    where = "snapshot" if doc.get("compared") == "snapshots" else "bundle"
     console.print(
-        f"[bold]{doc['old']['name']}[/bold] {doc['old']['bundle']} → {doc['new']['bundle']} "
-        f"(matched by {doc['matched_by']})"
+        f"[bold]{doc['old']['name']}[/bold] {doc['old'][where]} → {doc['new'][where]} "
+        f"({where}s, matched by {doc['matched_by']})"
     )
     counts = Table(title="vertices and edges", title_justify="left")
     for column in ("", "old", "new", "kept", "added", "removed", "note"):
@@ -155,10 +156,13 @@ def render(console: Any, doc: dict[str, Any]) -> None:
                 f"{_num(d['new_mean'])}, max {d['old_max']} → {d['new_max']}"
             )
     f = doc["findings"]
-    console.print(
-        f"check findings: {len(f['appeared'])} appeared, {len(f['disappeared'])} disappeared, "
-        f"{len(f['changed'])} changed"
-    )
+    if f is None:
+        console.print("check findings: not compared (no check report beside both snapshots)")
+    else:
+        console.print(
+            f"check findings: {len(f['appeared'])} appeared, {len(f['disappeared'])} "
+            f"disappeared, {len(f['changed'])} changed"
+        )
     gate = doc["gate"]
     for finding in gate["findings"]:
         console.print(

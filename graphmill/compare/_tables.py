@@ -1,7 +1,8 @@
 """Set operations between two bundles' Parquet tables.
 
-Vertices are matched by original ID (or pseudonym) with DuckDB joins straight over the
-Parquet files; the result per vertex type is an old-index -> new-index map. Edges are then
+Vertices are matched by original ID (or pseudonym) with DuckDB joins over the two vertex
+tables (each file read once, through :class:`~graphmill.compare._files.SideFiles`); the result
+per vertex type is an old-index -> new-index map. Edges are then
 compared as multisets of (source, target) pairs in the new index space with numpy over the
 two ``source_index``/``target_index`` columns: an old edge is kept when both its ends are kept
 and the new bundle has the pair as many times. No per-row Python anywhere.
@@ -9,36 +10,45 @@ and the new bundle has the pair as many times. No per-row Python anywhere.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.parquet as pq
 
+from graphmill.compare._files import SideFiles
 from graphmill.errors import require
 
 INDEX = "index"
 
 
-@dataclass(frozen=True)
+@dataclass
 class BundleSide:
-    """One bundle being compared: its folder and its (verified) manifest."""
+    """One bundle being compared: its folder, its manifest, and the reads of its files
+    (unverified unless ``files`` says otherwise)."""
 
     root: Path
     manifest: dict[str, Any]
+    files: SideFiles = field(default=None)  # type: ignore[assignment]
 
-    def vertex_file(self, vertex_type: str) -> Path:
-        return self.root / self.manifest["vertex_types"][vertex_type]["table"]
+    def __post_init__(self) -> None:
+        if self.files is None:
+            self.files = SideFiles(self.root, {}, verify=False)
 
-    def edge_file(self, dotted: str) -> Path:
-        return self.root / self.manifest["relations"][dotted]["table"]
+    def vertex_file(self, vertex_type: str) -> str:
+        return str(self.manifest["vertex_types"][vertex_type]["table"])
 
-    def parts_file(self, vertex_type: str) -> Path | None:
+    def edge_file(self, dotted: str) -> str:
+        return str(self.manifest["relations"][dotted]["table"])
+
+    def parts_file(self, vertex_type: str) -> str | None:
         parts = self.manifest["vertex_types"][vertex_type].get("parts")
-        return self.root / parts["table"] if parts else None
+        return str(parts["table"]) if parts else None
+
+    def vertices(self, vertex_type: str) -> pa.Table:
+        return self.files.table(self.vertex_file(vertex_type))
 
     def id_column(self, vertex_type: str) -> str:
         return str(self.manifest["vertex_types"][vertex_type]["id_column"])
@@ -77,57 +87,70 @@ class VertexMatch:
         return lut
 
 
-def match_vertices(con: Any, old: BundleSide, new: BundleSide, vertex_type: str) -> VertexMatch:
-    """Join the two vertex tables on the ID column; count changed values and part moves."""
+def match_vertices(
+    con: Any,
+    old: BundleSide,
+    new: BundleSide,
+    vertex_type: str,
+    tables: tuple[pa.Table, pa.Table],
+    shared: list[str],
+) -> VertexMatch:
+    """Join the two vertex ``tables`` on the ID column; count changed values of the
+    ``shared`` properties and part moves."""
     key = _quoted(old.id_column(vertex_type))
-    con.read_parquet(str(old.vertex_file(vertex_type))).to_view("gm_old_v", replace=True)
-    con.read_parquet(str(new.vertex_file(vertex_type))).to_view("gm_new_v", replace=True)
-    shared = comparable_properties(old, new, vertex_type)
+    # names of this type's own (threads may share a database; keep them apart anyway)
+    o_v, n_v, m_t = (_quoted(f"gm_{w}_{vertex_type}") for w in ("old", "new", "map"))
+    con.register(f"gm_old_{vertex_type}", tables[0])
+    con.register(f"gm_new_{vertex_type}", tables[1])
     # one join: the index pairs and, per shared property, whether the value differs
     flags = "".join(
         f", o.{_quoted(p)} IS DISTINCT FROM n.{_quoted(p)} AS gm_changed_{i}"
         for i, p in enumerate(shared)
     )
     con.sql(
-        "CREATE OR REPLACE TEMP TABLE gm_map AS SELECT o.index AS old_index, "
-        f"n.index AS new_index{flags} FROM gm_old_v o JOIN gm_new_v n ON o.{key} = n.{key}"
+        f"CREATE OR REPLACE TEMP TABLE {m_t} AS SELECT o.index AS old_index, "
+        f"n.index AS new_index{flags} FROM {o_v} o JOIN {n_v} n ON o.{key} = n.{key}"
     )
     index_map = con.sql(
-        "SELECT old_index, new_index FROM gm_map ORDER BY old_index"
+        f"SELECT old_index, new_index FROM {m_t} ORDER BY old_index"
     ).to_arrow_table()
     index_map = index_map.cast(pa.schema([("old_index", pa.int64()), ("new_index", pa.int64())]))
-    old_n = con.sql("SELECT count(*) FROM gm_old_v").fetchall()[0][0]
-    new_n = con.sql("SELECT count(*) FROM gm_new_v").fetchall()[0][0]
+    old_n, new_n = tables[0].num_rows, tables[1].num_rows
     changed: dict[str, int] = {}
     if shared:
         sums = ", ".join(f"count(*) FILTER (WHERE gm_changed_{i})" for i in range(len(shared)))
-        row = con.sql(f"SELECT {sums} FROM gm_map").fetchall()[0]
+        row = con.sql(f"SELECT {sums} FROM {m_t}").fetchall()[0]
         changed = {p: int(v) for p, v in zip(shared, row, strict=True)}
+    con.sql(f"DROP TABLE {m_t}")
+    con.unregister(f"gm_old_{vertex_type}")
+    con.unregister(f"gm_new_{vertex_type}")
     return VertexMatch(
-        int(old_n),
-        int(new_n),
+        old_n,
+        new_n,
         index_map,
         changed,
-        _part_moves(old, new, vertex_type, index_map, (int(old_n), int(new_n))),
+        _part_moves(old, new, vertex_type, index_map, (old_n, new_n)),
     )
 
 
-def comparable_properties(old: BundleSide, new: BundleSide, vertex_type: str) -> list[str]:
-    """Properties both bundles ship for the type with the same Arrow type."""
-    a = pq.read_schema(old.vertex_file(vertex_type))
-    b = pq.read_schema(new.vertex_file(vertex_type))
+def comparable_properties(
+    old: BundleSide, schemas: tuple[pa.Schema, pa.Schema], vertex_type: str
+) -> list[str]:
+    """Properties both vertex tables (``schemas``) hold with the same Arrow type, in the old
+    manifest's order."""
+    a, b = schemas
     declared = old.manifest["vertex_types"][vertex_type]["properties"]
     return [
-        p for p in declared if p in b.names and a.field(p).type == b.field(p).type and p in a.names
+        p for p in declared if p in b.names and p in a.names and a.field(p).type == b.field(p).type
     ]
 
 
 PART_NAMES = ("train", "validation", "test", "(none)")
 
 
-def _part_codes(path: Path, count: int) -> np.ndarray:
+def _part_codes(side: BundleSide, rel: str, count: int) -> np.ndarray:
     """Part code (index into :data:`PART_NAMES`) of each of ``count`` vertices; 3 = none."""
-    table = pq.read_table(path, columns=["index", "part"])
+    table = side.files.table(rel, columns=["index", "part"])
     codes = np.full(count, 3, dtype=np.int64)
     found = pc.index_in(table.column("part"), value_set=pa.array(PART_NAMES[:3]))
     codes[table.column("index").to_numpy()] = pc.fill_null(found, 3).to_numpy()
@@ -141,8 +164,8 @@ def _part_moves(
     old_parts, new_parts = old.parts_file(vertex_type), new.parts_file(vertex_type)
     if old_parts is None or new_parts is None:
         return None
-    a = _part_codes(old_parts, counts[0])[index_map.column("old_index").to_numpy()]
-    b = _part_codes(new_parts, counts[1])[index_map.column("new_index").to_numpy()]
+    a = _part_codes(old, old_parts, counts[0])[index_map.column("old_index").to_numpy()]
+    b = _part_codes(new, new_parts, counts[1])[index_map.column("new_index").to_numpy()]
     pairs = np.bincount(a * 4 + b, minlength=16)
     return [
         {"from": PART_NAMES[k // 4], "to": PART_NAMES[k % 4], "count": int(pairs[k])}
@@ -169,8 +192,12 @@ class EdgeComparison:
         return self.old - self.kept
 
 
-def endpoints(path: Path) -> tuple[np.ndarray, np.ndarray]:
-    table = pq.read_table(path, columns=["source_index", "target_index"])
+Endpoints = tuple[np.ndarray, np.ndarray]
+
+
+def endpoints(side: BundleSide, rel: str) -> Endpoints:
+    """source_index, target_index of an edge table as int64 arrays."""
+    table = side.files.table(rel, columns=["source_index", "target_index"])
     return (
         table.column(0).to_numpy().astype(np.int64, copy=False),
         table.column(1).to_numpy().astype(np.int64, copy=False),
@@ -178,35 +205,80 @@ def endpoints(path: Path) -> tuple[np.ndarray, np.ndarray]:
 
 
 def compare_edges(
-    old_path: Path,
-    new_path: Path,
+    old_ends: Endpoints,
+    new_ends: Endpoints,
     source_lut: np.ndarray,
     target_lut: np.ndarray,
     counts: tuple[int, int, int, int],
 ) -> EdgeComparison:
     """Multiset comparison of one relation's edges; ``counts`` are the old and new vertex
     counts of the source type, then of the target type."""
-    old_s, old_t = endpoints(old_path)
-    new_s, new_t = endpoints(new_path)
+    old_s, old_t = old_ends
+    new_s, new_t = new_ends
     old_src_n, new_src_n, old_dst_n, new_dst_n = counts
     width = max(new_dst_n, 1)
-    mapped_s, mapped_t = source_lut[old_s], target_lut[old_t]
-    alive = (mapped_s >= 0) & (mapped_t >= 0)
-    old_keys = np.multiply(mapped_s, width, out=mapped_s)  # in place: 10M-row temporaries
-    old_keys += mapped_t
-    if not alive.all():
-        old_keys = old_keys[alive]
-    new_keys = np.multiply(new_s, width)
-    new_keys += new_t
+    kept = _kept_by_blocks(old_ends, new_ends, (source_lut, target_lut), width)
+    if kept is None:  # repeated pairs, or an order the bundle layout does not promise
+        kept = multiset_overlap(*_keys(old_ends, new_ends, (source_lut, target_lut), width))
     return EdgeComparison(
         old=len(old_s),
         new=len(new_s),
-        kept=multiset_overlap(old_keys, new_keys),
+        kept=kept,
         old_out=np.bincount(old_s, minlength=old_src_n),
         new_out=np.bincount(new_s, minlength=new_src_n),
         old_in=np.bincount(old_t, minlength=old_dst_n),
         new_in=np.bincount(new_t, minlength=new_dst_n),
     )
+
+
+def _keys(
+    old_ends: Endpoints, new_ends: Endpoints, luts: tuple[np.ndarray, np.ndarray], width: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """(source * width + target) in the new index space: the old edges whose ends are kept,
+    and the new edges."""
+    mapped_s, mapped_t = luts[0][old_ends[0]], luts[1][old_ends[1]]
+    alive = (mapped_s >= 0) & (mapped_t >= 0)
+    old_keys = np.multiply(mapped_s, width, out=mapped_s)  # in place: no 10M-row temporaries
+    old_keys += mapped_t
+    if not alive.all():
+        old_keys = old_keys[alive]
+    new_keys = np.multiply(new_ends[0], width)
+    new_keys += new_ends[1]
+    return old_keys, new_keys
+
+
+def _increasing(keys: np.ndarray) -> bool:
+    return len(keys) < 2 or bool(np.all(keys[1:] > keys[:-1]))
+
+
+def _kept_by_blocks(
+    old_ends: Endpoints, new_ends: Endpoints, luts: tuple[np.ndarray, np.ndarray], width: int
+) -> int | None:
+    """Kept edges when both sides are sets sorted by (source, target), the bundle layout
+    without repeated pairs; None otherwise. Block by block of old edges: map the block, find
+    the new edges of its source range, merge the two sorted runs (a value in both sits
+    twice). Temporaries stay block-sized, so memory is reused instead of faulted in."""
+    (old_s, old_t), (new_s, new_t) = old_ends, new_ends
+    if not (len(new_s) < 2 or bool(np.all(new_s[1:] >= new_s[:-1]))):
+        return None
+    found, last = 0, -1
+    for start in range(0, len(old_s), BLOCK):
+        s = luts[0][old_s[start : start + BLOCK]]
+        t = luts[1][old_t[start : start + BLOCK]]
+        keys = (s * width + t)[(s >= 0) & (t >= 0)]
+        if len(keys) == 0:
+            continue
+        if keys[0] <= last or not _increasing(keys):
+            return None
+        last = int(keys[-1])
+        lo = int(np.searchsorted(new_s, keys[0] // width))
+        hi = int(np.searchsorted(new_s, keys[-1] // width, side="right"))
+        other = new_s[lo:hi] * width + new_t[lo:hi]
+        if not _increasing(other):
+            return None
+        merged = np.sort(np.concatenate([keys, other]), kind="stable")
+        found += int(np.count_nonzero(merged[1:] == merged[:-1]))
+    return found
 
 
 def _sorted(keys: np.ndarray) -> np.ndarray:
@@ -229,22 +301,33 @@ def _repeats(keys: np.ndarray) -> bool:
     return len(keys) > 1 and bool(np.any(keys[1:] == keys[:-1]))
 
 
+BLOCK = 1 << 20  # values of ``a`` merged at a time: small temporaries, reused memory
+
+
+def _sets_overlap(a: np.ndarray, b: np.ndarray) -> int:
+    """Values in both of two sorted arrays without repeats: block by block of ``a``, a stable
+    sort of the block and the slice of ``b`` it spans (two sorted runs: one linear merge), where
+    a value in both sits twice."""
+    found = 0
+    for start in range(0, len(a), BLOCK):
+        block = a[start : start + BLOCK]
+        lo = int(np.searchsorted(b, block[0]))
+        hi = int(np.searchsorted(b, block[-1], side="right"))
+        merged = np.sort(np.concatenate([block, b[lo:hi]]), kind="stable")
+        found += int(np.count_nonzero(merged[1:] == merged[:-1]))
+    return found
+
+
 def multiset_overlap(a: np.ndarray, b: np.ndarray) -> int:
     """Size of the multiset intersection: sum over values of min(count in a, count in b)."""
     a, b = _sorted(a), _sorted(b)
     if len(a) == 0 or len(b) == 0:
         return 0
     if not _repeats(a) and not _repeats(b):  # the usual case (repeats dropped): plain sets
-        # a stable sort of two sorted runs is one linear merge; a value in both sits twice
-        merged = np.sort(np.concatenate([a, b]), kind="stable")
-        return int(np.count_nonzero(merged[1:] == merged[:-1]))
+        return _sets_overlap(a, b)
     ua, ca = _runs(a)
     ub, cb = _runs(b)
     # both sorted: a binary search of each distinct value of a in b, no further sort
     at = np.minimum(np.searchsorted(ub, ua), len(ub) - 1)
     hit = ub[at] == ua
     return int(np.minimum(ca[hit], cb[at[hit]]).sum())
-
-
-def column_values(path: Path, column: str) -> pa.ChunkedArray:
-    return pq.read_table(path, columns=[column]).column(0)

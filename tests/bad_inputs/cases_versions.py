@@ -30,6 +30,16 @@ def _tamper(root: Path) -> None:
     table.write_bytes(bytes(data))
 
 
+def _tamper_snapshot(root: Path) -> None:
+    """Build both versions, then flip a byte of the second snapshot's person table."""
+    _two_versions(root)
+    folder = root / "out2" / "bundle.snapshot"
+    table = next(p for p in folder.rglob("*.parquet") if "person" in p.name)
+    data = bytearray(table.read_bytes())
+    data[len(data) // 2] ^= 1
+    table.write_bytes(bytes(data))
+
+
 def _with_spec(name: str, text: str) -> Callable[[Path], None]:
     def setup(root: Path) -> None:
         _two_versions(root)
@@ -72,6 +82,26 @@ CASES = [
         exit_code=8,
         where="person.parquet",
         says="sha256 differs",
+    ),
+    Case(
+        name="versions-compare-bundle-with-snapshot",
+        category="versions",
+        files=_version_files(),
+        argv=("compare", "{dir}/out/bundle", "{dir}/out2/bundle.snapshot"),
+        setup=_two_versions,
+        exit_code=2,
+        where="{dir}/out2/bundle.snapshot",
+        says="is a snapshot, but",
+    ),
+    Case(
+        name="versions-compare-altered-snapshot",
+        category="versions",
+        files=_version_files(),
+        argv=("compare", "{dir}/out/bundle.snapshot", "{dir}/out2/bundle.snapshot"),
+        setup=_tamper_snapshot,
+        exit_code=8,
+        where="person",
+        says="sha256 differs from snapshot.json",
     ),
     Case(
         name="versions-compare-drift-rule-typo",

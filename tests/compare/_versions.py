@@ -66,3 +66,46 @@ def build_version(
     spec, snapshot = publish(document, tables)
     build_bundle(spec, snapshot, checks_summary=checks_summary)
     return spec.output.bundle
+
+
+def snapshot_version(
+    out: Path,
+    people: list[tuple[str, float | None, str | None]],
+    places: list[str],
+    knows: list[tuple[str, str]],
+    visits: list[tuple[str, str]],
+    *,
+    report: bool = False,
+) -> Path:
+    """Pull a snapshot of the same graph under ``out`` (people as rows: an ID may repeat);
+    with ``report``, run the checks and write their report beside it. Returns its folder."""
+    from graphmill.validate import run_checks
+
+    document = spec_document(
+        out,
+        {
+            "person": {"properties": {"score": {"kind": "float"}, "colour": {"kind": "string"}}},
+            "place": {},
+        },
+        [
+            {"from": "person", "name": "knows", "to": "person"},
+            {"from": "person", "name": "visits", "to": "place"},
+        ],
+        edges=KEEP_ALL,
+    )
+    tables = {
+        "person": pa.table(
+            {
+                "vertex_id": pa.array([p[0] for p in people], pa.string()),
+                "score": pa.array([p[1] for p in people], pa.float64()),
+                "colour": pa.array([p[2] for p in people], pa.string()),
+            }
+        ),
+        "place": pa.table({"vertex_id": pa.array(places, pa.string())}),
+        "person.knows.person": edge_table(knows),
+        "person.visits.place": edge_table(visits),
+    }
+    spec, snapshot = publish(document, tables)
+    if report:
+        run_checks(spec, snapshot).write_json(spec.output.report)
+    return spec.output.snapshot

@@ -108,3 +108,49 @@ def test_multiset_overlap_equals_counter_intersection(a: np.ndarray, b: np.ndarr
     assert multiset_overlap(a.astype(np.int64), b.astype(np.int64)) == expected
     unique_a, unique_b = np.unique(a).astype(np.int64), np.unique(b).astype(np.int64)
     assert multiset_overlap(unique_a, unique_b) == len(set(a.tolist()) & set(b.tolist()))
+
+
+@given(
+    st.lists(st.integers(0, 60), max_size=50, unique=True).map(sorted).map(np.array),
+    st.lists(st.integers(0, 60), max_size=50, unique=True).map(sorted).map(np.array),
+    st.integers(1, 7),
+)
+@settings(max_examples=100, deadline=None)
+def test_sets_overlap_block_by_block(a: np.ndarray, b: np.ndarray, block: int) -> None:
+    from graphmill.compare import _tables
+
+    old, _tables.BLOCK = _tables.BLOCK, block  # blocks of a few values: many boundaries
+    try:
+        got = multiset_overlap(a.astype(np.int64), b.astype(np.int64))
+    finally:
+        _tables.BLOCK = old
+    assert got == len(set(a.tolist()) & set(b.tolist()))  # Python sets, the reference
+
+
+categories = st.lists(st.one_of(st.none(), st.sampled_from(["a", "b", "c", "dé", "€", ""])))
+
+
+@given(categories, categories)
+@settings(max_examples=150, deadline=None)
+def test_categorical_drift_equals_a_pandas_recount(old: list, new: list) -> None:
+    import pandas as pd
+    import pyarrow as pa
+
+    from graphmill.compare._drift import categorical_drift
+
+    got = categorical_drift(
+        pa.chunked_array([pa.array(old, pa.string())]),
+        pa.chunked_array([pa.array(new, pa.string())]),
+    )
+    a = pd.Series(old, dtype=object).dropna().value_counts()
+    b = pd.Series(new, dtype=object).dropna().value_counts()
+    appeared, vanished = sorted(set(b.index) - set(a.index)), sorted(set(a.index) - set(b.index))
+    assert got["new_categories"] == appeared and got["new_category_count"] == len(appeared)
+    assert got["vanished_categories"] == vanished
+    if len(a) and len(b):
+        p, q = (a / a.sum()).align(b / b.sum(), fill_value=0.0)
+        assert got["total_variation"] == pytest.approx(0.5 * float((p - q).abs().sum()), abs=1e-6)
+        ranked = sorted(p.index, key=lambda k: (-abs(q[k] - p[k]), k))[:5]
+        assert [s["category"] for s in got["largest_shifts"]] == ranked
+    else:
+        assert got["total_variation"] == 0.0
