@@ -74,7 +74,7 @@ class SparkEngine(ReferenceEngine):
     def tables(self) -> Tables:
         """The engine's views in the process's Spark session (started on first use)."""
         if self._tables is None:
-            self._tables = Tables(session_for(self.settings, self.spill_folder))
+            self._tables = Tables(session_for(self.settings))
         return self._tables
 
     def close(self) -> None:

@@ -7,8 +7,10 @@ tables) is dropped when the engine closes, so no data outlives a stage.
 
 Settings: ``engine.cluster`` is where Spark runs (``local[N]``, a ``spark://``, ``yarn`` or
 ``k8s://`` master URL, or a Spark Connect ``sc://`` URL; default ``local[threads or *]``);
-``engine.memory_limit`` becomes the driver's memory for a local master, ``engine.spill_folder``
-Spark's local scratch folder, ``engine.cluster_settings`` extra ``spark.*`` settings. A local
+``engine.memory_limit`` becomes the driver's memory for a local master, an explicit
+``engine.spill_folder`` Spark's local scratch folder (``spark.local.dir``; the default
+``<bundle>.spill`` is not used, so that one session serves every bundle),
+``engine.cluster_settings`` extra ``spark.*`` settings. A local
 driver binds to 127.0.0.1 with the web UI off and few shuffle partitions. The cluster URL is
 never written to logs or messages with its credentials (:func:`redacted`).
 """
@@ -35,7 +37,6 @@ except ImportError as exc:
 
 #: The master URLs Spark takes, and Spark Connect's ``sc://``.
 CLUSTER = re.compile(r"^(local(\[(\*|[1-9][0-9]*)(,[1-9][0-9]*)?\])?|yarn|(spark|k8s|sc)://\S+)$")
-_LOCAL = re.compile(r"^local(\[(\*|[0-9]+)")
 _CREDENTIALS = re.compile(r"(//)[^/@]*@|(;\s*(token|password|secret)[^=;]*=)[^;]*", re.I)
 
 #: Settings every session gets; a local one also binds its driver to the loopback address.
@@ -80,7 +81,7 @@ def cluster_of(settings: EngineSpec) -> str:
     return cluster
 
 
-def _settings(settings: EngineSpec, spill_folder: Path | None) -> dict[str, str]:
+def _settings(settings: EngineSpec) -> dict[str, str]:
     cluster = cluster_of(settings)
     conf = dict(BASE_SETTINGS)
     if cluster.startswith("local"):
@@ -89,17 +90,18 @@ def _settings(settings: EngineSpec, spill_folder: Path | None) -> dict[str, str]
             conf["spark.driver.memory"] = f"{memory_bytes(settings.memory_limit) // 2**20}m"
         java = f"-Dlog4j2.configurationFile={LOG4J.as_uri()}"
         conf["spark.driver.extraJavaOptions"] = java
-    if spill_folder is not None and not cluster.startswith("sc://"):
-        conf["spark.local.dir"] = str(spill_folder)
-    conf |= {str(k): str(v) for k, v in (settings.cluster_settings or {}).items()}
+    if settings.spill_folder is not None and not cluster.startswith("sc://"):
+        conf["spark.local.dir"] = str(settings.spill_folder)
+    for name, value in (settings.cluster_settings or {}).items():
+        conf[str(name)] = str(value).lower() if isinstance(value, bool) else str(value)
     return conf
 
 
-def session_for(settings: EngineSpec, spill_folder: Path | None) -> SparkSession:
+def session_for(settings: EngineSpec) -> SparkSession:
     """The process's session for these settings, started (or restarted) when needed."""
     global _current
     cluster = cluster_of(settings)
-    conf = _settings(settings, spill_folder)
+    conf = _settings(settings)
     key = (cluster, tuple(sorted(conf.items())))
     if _current is not None and _current[0] == key:
         return _current[1]
