@@ -150,7 +150,7 @@ def _paged(columns: dict[str, list[Any]], pages: int) -> list[dict[str, list[Any
     return [{k: v[cut[i] : cut[i + 1]] for k, v in columns.items()} for i in range(pages)]
 
 
-EXAMPLES = {"local": 30, "spark": 4}
+EXAMPLES = {"local": 30, "spark": 3}
 
 
 def test_generated_graphs_are_identical_on_every_engine(engine_settings: EngineSpec) -> None:
