@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import atexit
 import re
+import warnings
 from pathlib import Path
 from typing import Any
 
@@ -26,8 +27,15 @@ from graphmill.engine._registry import memory_bytes
 from graphmill.errors import MissingExtraError, SpecError
 from graphmill.spec import EngineSpec
 
+# pyspark warns about a newer pandas than it knows; the engine never goes through pandas.
+_PANDAS_WARNING = {
+    "message": "PySpark does not yet fully support pandas",
+    "category": FutureWarning,
+}
 try:
-    from pyspark.sql import SparkSession
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", **_PANDAS_WARNING)  # type: ignore[arg-type]
+        from pyspark.sql import SparkSession
 except ImportError as exc:
     raise MissingExtraError(
         f"the spark engine needs pyspark, which is not installed ({exc.name})",
@@ -114,7 +122,9 @@ def session_for(settings: EngineSpec) -> SparkSession:
         for name, value in conf.items():
             builder = builder.config(name, value)
     try:
-        session = builder.getOrCreate()
+        with warnings.catch_warnings():
+            warnings.filterwarnings("ignore", **_PANDAS_WARNING)  # type: ignore[arg-type]
+            session = builder.getOrCreate()
     except Exception as exc:  # the JVM or the cluster did not start: one line, no secrets
         first = redacted(str(exc).strip().splitlines()[0] if str(exc).strip() else repr(exc))
         raise SpecError(
