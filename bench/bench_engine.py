@@ -29,6 +29,7 @@ Figures are printed, never asserted: this is a measurement, not a test.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import resource
 import shutil
@@ -166,9 +167,13 @@ def child_engine(source: dict[str, Any], out: Path, engine: dict[str, Any]) -> d
     from bench_build import stage
 
     from graphmill.pipeline import Pipeline
-    from graphmill.spec import spec_from_dict
+    from graphmill.spec import EngineSpec, spec_from_dict
 
-    pipeline = Pipeline(spec_from_dict(spec_document(source, out, engine), base_dir=out))
+    # The engine is applied as --engine and the other flags apply it, not written into the
+    # spec: the spec's hash (recorded in the bundle's lineage) covers the engine section.
+    spec = spec_from_dict(spec_document(source, out, {}), base_dir=out)
+    spec = dataclasses.replace(spec, engine=EngineSpec(**engine))
+    pipeline = Pipeline(spec)
     figures: dict[str, dict[str, float]] = {}
     if engine["kind"] == "spark":  # the JVM starts once per process, before the first stage
         from graphmill.engine.spark._session import session_for

@@ -54,6 +54,8 @@ BASE_SETTINGS = {
     "spark.sql.session.timeZone": "UTC",
     "spark.sql.ansi.enabled": "true",
     "spark.sql.ansi.doubleQuotedIdentifiers": "true",  # the local engine's quoting
+    # an Arrow table sent to Spark becomes one partition per batch: fewer, larger ones
+    "spark.sql.execution.arrow.maxRecordsPerBatch": "262144",
 }
 LOCAL_SETTINGS = {
     "spark.driver.host": "127.0.0.1",
