@@ -199,3 +199,27 @@ def test_check_operations(engines: tuple[Engine, Engine]) -> None:
         for method, args in calls:
             expected = getattr(reference, method)(*args)
             assert getattr(other, method)(*args) == expected, method
+
+
+def test_canonical_order_of_other_key_types(engines: tuple[Engine, Engine]) -> None:
+    """Keys of every type a staged table may hold, including those Spark cannot hold as they
+    are (unsigned 64-bit, nanoseconds): the same order as the reference."""
+    import datetime as dt
+    from decimal import Decimal
+
+    day = dt.date(2026, 12, 2)
+    table = pa.table(
+        {
+            "u": pa.array([2**64 - 1, 1, 2**63, 1], pa.uint64()),
+            "ns": pa.array([3, 1, 2, 1], pa.timestamp("ns")),
+            "us": pa.array([5, None, 5, -1], pa.timestamp("us", tz="UTC")),
+            "d": pa.array([day, day, None, dt.date(1970, 1, 1)], pa.date32()),
+            "dec": pa.array([Decimal("1.10"), Decimal("-2.00"), None, Decimal("1.10")]),
+            "bin": pa.array([b"\xff", b"\x00", b"\x7f", b"\x80"], pa.binary()),
+            "big": pa.array(["é", "e", "😀", "e"], pa.large_string()),
+        }
+    )
+    reference, other = engines
+    for keys in (["u", "ns"], ["us", "d", "dec"], ["bin"], ["big", "d"], ["dec", "us", "big"]):
+        expected = reference.canonical_order(table, keys).tolist()
+        assert other.canonical_order(table, keys).tolist() == expected, keys

@@ -40,6 +40,24 @@ def _rows(n: int) -> pa.Array:
     return pa.array(np.arange(n, dtype=np.int64))
 
 
+def _spark_orders_exactly(kind: pa.DataType) -> bool:
+    """Whether Spark holds ``kind``'s values unchanged, so that it orders them as Arrow does
+    (not: unsigned integers, nanosecond times, dictionaries, durations and the like)."""
+    t = pa.types
+    if t.is_timestamp(kind):
+        return bool(kind.unit != "ns")
+    return bool(
+        t.is_string(kind)
+        or t.is_large_string(kind)
+        or t.is_binary(kind)
+        or t.is_boolean(kind)
+        or t.is_signed_integer(kind)
+        or (t.is_floating(kind) and not t.is_float16(kind))
+        or t.is_date(kind)
+        or t.is_decimal(kind)
+    )
+
+
 def _vertex_set(ids: Column) -> pa.Table:
     return pa.table({"vertex_id": _column(ids).cast(pa.string())})
 
@@ -96,6 +114,8 @@ class SparkEngine(ReferenceEngine):
     def canonical_order(self, table: pa.Table, keys: Sequence[str]) -> np.ndarray:
         if not table.num_rows or not keys:
             return np.arange(table.num_rows, dtype=np.int64)
+        if not all(_spark_orders_exactly(table.schema.field(k).type) for k in keys):
+            return super().canonical_order(table, keys)  # in memory already: the reference
         keyed = table.select(list(keys)).append_column("gm_row", _rows(table.num_rows))
         t = self.tables.arrow_view(keyed, "t")
         return self.tables.positions(q.order_by(keys, "gm_row").format(t=t))
