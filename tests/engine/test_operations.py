@@ -28,7 +28,7 @@ IDS = st.sampled_from(["a", "b", "B", "é", "ä", "\ufffd", "\U00010000", "a\x00
 FLOATS = st.one_of(
     st.none(), st.sampled_from([0.0, -0.0, 1.0, -1.5, float("nan"), float("inf"), float("-inf")])
 )
-EXAMPLES = {"local": 60, "spark": 5}
+EXAMPLES = {"local": 60, "spark": 4}
 DATA = st.data()  # stands for the test's own draws
 
 
