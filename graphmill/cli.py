@@ -62,7 +62,7 @@ def _parser() -> argparse.ArgumentParser:
             cmd.add_argument(
                 "--engine",
                 metavar="KIND",
-                help="engine for the set work: local (DuckDB, the default) or reference; "
+                help="engine for the set work: local (DuckDB, the default), spark or reference; "
                 "overrides the spec's engine.kind",
             )
             cmd.add_argument(
@@ -71,6 +71,12 @@ def _parser() -> argparse.ArgumentParser:
                 help="most memory the local engine holds before spilling, e.g. 2GiB",
             )
             cmd.add_argument("--threads", type=int, metavar="N", help="engine worker threads")
+            cmd.add_argument(
+                "--cluster",
+                metavar="URL",
+                help="where the spark engine runs: local[N], a Spark master URL (spark://, "
+                "yarn, k8s://) or a Spark Connect URL (sc://); overrides engine.cluster",
+            )
         if name == "check":
             cmd.add_argument("--junit", metavar="PATH", help="also write a JUnit XML report")
         if name in ("pull", "run"):
@@ -254,7 +260,7 @@ def _check(args: argparse.Namespace, console: Any, pipeline: Any) -> int:
 
 
 def _with_engine_flags(spec: Any, args: argparse.Namespace) -> Any:
-    """The spec with ``--engine``, ``--memory-limit`` and ``--threads`` applied."""
+    """The spec with ``--engine``, ``--memory-limit``, ``--threads`` and ``--cluster`` applied."""
     import dataclasses
 
     from graphmill.errors import SpecError
@@ -268,6 +274,8 @@ def _with_engine_flags(spec: Any, args: argparse.Namespace) -> Any:
         if args.threads < 1:
             raise SpecError("--threads must be at least 1", hint="e.g. --threads 2")
         changes["threads"] = args.threads
+    if args.cluster:
+        changes["cluster"] = args.cluster
     from graphmill.engine import check_settings
 
     if changes:

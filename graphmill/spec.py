@@ -205,6 +205,8 @@ class EngineSpec:
     memory_limit: str | None = None  # e.g. "2GiB"
     spill_folder: Path | None = None  # default: "<bundle>.spill"
     threads: int | None = None
+    cluster: str | None = None  # the spark engine's master or Spark Connect URL
+    cluster_settings: dict[str, str] | None = None  # extra spark.* settings
 
 
 @dataclass(frozen=True)
@@ -345,6 +347,8 @@ def spec_from_dict(
         if "spill_folder" in engine_doc
         else None,
         threads=engine_doc.get("threads"),
+        cluster=engine_doc.get("cluster"),
+        cluster_settings=engine_doc.get("cluster_settings"),
     )
     checks_doc = doc.get("checks", {})
     spec = PipelineSpec(

@@ -18,6 +18,7 @@ from graphmill.spec import EngineSpec, PipelineSpec
 BUILTIN_ENGINES: dict[str, tuple[str, str]] = {
     "local": ("graphmill.engine.local:LocalEngine", ""),
     "reference": ("graphmill.engine.reference:ReferenceEngine", ""),
+    "spark": ("graphmill.engine.spark:SparkEngine", "spark"),
 }
 ENTRY_POINT_GROUP = "graphmill.engines"
 DEFAULT_ENGINE = "local"
@@ -67,6 +68,16 @@ def check_settings(settings: EngineSpec) -> None:
     engine_class(settings.kind)
     if settings.memory_limit is not None:
         memory_bytes(settings.memory_limit)
+    if settings.cluster is not None and settings.kind != "spark":
+        raise SpecError(
+            f"engine.cluster is for the spark engine, not {settings.kind!r}",
+            key_path="engine.cluster",
+            hint="set engine.kind: spark (or --engine spark), or leave engine.cluster out",
+        )
+    if settings.kind == "spark":
+        from graphmill.engine.spark._session import cluster_of
+
+        cluster_of(settings)
 
 
 def spill_folder_of(spec: PipelineSpec) -> Path:

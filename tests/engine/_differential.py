@@ -1,15 +1,15 @@
 """Run the same spec on several engines and collect every output file's bytes.
 
 :func:`outputs` runs pull (through the spec's source or a given one), check and build with
-``engine.kind`` replaced, into a folder of its own, and returns ``{relative path: bytes}``
-for the snapshot folder, the JSON report and the bundle folder (or the one-line error a
-stage raised, which every engine must raise alike).
+the spec's engine replaced (a kind, or whole engine settings), into a folder of its own,
+and returns ``{relative path: bytes}`` for the snapshot folder, the JSON report and the
+bundle folder (or the one-line error a stage raised, which every engine must raise alike).
 """
 
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from graphmill.connectors.base import GraphSource
@@ -18,7 +18,7 @@ from graphmill.pipeline import Pipeline
 from graphmill.snapshot import pull
 from graphmill.spec import EngineSpec, OutputSpec, PipelineSpec
 
-ENGINES = ("reference", "local")
+ENGINES: tuple[str | EngineSpec, ...] = ("reference", "local")
 SourceFactory = Callable[[PipelineSpec], GraphSource]
 
 
@@ -32,14 +32,19 @@ def files_of(root: Path, prefix: str) -> dict[str, bytes]:
     }
 
 
+def settings_of(engine: str | EngineSpec) -> EngineSpec:
+    return EngineSpec(kind=engine, threads=2) if isinstance(engine, str) else engine
+
+
 def outputs(
-    spec: PipelineSpec, kind: str, root: Path, source: SourceFactory | None = None
+    spec: PipelineSpec, engine: str | EngineSpec, root: Path, source: SourceFactory | None = None
 ) -> dict[str, bytes]:
-    """Every output file of pull + check + build on engine ``kind``, under ``root/kind``."""
-    out = root / kind
+    """Every output file of pull + check + build on ``engine``, under ``root/<kind>``."""
+    settings = settings_of(engine)
+    out = root / settings.kind
     spec = dataclasses.replace(
         spec,
-        engine=EngineSpec(kind=kind, threads=2),
+        engine=settings,
         output=OutputSpec(
             snapshot=out / "snapshot", bundle=out / "bundle", report=out / "report.json"
         ),
@@ -63,7 +68,7 @@ def outputs(
 
 def assert_identical(runs: dict[str, dict[str, bytes]]) -> None:
     """Every engine wrote the same files with the same bytes."""
-    first, *others = ENGINES
+    first, *others = runs
     for kind in others:
         assert sorted(runs[kind]) == sorted(runs[first]), kind
         differing = [name for name in runs[first] if runs[kind][name] != runs[first][name]]
@@ -71,8 +76,12 @@ def assert_identical(runs: dict[str, dict[str, bytes]]) -> None:
 
 
 def run_everywhere(
-    spec: PipelineSpec, root: Path, source: SourceFactory | None = None
+    spec: PipelineSpec,
+    root: Path,
+    source: SourceFactory | None = None,
+    engines: Sequence[str | EngineSpec] = ENGINES,
 ) -> dict[str, dict[str, bytes]]:
-    runs = {kind: outputs(spec, kind, root, source) for kind in ENGINES}
+    """Outputs by engine kind, checked byte-identical to the first engine's."""
+    runs = {settings_of(e).kind: outputs(spec, e, root, source) for e in engines}
     assert_identical(runs)
     return runs

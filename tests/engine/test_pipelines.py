@@ -1,9 +1,10 @@
 """Differential: pull + check + build give byte-identical files on every engine.
 
 Snapshot files, the JSON report and every bundle file are compared byte for byte between
-the reference engine and the local engine, on networkx's karate club graph, the demo's
-lending cooperative, hypothesis-made graphs with every structural defect, and TinkerPop's
-Grateful Dead graph (from a real Gremlin Server, when one can start).
+the reference engine and each other engine (local, and spark on a real ``local[2]`` Spark),
+on networkx's karate club graph, the demo's lending cooperative, hypothesis-made graphs with
+every structural defect, and TinkerPop's Grateful Dead graph (from a real Gremlin Server,
+when one can start). Spark runs fewer hypothesis examples.
 """
 
 from __future__ import annotations
@@ -21,14 +22,16 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from graphmill.spec import spec_from_dict
+from graphmill.spec import EngineSpec, spec_from_dict
 from tests.engine._differential import run_everywhere
 from tests.validate._graphs import InMemorySource, make_spec
 
 REPO = Path(__file__).resolve().parents[2]
 
 
-def test_karate_club_is_identical_on_every_engine(tmp_path: Path) -> None:
+def test_karate_club_is_identical_on_every_engine(
+    tmp_path: Path, engine_settings: EngineSpec
+) -> None:
     graph = nx.karate_club_graph()  # Zachary (1977): 34 members, 78 friendships (networkx)
     dump = tmp_path / "dump"
     dump.mkdir()
@@ -64,13 +67,14 @@ def test_karate_club_is_identical_on_every_engine(tmp_path: Path) -> None:
         "split": {"method": "stratified", "seed": 3},
         "output": {"bundle": "out/bundle"},
     }
-    runs = run_everywhere(spec_from_dict(document, base_dir=tmp_path), tmp_path)
-    assert "error" not in runs["local"]
-    assert "bundle/tensors.safetensors" in runs["local"]
+    spec = spec_from_dict(document, base_dir=tmp_path)
+    runs = run_everywhere(spec, tmp_path, engines=("reference", engine_settings))
+    assert "error" not in runs[engine_settings.kind]
+    assert "bundle/tensors.safetensors" in runs[engine_settings.kind]
 
 
 @pytest.mark.slow
-def test_demo_is_identical_on_every_engine(tmp_path: Path) -> None:
+def test_demo_is_identical_on_every_engine(tmp_path: Path, engine_settings: EngineSpec) -> None:
     sys.path.insert(0, str(REPO / "examples" / "lending_coop"))
     import generate
 
@@ -78,8 +82,9 @@ def test_demo_is_identical_on_every_engine(tmp_path: Path) -> None:
     document = yaml.safe_load((REPO / "examples/lending_coop/spec.yaml").read_text("utf-8"))
     document["source"]["paths"] = [str(counts.path)]
     document["output"] = {"bundle": str(tmp_path / "bundle")}
-    runs = run_everywhere(spec_from_dict(document, base_dir=tmp_path), tmp_path)
-    report = runs["local"]["report.json"].decode()
+    spec = spec_from_dict(document, base_dir=tmp_path)
+    runs = run_everywhere(spec, tmp_path, engines=("reference", engine_settings))
+    report = runs[engine_settings.kind]["report.json"].decode()
     # the demo plants these defects (examples/lending_coop/generate.py)
     for rule in ("dangling-edge", "one-way-edge", "repeated-edge", "self-loop"):
         assert f'"{rule}"' in report
@@ -145,9 +150,26 @@ def _paged(columns: dict[str, list[Any]], pages: int) -> list[dict[str, list[Any
     return [{k: v[cut[i] : cut[i + 1]] for k, v in columns.items()} for i in range(pages)]
 
 
-@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(graphs())
-def test_generated_graphs_are_identical_on_every_engine(graph: dict[str, Any]) -> None:
+EXAMPLES = {"local": 30, "spark": 3}
+
+
+def test_generated_graphs_are_identical_on_every_engine(engine_settings: EngineSpec) -> None:
+    @settings(
+        max_examples=EXAMPLES[engine_settings.kind],
+        deadline=None,
+        database=None,
+        suppress_health_check=[HealthCheck.too_slow],
+    )
+    @given(graphs())
+    def check(graph: dict[str, Any]) -> None:
+        run_generated(graph, ("reference", engine_settings))
+
+    check()
+
+
+def run_generated(graph: dict[str, Any], engines: tuple[str | EngineSpec, ...]) -> None:
+    """Pull, check and build ``graph`` on ``engines``; byte-identical outputs."""
+    kind = engines[-1] if isinstance(engines[-1], str) else engines[-1].kind
     with tempfile.TemporaryDirectory() as folder:
         root = Path(folder)
         spec = make_spec(
@@ -195,24 +217,26 @@ def test_generated_graphs_are_identical_on_every_engine(graph: dict[str, Any]) -
                 },
             )
 
-        runs = run_everywhere(spec, root, source)
-        assert "error" not in runs["local"], runs["local"]["error"]
-        assert "bundle/manifest.json" in runs["local"]
+        runs = run_everywhere(spec, root, source, engines)
+        assert "error" not in runs[kind], runs[kind]["error"]
+        assert "bundle/manifest.json" in runs[kind]
 
 
 # ----------------------------------------------------------------- Grateful Dead
 
 
 @pytest.mark.servers
-def test_grateful_dead_is_identical_on_every_engine(gremlin_server: Any, tmp_path: Path) -> None:
+def test_grateful_dead_is_identical_on_every_engine(
+    gremlin_server: Any, tmp_path: Path, engine_settings: EngineSpec
+) -> None:
     sys.path.insert(0, str(REPO / "tests" / "connectors" / "gremlin"))
     from gremlin_helpers import DEAD_RELATIONS, DEAD_TYPES, gremlin_spec
 
     spec = gremlin_spec(
         tmp_path, gremlin_server.url, DEAD_TYPES, DEAD_RELATIONS, traversal_source="g_dead"
     )
-    runs = run_everywhere(spec, tmp_path)
-    tables = json.loads(runs["local"]["snapshot/snapshot.json"])["tables"]
+    runs = run_everywhere(spec, tmp_path, engines=("reference", engine_settings))
+    tables = json.loads(runs[engine_settings.kind]["snapshot/snapshot.json"])["tables"]
     edges = sum(t["rows"] for t in tables if t["kind"] == "edges")
     vertices = sum(t["rows"] for t in tables if t["kind"] == "vertices")
     assert (vertices, edges) == (808, 8049)  # TinkerPop documentation, Grateful Dead data set

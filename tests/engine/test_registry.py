@@ -31,8 +31,10 @@ def test_every_operation_names_an_engine_method_and_schemas() -> None:
         assert op.contract and all(isinstance(s, pa.Schema) for s in op.inputs.values())
 
 
-@pytest.mark.parametrize("kind", ["reference", "local"])
+@pytest.mark.parametrize("kind", ["reference", "local", "spark"])
 def test_native_lists_exactly_what_an_engine_implements(kind: str) -> None:
+    if kind == "spark":
+        pytest.importorskip("pyspark")
     cls = engine_class(kind)
     mine = {
         op.name for op in OPERATIONS.values() if op.method in vars(cls) or cls.kind == "reference"
@@ -44,7 +46,7 @@ def test_unknown_engine_gets_a_did_you_mean() -> None:
     with pytest.raises(SpecError) as err:
         engine_class("locale")
     assert "did you mean 'local'" in err.value.one_line()
-    assert available_engines() == ["local", "reference"]
+    assert available_engines() == ["local", "reference", "spark"]
 
 
 def test_memory_sizes() -> None:
@@ -129,3 +131,65 @@ def test_cli_engine_flags_give_the_same_bundle(tmp_path: Path) -> None:
         manifests.append((out / "bundle" / "manifest.json").read_bytes())
         assert not (out / "bundle.spill").exists()
     assert manifests[0] == manifests[1]
+
+
+def test_spark_settings_from_spec_and_flags(tmp_path: Path) -> None:
+    spec = make_spec(
+        tmp_path,
+        engine={
+            "kind": "spark",
+            "cluster": "spark://head.example:7077",
+            "cluster_settings": {"spark.executor.memory": "8g", "spark.speculation": True},
+        },
+    )
+    assert spec.engine.cluster == "spark://head.example:7077"
+    assert spec.engine.cluster_settings == {
+        "spark.executor.memory": "8g",
+        "spark.speculation": True,
+    }
+    with pytest.raises(SpecError, match="cluster"):
+        make_spec(tmp_path, engine={"kind": "spark", "clusters": "local[2]"})
+    with pytest.raises(SpecError, match=r"engine\.cluster"):
+        make_spec(tmp_path, engine={"kind": "spark", "cluster_settings": {"executor": "1"}})
+
+
+def test_cluster_urls_are_checked_and_never_shown_with_credentials() -> None:
+    pytest.importorskip("pyspark")
+    from graphmill.engine import check_settings
+    from graphmill.engine.spark._session import _settings, cluster_of, redacted
+
+    for url in ("local", "local[2]", "local[*]", "local[4,2]", "yarn", "spark://h:7077",
+                "k8s://https://h:6443", "sc://h:15002/;token=t"):  # fmt: skip
+        assert cluster_of(EngineSpec(kind="spark", cluster=url)) == url
+    assert cluster_of(EngineSpec(kind="spark", threads=3)) == "local[3]"
+    with pytest.raises(SpecError) as err:
+        check_settings(EngineSpec(kind="spark", cluster="sc:/h;token=s3cret"))
+    assert "s3cret" not in err.value.one_line() and "engine.cluster" in err.value.one_line()
+    with pytest.raises(SpecError, match="for the spark engine"):
+        check_settings(EngineSpec(kind="local", cluster="local[2]"))
+    assert (
+        redacted("sc://u:pw@h:15002/;user_id=u;token=abc")
+        == "sc://***@h:15002/;user_id=u;token=***"
+    )
+    conf = _settings(
+        EngineSpec(kind="spark", cluster="local[2]", memory_limit="1GiB", spill_folder=Path("/s"))
+    )
+    assert conf["spark.driver.bindAddress"] == "127.0.0.1" and conf["spark.ui.enabled"] == "false"
+    assert (conf["spark.driver.memory"], conf["spark.local.dir"]) == ("1024m", "/s")
+    remote = _settings(EngineSpec(kind="spark", cluster="sc://h:15002"))
+    assert "spark.driver.host" not in remote and "spark.local.dir" not in remote
+
+
+def test_cli_cluster_flag(tmp_path: Path, capsys: pytest.CaptureFixture) -> None:
+    pytest.importorskip("pyspark")
+    spec = tmp_path / "spec.yaml"
+    spec.write_text(
+        "spec_version: 1\nsource: {kind: table-files, vertex_files: [{path: ../v.csv, "
+        "id_column: id, type: t}]}\nvertex_types: {t: {}}\noutput: {bundle: out}\n"
+    )
+    flags = ["--engine", "spark", "--cluster", "spark:/h;password=hunter2"]
+    assert main(["check", str(spec), *flags]) == ExitCode.BAD_INPUT
+    err = capsys.readouterr().err
+    assert "not a Spark master" in err and "hunter2" not in err
+    assert main(["check", str(spec), "--cluster", "local[2]"]) == ExitCode.BAD_INPUT
+    assert "engine.cluster is for the spark engine" in capsys.readouterr().err
