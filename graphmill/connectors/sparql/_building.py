@@ -35,8 +35,10 @@ def boundary(keys: pa.Array, start: int) -> int | None:
     return start + hits[0].as_py() if len(hits) else None
 
 
-def slices(terms: pa.Table, first: str, rows: int = MAP_ROWS) -> Iterator[pa.Table]:
-    """``terms`` in slices of about ``rows`` rows, each cut at a change of ``first``."""
+def slices(terms: pa.Table, first: str, rows: int | None = None) -> Iterator[pa.Table]:
+    """``terms`` in slices of about ``rows`` (default ``MAP_ROWS``) rows, each cut at a
+    change of ``first``."""
+    rows = rows or MAP_ROWS
     keys = terms.column(first).combine_chunks() if terms.num_rows > rows else None
     start = 0
     while start < terms.num_rows:

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
-from graphmill.connectors.sparql._building import MAP_ROWS, boundary
+from graphmill.connectors.sparql import _building
 from graphmill.connectors.sparql._failures import TransientError
 from graphmill.connectors.sparql._http import SparqlClient
 from graphmill.errors import GraphmillError, MalformedResponseError, SourceUnavailableError
@@ -107,7 +107,7 @@ class StreamReader:
         the cursor of everything read so far, the others with None."""
         running = hashlib.sha256()
         to_skip = state.rows
-        slice_rows = min(self.page_rows, MAP_ROWS)
+        slice_rows = min(self.page_rows, _building.MAP_ROWS)
         pending: list[pa.Table] = []
         pending_rows = in_page = 0
         empty: pa.Table | None = None
@@ -126,7 +126,7 @@ class StreamReader:
             while pending_rows >= slice_rows:
                 table = pa.concat_tables(pending) if len(pending) > 1 else pending[0]
                 keys = table.column(self.variables[0]).combine_chunks()
-                cut = boundary(keys, slice_rows)
+                cut = _building.boundary(keys, slice_rows)
                 if cut is None:
                     break  # the slice's last key goes on: wait for more rows
                 piece, rest = table.slice(0, cut), table.slice(cut)
