@@ -200,6 +200,15 @@ def main() -> None:
     parser.add_argument("--users", type=int, default=50_000)
     parser.add_argument("--page-size", type=int, default=10_000)
     parser.add_argument("--seed", type=int, default=1)
+    parser.add_argument(
+        "--methods",
+        nargs="+",
+        default=["paged-p1", "fingerprint", "paged-p2", "single"],
+        help="which measurements to run at each size",
+    )
+    parser.add_argument(
+        "--heap", default="4g", help="the Gremlin Server's JVM heap (-Xmx); 5M edges want 8g"
+    )
     parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
@@ -213,7 +222,8 @@ def main() -> None:
     from servers.manage import GremlinServer
 
     print(f"{'edges':>9} {'method':<10} {'rows':>9} {'seconds':>8} {'edges/s':>9} {'peak MiB':>9}")
-    with GremlinServer(java_options=("-Xmx4g",), evaluation_timeout_ms=600_000) as server:
+    server_java = (f"-Xmx{args.heap}",)
+    with GremlinServer(java_options=server_java, evaluation_timeout_ms=600_000) as server:
         loaded = 0
         for size in sorted(args.sizes):
             seconds = load(server.url, args.users, loaded, size, args.seed)
@@ -225,7 +235,8 @@ def main() -> None:
                 ("paged p2", ["paged", server.url, "2", str(args.page_size)]),
                 ("single", ["single", server.url]),
             ]
-            for name, child_args in runs:
+            wanted = {m.replace("-", " ") for m in args.methods}
+            for name, child_args in [(n, a) for n, a in runs if n in wanted]:
                 out = _child(child_args)
                 rate = out["rows"] / out["seconds"]
                 print(

@@ -18,6 +18,8 @@ the LIMIT/OFFSET measurements (with and without ORDER BY) at the largest size.
     .venv/bin/python bench/bench_sparql.py                       # 100k and 1M, both servers
     .venv/bin/python bench/bench_sparql.py --sizes 100000 --servers oxigraph
     .venv/bin/python bench/bench_sparql.py --paging-study --json out/bench_sparql.json
+    .venv/bin/python bench/bench_sparql.py --sizes 10000000 --servers oxigraph \
+        --series auto:100000 --query-url http://127.0.0.1:PORT/query   # a loaded server
 """
 
 from __future__ import annotations
@@ -147,13 +149,21 @@ def paging_study(url: str, triples: int, with_order: bool) -> list[dict[str, Any
     return out
 
 
+class _Running:
+    """A server started elsewhere (``--query-url``)."""
+
+    def __init__(self, query_url: str) -> None:
+        self.query_url = query_url
+
+
 def _servers(names: list[str], data: Path) -> Any:
     from servers.manage import N_TRIPLES, FusekiServer, OxigraphServer
 
     for name in names:
         started = time.perf_counter()
         if name == "oxigraph":
-            server: Any = OxigraphServer(preload=[data]).start()
+            # the timeout counts the bulk load too: minutes at 10M triples on a busy machine
+            server: Any = OxigraphServer(preload=[data], startup_timeout=3600).start()
         else:
             server = FusekiServer(java_options=("-Xmx3g",)).start()
             server.load(data.read_bytes(), content_type=N_TRIPLES)
@@ -176,6 +186,12 @@ def main(argv: list[str] | None = None) -> int:
     )
     parser.add_argument("--paging-study", action="store_true")
     parser.add_argument("--no-order-by", action="store_true", help="skip ordered pages")
+    parser.add_argument(
+        "--query-url",
+        help="measure against a running server already holding the dataset of the one "
+        "--sizes value (written by sparql_dataset.write_ntriples), named by --servers; "
+        "skips writing and loading, which take long at 10M triples",
+    )
     parser.add_argument("--json", type=Path)
     parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
@@ -188,16 +204,20 @@ def main(argv: list[str] | None = None) -> int:
         print(json.dumps(result))
         return 0
 
-    from sparql_dataset import write_ntriples
+    from sparql_dataset import dataset_triples, write_ntriples
 
     results: list[dict[str, Any]] = []
     studies: dict[str, Any] = {}
     with tempfile.TemporaryDirectory(prefix="bench-sparql-") as scratch:
         for size in sorted(args.sizes):
             data = Path(scratch) / f"data-{size}.nt"
-            triples = write_ntriples(data, triples=size)
+            if args.query_url:
+                triples = dataset_triples(size)
+                running = [(args.servers[0], _Running(args.query_url))]
+            else:
+                triples = write_ntriples(data, triples=size)
             print(f"dataset: {triples} triples", flush=True)
-            for name, server in _servers(args.servers, data):
+            for name, server in running if args.query_url else _servers(args.servers, data):
                 for label in ["baseline", *args.series]:
                     if label == "baseline":
                         got = _child("baseline", server.query_url)

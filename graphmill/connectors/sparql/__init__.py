@@ -27,6 +27,10 @@ slice costs a scan of all the type's members (``STR()`` is dear there: a 10k-row
 the speed of one bare streamed ``SELECT ?s ?p ?o``, and the client's Arrow memory stayed
 within the parse piece (2 MiB of text) and one page (about 25 MiB with 10k-row pages).
 
+Client memory does not grow with the answer: every answer (a stream, a slice, a page) is
+mapped in slices of at most ``MAP_ROWS`` term rows cut at a change of subject, and only the
+mapped rows wait until a page is staged (:mod:`._building`).
+
 Every strategy checks for silently truncated answers: a result whose size is a known cap,
 the cap the server announced (Virtuoso's ``X-SPARQL-MaxRows``) or a round number of at least
 1000 is probed with ``OFFSET n LIMIT 1``; a cut key-range slice is split (its members sampled

@@ -19,7 +19,6 @@ import pyarrow.compute as pc
 
 from graphmill.connectors._fingerprints import key_digest
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
-from graphmill.connectors.rdf._mapping import unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
 from graphmill.connectors.rdf._queries import (
     VERTEX,
@@ -29,6 +28,7 @@ from graphmill.connectors.rdf._queries import (
     unit_query,
     unit_variables,
 )
+from graphmill.connectors.sparql._building import PageBuilder, slices
 from graphmill.connectors.sparql._http import ServerInfo, SparqlClient
 from graphmill.connectors.sparql._quirks import (
     UNION_DEFAULT_GRAPH,
@@ -52,7 +52,6 @@ AUTO_PAGING: dict[str, tuple[str, int | None]] = {
     "virtuoso": ("key-range", 10_000),  # ResultSetMaxRows default
     "unknown": ("key-range", None),
 }
-_WHOLE = 1 << 62  # "no page limit" for unit_pages: one page per query
 
 
 def looks_capped(rows: int, cap: int | None) -> bool:
@@ -155,11 +154,11 @@ class SparqlEndpointSource(GraphSource):
         return self._terms(unit, probe).num_rows > 0
 
     def _page(self, unit: WorkUnit, terms: pa.Table, cursor: str) -> Page | None:
-        pages = list(unit_pages(self.rdf, unit, terms, page_rows=_WHOLE))
-        if not pages:
-            return None
-        pages[0].cursor = cursor
-        return pages[0]
+        """One page of a whole answer, mapped slice by slice (:mod:`._building`)."""
+        builder = PageBuilder(self.rdf, unit)
+        for piece in slices(terms, unit_variables(self.spec, unit)[0]):
+            builder.add(piece)
+        return builder.take(cursor)
 
     def _capped_error(self, unit: WorkUnit, rows: int) -> MalformedResponseError:
         return MalformedResponseError(
@@ -181,8 +180,10 @@ class SparqlEndpointSource(GraphSource):
             where=self._where(unit),
             truncated=lambda rows: self._truncated(unit, rows, None),
         )
+        builder = PageBuilder(self.rdf, unit)
         for terms, state in reader.pages(StreamCursor.decode(cursor)):
-            page = self._page(unit, terms, state.encode())
+            builder.add(terms)
+            page = builder.take(state.encode()) if state is not None else None
             if page is not None:
                 yield page
 

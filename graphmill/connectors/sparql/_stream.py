@@ -1,12 +1,15 @@
 """single-stream: one unpaged SELECT per unit, cut into pages as it streams.
 
-Pages are cut at ``page_size`` rows, moved forward to the next change of the unit's first
+The answer is handed on in slices (:mod:`._building`) cut at a change of the unit's first
 variable, so the rows of one vertex (or one edge source), when the server sends them
-together, share a page. The cursor holds the number of rows staged and a SHA-256 digest of
-them in answer order. To resume -- after a dropped connection within the pull, or in the
-next run -- the same SELECT is sent again, the staged rows are skipped while their digest is
-recomputed, and reading goes on only if the digests agree: SPARQL promises no order for an
-unordered SELECT, so a server that answers in another order is caught, not trusted.
+together, share a slice; a page ends with the first slice that brings it to ``page_size``
+rows or more. Nothing is kept per row: the digest is fed from Arrow's buffers.
+
+The cursor holds the number of rows staged and a SHA-256 digest of them in answer order.
+To resume -- after a dropped connection within the pull, or in the next run -- the same
+SELECT is sent again, the staged rows are skipped while their digest is recomputed, and
+reading goes on only if the digests agree: SPARQL promises no order for an unordered
+SELECT, so a server that answers in another order is caught, not trusted.
 """
 
 from __future__ import annotations
@@ -20,9 +23,12 @@ from dataclasses import dataclass
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from graphmill.connectors.sparql import _building
 from graphmill.connectors.sparql._failures import TransientError
 from graphmill.connectors.sparql._http import SparqlClient
 from graphmill.errors import GraphmillError, MalformedResponseError, SourceUnavailableError
+
+DIGEST_ROWS = 8192  # rows hashed at a time
 
 
 @dataclass
@@ -44,26 +50,21 @@ class StreamCursor:
 
 
 def _feed(digest: hashlib._Hash, terms: pa.Table, variables: tuple[str, ...]) -> None:
-    """Add rows to the running digest: every variable's text, kind, datatype and language."""
-    if not terms.num_rows:
-        return
-    columns = []
-    for name in variables:
-        for suffix in ("", "_kind", "_datatype", "_lang"):
-            columns.append(pc.fill_null(terms.column(name + suffix), "\x00"))
-    rows = pc.binary_join_element_wise(*columns, "\x1f").combine_chunks()
-    offsets = pa.array([0, len(rows)], pa.int32())
-    joined = pc.binary_join(pa.ListArray.from_arrays(offsets, rows), "\x1e")[0].as_py()
-    digest.update(joined.encode("utf-8") + b"\x1e")
+    """Add rows to the running digest: every variable's text, kind, datatype and language.
 
-
-def _boundary(keys: pa.Array, start: int) -> int | None:
-    """The first index >= ``start`` (>= 1) where the key differs from the one before."""
-    if len(keys) <= start:
-        return None
-    changed = pc.not_equal(keys.slice(start), keys.slice(start - 1, len(keys) - start))
-    hits = pc.indices_nonzero(pc.fill_null(changed, True))
-    return start + hits[0].as_py() if len(hits) else None
+    Rows go in slices of ``DIGEST_ROWS`` straight from Arrow's buffers, so a page costs no
+    Python copy of its text; the bytes fed are those of the whole page joined at once."""
+    for start in range(0, terms.num_rows, DIGEST_ROWS):
+        rows = terms.slice(start, DIGEST_ROWS)
+        columns = []
+        for name in variables:
+            for suffix in ("", "_kind", "_datatype", "_lang"):
+                columns.append(pc.fill_null(rows.column(name + suffix), "\x00"))
+        lines = pc.binary_join_element_wise(*columns, "\x1f").combine_chunks()
+        offsets = pa.array([0, len(lines)], pa.int32())
+        joined = pc.binary_join(pa.ListArray.from_arrays(offsets, lines), "\x1e")[0]
+        digest.update(memoryview(joined.as_buffer()))
+        digest.update(b"\x1e")
 
 
 class StreamReader:
@@ -84,7 +85,8 @@ class StreamReader:
         self.where = where
         self.truncated = truncated
 
-    def pages(self, cursor: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor]]:
+    def pages(self, cursor: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor | None]]:
+        """Slices of the answer; the last slice of each page carries the page's cursor."""
         state = StreamCursor(cursor.rows, cursor.digest, cursor.finished)
         attempt = 1
         while not state.finished:
@@ -97,13 +99,20 @@ class StreamReader:
                 time.sleep(self.client.wait_before(attempt))
                 attempt += 1
 
-    def _one_pass(self, state: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor]]:
-        """One request: skip and check the staged rows, then yield pages; updates ``state``."""
+    def _one_pass(self, state: StreamCursor) -> Iterator[tuple[pa.Table, StreamCursor | None]]:
+        """One request: skip and check the staged rows, then yield slices; updates ``state``.
+
+        Slices hold at most about ``MAP_ROWS`` rows and end where the first variable changes;
+        the slice that ends a page (``page_rows`` rows or more since the last) comes with
+        the cursor of everything read so far, the others with None."""
         running = hashlib.sha256()
         to_skip = state.rows
+        slice_rows = min(self.page_rows, _building.MAP_ROWS)
         pending: list[pa.Table] = []
-        pending_rows = 0
+        pending_rows = in_page = 0
+        empty: pa.Table | None = None
         for terms in self.client.stream(self.query, where=self.where):
+            empty = terms.slice(0, 0)
             if to_skip:
                 skipped = terms.slice(0, to_skip)
                 _feed(running, skipped, self.variables)
@@ -114,29 +123,35 @@ class StreamReader:
             if terms.num_rows:
                 pending.append(terms)
                 pending_rows += terms.num_rows
-            while pending_rows >= self.page_rows:
+            while pending_rows >= slice_rows:
                 table = pa.concat_tables(pending) if len(pending) > 1 else pending[0]
                 keys = table.column(self.variables[0]).combine_chunks()
-                cut = _boundary(keys, self.page_rows)
+                cut = _building.boundary(keys, slice_rows)
                 if cut is None:
-                    break  # the page's last key goes on: wait for more rows
-                page, rest = table.slice(0, cut), table.slice(cut)
+                    break  # the slice's last key goes on: wait for more rows
+                piece, rest = table.slice(0, cut), table.slice(cut)
                 pending, pending_rows = [rest], rest.num_rows
-                _feed(running, page, self.variables)
-                state.rows += page.num_rows
+                _feed(running, piece, self.variables)
+                state.rows += piece.num_rows
                 state.digest = running.hexdigest()
-                yield page, StreamCursor(state.rows, state.digest)
+                in_page += piece.num_rows
+                if in_page >= self.page_rows:
+                    in_page = 0
+                    yield piece, StreamCursor(state.rows, state.digest)
+                else:
+                    yield piece, None
         if to_skip:
             raise self._reordered()
-        last = pa.concat_tables(pending) if pending else None
+        last = pa.concat_tables(pending) if pending else empty
         if last is not None and last.num_rows:
             _feed(running, last, self.variables)
             state.rows += last.num_rows
             state.digest = running.hexdigest()
+            in_page += last.num_rows
         if self.truncated(state.rows):
             raise self._capped(state.rows)
         state.finished = True
-        if last is not None and last.num_rows:
+        if last is not None and in_page:
             yield last, StreamCursor(state.rows, state.digest, finished=True)
 
     def _reordered(self) -> GraphmillError:

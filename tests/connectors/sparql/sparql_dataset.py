@@ -53,6 +53,12 @@ def _person_lines(i: int, rng_row: np.ndarray, n_people: int, n_orgs: int, n_pro
     return "\n".join(lines)
 
 
+def dataset_triples(triples: int = 1_000_000) -> int:
+    """How many triples :func:`write_ntriples` writes when asked for ``triples``."""
+    n_people = max(10, triples // TRIPLES_PER_PERSON)
+    return n_people * TRIPLES_PER_PERSON + 4 * max(2, n_people // 50) + 4 * max(2, n_people // 20)
+
+
 def write_ntriples(path: Path, *, triples: int = 1_000_000, seed: int = 20261202) -> int:
     """Write at least ``triples`` distinct triples to ``path`` (N-Triples, UTF-8); return how
     many were written."""

@@ -50,9 +50,14 @@ def reference(case_oxigraph, tmp_path_factory) -> Path:
     ("paging", "page_size"),
     [("key-range", 60), ("key-range", 20), ("offset", 250), ("single-stream", 10)],
 )
-def test_strategies_agree_on_one_server(case_server, tmp_path, paging, page_size):
+@pytest.mark.parametrize("map_rows", [16_384, 7], ids=["one-slice-per-page", "slices"])
+def test_strategies_agree_on_one_server(
+    case_server, tmp_path, paging, page_size, map_rows, monkeypatch
+):
+    # map_rows 7: each page is mapped in slices of about 7 rows and joined (_building)
     whole = tmp_path / "whole"
     pull_spec(_doc(endpoint(case_server.query_url, paging="single-stream"), whole))
+    monkeypatch.setattr("graphmill.connectors.sparql._building.MAP_ROWS", map_rows)
     _, info = pull_spec(
         _doc(
             endpoint(case_server.query_url, paging=paging, page_size=page_size), tmp_path / "paged"
@@ -131,6 +136,8 @@ def test_a_pull_cut_off_resumes_to_the_identical_snapshot(
         pytest.skip("Virtuoso answers JSON, parsed whole: a cut unit stages nothing to resume")
     # parse the streamed answers in small pieces, so pages are staged before the cut
     monkeypatch.setattr("graphmill.connectors.sparql._http.PIECE_BYTES", 2048)
+    # and map them in slices smaller than a page, so a page is several slices joined
+    monkeypatch.setattr("graphmill.connectors.sparql._building.MAP_ROWS", 13)
     full = tmp_path / "full"
     _, whole = pull_spec(_doc(endpoint(case_server.query_url, paging=paging, page_size=100), full))
     port = urlsplit(case_server.query_url).port
