@@ -9,12 +9,13 @@ positions and indices are int64 numpy arrays. Check operations take their edge t
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
 from graphmill.engine._contracts import Offenders
 from graphmill.spec import EngineSpec
@@ -52,6 +53,15 @@ class Engine(ABC):
     def canonical_order(self, table: pa.Table, keys: Sequence[str]) -> np.ndarray:
         """Stable permutation sorting ``table`` by ``keys`` ascending (contract:
         ``canonical-order``)."""
+
+    def sorted_parts(
+        self, parts: Sequence[Path], columns: Sequence[str], keys: Sequence[str]
+    ) -> Iterator[pa.RecordBatch]:
+        """``columns`` of the rows of ``parts`` (Parquet files of one schema) in canonical
+        order by ``keys`` (contract: ``canonical-merge``). This default reads the parts into
+        memory and applies :meth:`canonical_order`; an engine may stream instead."""
+        table = pa.concat_tables([pq.read_table(p, columns=list(columns)) for p in parts])
+        yield from table.take(self.canonical_order(table, keys)).to_batches()
 
     # ------------------------------------------------------------------ build
     @abstractmethod

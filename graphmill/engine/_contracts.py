@@ -85,6 +85,17 @@ OPERATIONS: dict[str, Operation] = {
             a snapshot table's row order depends only on its set of rows.""",
         ),
         _op(
+            "canonical-merge",
+            "pull",
+            "sorted_parts",
+            {"parts": ROWS},
+            {"rows": ROWS},
+            """The rows of staged Parquet parts that share one schema, in the order of
+            ``canonical-order`` over the parts' rows taken in turn (ties keep that order),
+            streamed as record batches, so that the snapshot's writer cuts the same row groups
+            whatever the engine.""",
+        ),
+        _op(
             "vertex-index",
             "build",
             "first_rows_by_id",
