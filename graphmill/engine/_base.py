@@ -87,6 +87,29 @@ class Engine(ABC):
     ) -> EdgeOutcome:
         """Mapped endpoints in, policed and sorted edges out (``edge-policy``)."""
 
+    def mapped_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        """Both endpoints mapped, then the policies (``mapped-edges``); this default
+        composes :meth:`endpoint_positions` and :meth:`edge_policy`."""
+        return self.edge_policy(
+            self.endpoint_positions(edges, "source", source_ids),
+            self.endpoint_positions(edges, "target", target_ids),
+            same_type=same_type,
+            vertex_count=len(source_ids),
+            duplicates=duplicates,
+            self_loops=self_loops,
+            symmetrize=symmetrize,
+        )
+
     # ------------------------------------------------------------------ check
     @abstractmethod
     def dangling_edges(

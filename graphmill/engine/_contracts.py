@@ -127,6 +127,16 @@ OPERATIONS: dict[str, Operation] = {
             added reverses, then by row.""",
         ),
         _op(
+            "mapped-edges",
+            "build",
+            "mapped_edges",
+            {"edges": EDGE_IDS, "sources": VERTEX_IDS, "targets": VERTEX_IDS},
+            {"edges": POLICED_EDGES},
+            """``endpoint-index`` for both sides of an edge table, then ``edge-policy`` on the
+            mapped edges, in one go, so that an engine can map and police without handing
+            the positions back in between.""",
+        ),
+        _op(
             "dangling-edges",
             "check",
             "dangling_edges",

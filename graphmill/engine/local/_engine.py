@@ -63,6 +63,7 @@ class LocalEngine(ReferenceEngine):
             "vertex-index",
             "endpoint-index",
             "edge-policy",
+            "mapped-edges",
             "dangling-edges",
             "self-loops",
             "repeated-edges",
@@ -188,28 +189,71 @@ class LocalEngine(ReferenceEngine):
         self_loops: str,
         symmetrize: bool,
     ) -> EdgeOutcome:
-        s = self.session
         mapped = pa.table({"s": source, "t": target, "row": _rows(len(source))})
+        with self.session.tables({"m": mapped}) as n:
+            return self._police(n["m"], same_type, duplicates, self_loops, symmetrize)
+
+    def mapped_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        """One join per side straight from the file; the mapped edges stay in DuckDB."""
+        s = self.session
+        sources = pa.table({"id": _column(source_ids), "position": _rows(len(source_ids))})
+        targets = pa.table({"id": _column(target_ids), "position": _rows(len(target_ids))})
+        if isinstance(edges, Path):
+            ends: TableInput = edges
+            row = "file_row_number"
+        else:
+            ends = edges.select(ENDPOINTS).append_column("gm_row", _rows(edges.num_rows))
+            row = "gm_row"
+        with (
+            s.tables({"e": ends, "vs": sources, "vt": targets}, row_numbers=True) as n,
+            s.scratch(q.mapped(n["e"], row, n["vs"], n["vt"])) as mapped,
+        ):
+            return self._police(mapped, same_type, duplicates, self_loops, symmetrize, owned=True)
+
+    def _police(
+        self,
+        m: str,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+        *,
+        owned: bool = False,
+    ) -> EdgeOutcome:
+        """``edge-policy`` on the session table ``m`` (``s``, ``t``, ``row``; -1: dangling);
+        ``owned``: ``m`` is a scratch table, dropped as soon as the kept edges are taken."""
+        s = self.session
         dropped = dict.fromkeys(DROP_REASONS, 0)
-        with s.tables({"m": mapped}) as n:
-            both, no_source, no_target = s.ints(q.dangling_counts(n["m"]))
-            dropped.update(
-                {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
-            )
-            drop_loops = same_type and self_loops == "drop"
-            with s.scratch(q.kept_edges(n["m"], drop_loops=drop_loops)) as kept:
-                (kept_count,) = s.ints(f"SELECT count(*) FROM {kept}")
-                if drop_loops:
-                    dropped["self-loop"] = len(source) - both - no_source - no_target - kept_count
-                union = f"SELECT s, t, row, 0 AS added FROM {kept}"
-                added = 0
-                if same_type and symmetrize:
-                    with s.scratch(q.missing_reverses(kept)) as extra:
-                        (added,) = s.ints(f"SELECT count(*) FROM {extra}")
-                        union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
-                        result = s.arrow(q.resolved(f"({union})", duplicates))
-                else:
+        total, both, no_source, no_target = s.ints(q.dangling_counts(m))
+        dropped.update(
+            {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
+        )
+        drop_loops = same_type and self_loops == "drop"
+        with s.scratch(q.kept_edges(m, drop_loops=drop_loops)) as kept:
+            (kept_count,) = s.ints(f"SELECT count(*) FROM {kept}")
+            if owned:
+                s.connection.execute(f"DROP TABLE {m}")
+            if drop_loops:
+                dropped["self-loop"] = total - both - no_source - no_target - kept_count
+            union = f"SELECT s, t, row, 0 AS added FROM {kept}"
+            added = 0
+            if same_type and symmetrize:
+                with s.scratch(q.missing_reverses(kept)) as extra:
+                    (added,) = s.ints(f"SELECT count(*) FROM {extra}")
+                    union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
                     result = s.arrow(q.resolved(f"({union})", duplicates))
+            else:
+                result = s.arrow(q.resolved(f"({union})", duplicates))
 
         def column(name: str) -> np.ndarray:
             return np.asarray(result.column(name).to_numpy(), dtype=np.int64)

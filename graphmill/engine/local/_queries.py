@@ -60,9 +60,18 @@ def endpoint_positions(endpoints: str, vertices: str) -> str:
     return f"SELECT e.row, v.position FROM {endpoints} e JOIN {vertices} v ON e.id = v.id"
 
 
+def mapped(e: str, row: str, sources: str, targets: str) -> str:
+    """``mapped-edges``: (s, t, row) of every edge, -1 for an endpoint that is no vertex."""
+    return (
+        f"SELECT coalesce(a.position, -1) AS s, coalesce(b.position, -1) AS t, e.{row} AS row "
+        f"FROM {e} e LEFT JOIN {sources} a ON e.source_id = a.id "
+        f"LEFT JOIN {targets} b ON e.target_id = b.id"
+    )
+
+
 def dangling_counts(m: str) -> str:
     return (
-        f"SELECT count(*) FILTER (WHERE s = -1 AND t = -1), "
+        f"SELECT count(*), count(*) FILTER (WHERE s = -1 AND t = -1), "
         f"count(*) FILTER (WHERE s = -1 AND t <> -1), "
         f"count(*) FILTER (WHERE s <> -1 AND t = -1) FROM {m}"
     )
