@@ -41,8 +41,9 @@ from graphmill._columns import (
     unify_types,
     value_kinds_of,
 )
-from graphmill._progress import Progress, SilentProgress
+from graphmill._progress import Progress, ProgressTask, SilentProgress
 from graphmill._snapshot_gate import add_gate_facts, keys_where_absent
+from graphmill._snapshot_merge import merge_plan, merge_to_file, property_columns
 from graphmill._version import __version__
 from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
@@ -190,7 +191,7 @@ class Stager:
         schema = batch.schema.with_metadata({VALUE_KINDS_KEY: encode_kinds(profile)})
         table = pa.Table.from_batches([batch.replace_schema_metadata(schema.metadata)], schema)
         scratch = path.with_suffix(".writing")
-        pq.write_table(table, scratch, compression="zstd")
+        pq.write_table(table, scratch, compression="lz4")  # a scratch copy: fast over small
         scratch.replace(path)
 
     def parts(self, units: Iterable[WorkUnit]) -> list[Path]:
@@ -249,7 +250,7 @@ def pull(
             shutil.rmtree(stager.root, ignore_errors=True)
             _remove_empty(created)
         raise
-    info = publish_snapshot(spec, stager, units, provenance, discovery, keys)
+    info = publish_snapshot(spec, stager, units, provenance, discovery, keys, progress=progress)
     shutil.rmtree(stager.root, ignore_errors=True)
     info.units_total = len(units)
     info.units_resumed = stager.units_resumed
@@ -419,6 +420,8 @@ def publish_snapshot(
     provenance: dict[str, Any],
     discovery: dict[str, Any] | None,
     source_keys: dict[tuple[str, str], list[str]] | None = None,
+    *,
+    progress: Progress | None = None,
 ) -> PullInfo:
     tables: list[dict[str, Any]] = []
     warnings: list[str] = []
@@ -426,6 +429,7 @@ def publish_snapshot(
     edge_counts: dict[str, int] = {}
     from graphmill.engine import open_engine
 
+    progress = progress or SilentProgress()
     with (
         atomic_directory(spec.output.snapshot, kind="snapshot", key="output.snapshot") as scratch,
         open_engine(spec) as engine,
@@ -435,6 +439,7 @@ def publish_snapshot(
         for name, vt in spec.vertex_types.items():
             mine = [u for u in units if u.table == "vertices" and u.name == name]
             declared = list(vt.properties) + extra
+            rel_path = f"vertices/{name}.parquet"
             if any(u.facet for u in mine):
                 table, kinds, collapsed = faceted_table(stager, mine, declared, engine=engine)
                 warnings += [
@@ -442,35 +447,40 @@ def publish_snapshot(
                     "property; the smallest was kept (declare it 'multi: true' to keep all)"
                     for prop, n in collapsed.items()
                 ]
+                write_parquet(table, scratch / rel_path)
             else:
-                table, kinds = canonical_table(
-                    _read_parts(stager.parts(mine)), [VERTEX_ID], declared, engine=engine
+                table, kinds = _merged_table(
+                    engine,
+                    stager.parts(mine),
+                    [VERTEX_ID],
+                    declared,
+                    scratch / rel_path,
+                    progress.task(f"merge vertices {name}", total=_staged_rows(stager, mine)),
                 )
-            rel_path = f"vertices/{name}.parquet"
-            write_parquet(table, scratch / rel_path)
             warnings += personal_data_warnings(
                 name, table, {p.name: p.source_key for p in vt.properties}
             )
-            vertex_counts[name] = table.num_rows
-            entry = _table_entry("vertices", name, rel_path, scratch, table, kinds)
+            entry = _table_entry("vertices", name, rel_path, scratch, kinds)
+            vertex_counts[name] = entry["rows"]
             add_gate_facts(entry, stager.parts(mine), [VERTEX_ID], scratch, source_keys)
             tables.append(entry)
         for rel in spec.relations:
             dotted = rel.key.dotted
             mine = [u for u in units if u.table == "edges" and u.name == dotted]
-            table, kinds = canonical_table(
-                _read_parts(stager.parts(mine)),
+            rel_path = f"edges/{dotted}.parquet"
+            table, kinds = _merged_table(
+                engine,
+                stager.parts(mine),
                 [SOURCE_ID, TARGET_ID],
                 list(rel.properties),
-                engine=engine,
+                scratch / rel_path,
+                progress.task(f"merge edges {dotted}", total=_staged_rows(stager, mine)),
             )
-            rel_path = f"edges/{dotted}.parquet"
-            write_parquet(table, scratch / rel_path)
             warnings += personal_data_warnings(
                 dotted, table, {p.name: p.source_key for p in rel.properties}
             )
-            edge_counts[dotted] = table.num_rows
-            entry = _table_entry("edges", dotted, rel_path, scratch, table, kinds)
+            entry = _table_entry("edges", dotted, rel_path, scratch, kinds)
+            edge_counts[dotted] = entry["rows"]
             add_gate_facts(entry, stager.parts(mine), [SOURCE_ID, TARGET_ID], scratch, source_keys)
             tables.append(entry)
         document = {
@@ -491,23 +501,50 @@ def publish_snapshot(
     )
 
 
+def _merged_table(
+    engine: Engine,
+    parts: list[Path],
+    id_columns: list[str],
+    declared: list[PropertySpec],
+    path: Path,
+    task: ProgressTask,
+) -> tuple[pa.Table, dict[str, dict[str, int]]]:
+    """Merge a table's staged parts into ``path``; returns its property columns (for the
+    personal-data scan; the whole table when merged in memory) and value-kind profiles.
+    Parts that need no type unification are merged by the engine, streamed
+    (:mod:`graphmill._snapshot_merge`), with ``task`` advanced by the rows written."""
+    plan = merge_plan(parts, id_columns, [p.name for p in declared])
+    if plan is None:
+        table, kinds = canonical_table(_read_parts(parts), id_columns, declared, engine=engine)
+        write_parquet(table, path)
+        task.advance(table.num_rows)
+        return table, kinds
+    schema, kinds = plan
+    merge_to_file(engine, parts, schema, path, PARQUET_OPTIONS, advance=task.advance)
+    return property_columns(path, schema, id_columns), kinds
+
+
+def _staged_rows(stager: Stager, units: list[WorkUnit]) -> int:
+    return sum(pq.read_metadata(p).num_rows for p in stager.parts(units))
+
+
 def _table_entry(
     kind: str,
     name: str,
     rel_path: str,
     root: Path,
-    table: pa.Table,
     kinds: dict[str, dict[str, int]],
 ) -> dict[str, Any]:
+    meta = pq.read_metadata(root / rel_path)
     return {
         "kind": kind,
         "name": name,
         "file": rel_path,
-        "rows": table.num_rows,
+        "rows": meta.num_rows,
         "sha256": sha256_file(root / rel_path),
         "columns": [
             {"name": f.name, "arrow_type": str(f.type), "value_kinds": kinds.get(f.name, {})}
-            for f in table.schema
+            for f in meta.schema.to_arrow_schema()
         ],
     }
 

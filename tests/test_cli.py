@@ -180,6 +180,8 @@ def test_verbose_logs_each_stage(tmp_path, table_project):
         "INFO: build vertices",
         "INFO: build: wrote ",
         "INFO: build: file manifest.json (",
+        "INFO: local engine ",  # each engine query, with its wall and CPU seconds
+        " s (CPU ",
     ):
         assert words in log, (words, log)
     quiet = run_cli("run", str(table_project))

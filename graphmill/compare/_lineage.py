@@ -20,9 +20,11 @@ from graphmill.errors import BundleIntegrityError, InputError
 
 def spec_sha256(raw: dict[str, Any]) -> str:
     """sha256 of the spec document's canonical JSON (comments and key order do not count),
-    leaving out where it writes (``output``) and ``drift_gate.previous``: the same recipe
-    written elsewhere hashes the same, and the previous version has a hash of its own."""
-    body = {k: v for k, v in raw.items() if k != "output"}
+    leaving out where it writes (``output``), which engine computes it (``engine``: every
+    engine gives the same bytes) and ``drift_gate.previous``: the same recipe written
+    elsewhere or run on another engine hashes the same, and the previous version has a hash
+    of its own."""
+    body = {k: v for k, v in raw.items() if k not in ("output", "engine")}
     if isinstance(body.get("drift_gate"), dict):
         body["drift_gate"] = {k: v for k, v in body["drift_gate"].items() if k != "previous"}
     try:

@@ -9,12 +9,13 @@ positions and indices are int64 numpy arrays. Check operations take their edge t
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.parquet as pq
 
 from graphmill.engine._contracts import Offenders
 from graphmill.spec import EngineSpec
@@ -53,6 +54,15 @@ class Engine(ABC):
         """Stable permutation sorting ``table`` by ``keys`` ascending (contract:
         ``canonical-order``)."""
 
+    def sorted_parts(
+        self, parts: Sequence[Path], columns: Sequence[str], keys: Sequence[str]
+    ) -> Iterator[pa.RecordBatch]:
+        """``columns`` of the rows of ``parts`` (Parquet files of one schema) in canonical
+        order by ``keys`` (contract: ``canonical-merge``). This default reads the parts into
+        memory and applies :meth:`canonical_order`; an engine may stream instead."""
+        table = pa.concat_tables([pq.read_table(p, columns=list(columns)) for p in parts])
+        yield from table.take(self.canonical_order(table, keys)).to_batches()
+
     # ------------------------------------------------------------------ build
     @abstractmethod
     def first_rows_by_id(self, ids: Column) -> np.ndarray:
@@ -76,6 +86,29 @@ class Engine(ABC):
         symmetrize: bool,
     ) -> EdgeOutcome:
         """Mapped endpoints in, policed and sorted edges out (``edge-policy``)."""
+
+    def mapped_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        """Both endpoints mapped, then the policies (``mapped-edges``); this default
+        composes :meth:`endpoint_positions` and :meth:`edge_policy`."""
+        return self.edge_policy(
+            self.endpoint_positions(edges, "source", source_ids),
+            self.endpoint_positions(edges, "target", target_ids),
+            same_type=same_type,
+            vertex_count=len(source_ids),
+            duplicates=duplicates,
+            self_loops=self_loops,
+            symmetrize=symmetrize,
+        )
 
     # ------------------------------------------------------------------ check
     @abstractmethod

@@ -85,6 +85,17 @@ OPERATIONS: dict[str, Operation] = {
             a snapshot table's row order depends only on its set of rows.""",
         ),
         _op(
+            "canonical-merge",
+            "pull",
+            "sorted_parts",
+            {"parts": ROWS},
+            {"rows": ROWS},
+            """The rows of staged Parquet parts that share one schema, in the order of
+            ``canonical-order`` over the parts' rows taken in turn (ties keep that order),
+            streamed as record batches, so that the snapshot's writer cuts the same row groups
+            whatever the engine.""",
+        ),
+        _op(
             "vertex-index",
             "build",
             "first_rows_by_id",
@@ -114,6 +125,16 @@ OPERATIONS: dict[str, Operation] = {
             absent, carrying u->v's row); resolve repeated pairs (keep all, keep the first,
             or merge into a multiplicity); sort stably by (source, target), originals before
             added reverses, then by row.""",
+        ),
+        _op(
+            "mapped-edges",
+            "build",
+            "mapped_edges",
+            {"edges": EDGE_IDS, "sources": VERTEX_IDS, "targets": VERTEX_IDS},
+            {"edges": POLICED_EDGES},
+            """``endpoint-index`` for both sides of an edge table, then ``edge-policy`` on the
+            mapped edges, in one go, so that an engine can map and police without handing
+            the positions back in between.""",
         ),
         _op(
             "dangling-edges",

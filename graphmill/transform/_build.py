@@ -312,11 +312,11 @@ def _add_relation(
             f"{key.dotted}: an undirected relation between two vertex types cannot be "
             "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
         )
-    outcome = engine.edge_policy(
-        engine.endpoint_positions(edges_file, "source", src.ids),
-        engine.endpoint_positions(edges_file, "target", dst.ids),
+    outcome = engine.mapped_edges(
+        edges_file,
+        src.ids,
+        dst.ids,
         same_type=same_type,
-        vertex_count=src.count,
         duplicates=spec.edges.duplicates,
         self_loops=spec.edges.self_loops,
         symmetrize=symmetrize and same_type,

@@ -63,12 +63,13 @@ def tensor_index(content: BundleContent) -> dict[str, dict[str, Any]]:
 
 def write_bundle(root: Path, content: BundleContent) -> dict[str, Any]:
     """Write everything into ``root`` (an empty folder); return the sealed manifest."""
-    from safetensors.numpy import save as save_tensors
+    from safetensors.numpy import save_file
 
     for rel_path, table in sorted(content.tables.items()):
         write_parquet(table, root / rel_path)
-    (root / TENSOR_FILE).write_bytes(
-        save_tensors(dict(sorted(content.tensors.items())), metadata={"bundle_format": "1"})
+    # written straight from the arrays: no second copy of every tensor in memory
+    save_file(
+        dict(sorted(content.tensors.items())), root / TENSOR_FILE, metadata={"bundle_format": "1"}
     )
     files = []
     for path in sorted(p for p in root.rglob("*") if p.is_file()):

@@ -15,7 +15,7 @@ import yaml
 
 from graphmill.bundle import canonical_json, read_manifest
 from graphmill.cli import main
-from graphmill.compare._lineage import verify_lineage
+from graphmill.compare._lineage import spec_sha256, verify_lineage
 from graphmill.compare._with_build import DriftGateError
 from graphmill.errors import BundleIntegrityError
 from graphmill.snapshot import Snapshot
@@ -58,6 +58,8 @@ def test_lineage_and_comparison_in_the_manifest(tmp_path: Path) -> None:
     assert lineage["previous_manifest_sha256"] is None and m1["comparison"] is None
     recipe = {k: v for k, v in doc1.items() if k != "output"}
     assert lineage["spec_sha256"] == hashlib.sha256(canonical_json(recipe)).hexdigest()
+    on_another_engine = spec_sha256({**doc1, "engine": {"kind": "reference", "threads": 1}})
+    assert on_another_engine == lineage["spec_sha256"]  # the engine is not part of the recipe
     snap = json.loads((tmp_path / "week1" / "snapshot" / "snapshot.json").read_text())
     assert {t["sha256"] for t in lineage["snapshot_tables"]} == {
         t["sha256"] for t in snap["tables"]

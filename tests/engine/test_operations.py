@@ -223,3 +223,53 @@ def test_canonical_order_of_other_key_types(engines: tuple[Engine, Engine]) -> N
     for keys in (["u", "ns"], ["us", "d", "dec"], ["bin"], ["big", "d"], ["dec", "us", "big"]):
         expected = reference.canonical_order(table, keys).tolist()
         assert other.canonical_order(table, keys).tolist() == expected, keys
+
+
+def test_mapped_edges(engines: tuple[Engine, Engine]) -> None:
+    @examples(
+        engines,
+        DATA,
+        st.lists(IDS, max_size=8, unique=True),
+        st.lists(IDS, max_size=8, unique=True),
+        st.sampled_from(["keep", "drop", "merge"]),
+        st.sampled_from(["keep", "drop"]),
+        st.booleans(),
+    )
+    def _(
+        reference: Engine,
+        other: Engine,
+        data: st.DataObject,
+        sources: list[str],
+        targets: list[str],
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> None:
+        edges: Any = data.draw(edge_tables(properties=data.draw(st.booleans())))
+        if data.draw(st.booleans(), label="as a Parquet file"):
+            folder = Path(tempfile.mkdtemp())
+            pq.write_table(edges, folder / "edges.parquet", row_group_size=4)  # several groups
+            edges = folder / "edges.parquet"
+        same_type = data.draw(st.booleans(), label="one vertex type")
+        source_ids = pa.array(sorted(sources), pa.string())
+        target_ids = source_ids if same_type else pa.array(sorted(targets), pa.string())
+        options = {
+            "same_type": same_type,
+            "duplicates": duplicates,
+            "self_loops": self_loops,
+            "symmetrize": symmetrize,
+        }
+        expected, got = (
+            e.mapped_edges(edges, source_ids, target_ids, **options) for e in (reference, other)
+        )
+        for name in ("source", "target", "rows"):
+            assert getattr(got.edges, name).tolist() == getattr(expected.edges, name).tolist()
+        if expected.edges.multiplicity is None:
+            assert got.edges.multiplicity is None
+        else:
+            assert got.edges.multiplicity.tolist() == expected.edges.multiplicity.tolist()
+        assert (got.dropped, got.merged, got.added_reverses) == (
+            expected.dropped,
+            expected.merged,
+            expected.added_reverses,
+        )

@@ -8,7 +8,6 @@ this class inherits.
 from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
-from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -39,12 +38,18 @@ def _rows(n: int) -> pa.Array:
     return pa.array(np.arange(n, dtype=np.int64))
 
 
-@dataclass(frozen=True)
+@dataclass
 class _Coded:
-    """A loaded edge table with coded endpoints, and its (id, code) dictionary."""
+    """A check input named in the session (``raw``: a view over the file, or the registered
+    Arrow table), its (id, code, as_source, as_target) dictionary, and what is derived from
+    it once per stage: the edges with coded endpoints and the flagged distinct pairs."""
 
-    edges: str
+    raw: str
     ids: str
+    width: int  # columns of the edge table
+    edges: str | None = None
+    pairs: str | None = None
+    keep: object = None  # the Arrow table, held so that its id() stays its own
 
 
 class LocalEngine(ReferenceEngine):
@@ -54,9 +59,11 @@ class LocalEngine(ReferenceEngine):
     native = frozenset(
         {
             "canonical-order",
+            "canonical-merge",
             "vertex-index",
             "endpoint-index",
             "edge-policy",
+            "mapped-edges",
             "dangling-edges",
             "self-loops",
             "repeated-edges",
@@ -70,41 +77,46 @@ class LocalEngine(ReferenceEngine):
     def __init__(self, *args: Any, **kwargs: Any) -> None:
         super().__init__(*args, **kwargs)
         self._session: Session | None = None
-        self._loaded: dict[Path, _Coded] = {}  # snapshot files read once per stage
-        self._pairs: dict[str, str] = {}  # a coded table -> its distinct (s, t) pairs
+        self._loaded: dict[Path | int, _Coded] = {}  # check inputs, coded once per stage
 
-    def _checked(self, edges: TableInput) -> pa.Table | _Coded:
-        """A check input. A file is read once per stage into a session table whose endpoint
-        columns hold integer codes that order as the IDs do, so that every check hashes
-        and compares integers; samples are decoded at the end (:meth:`_records`)."""
-        if not isinstance(edges, Path):
-            return edges
-        if edges not in self._loaded:
+    def _checked(self, edges: TableInput) -> _Coded:
+        """A check input, coded once per stage: every endpoint ID gets an integer code that
+        orders as the IDs do, so that the checks hash and compare integers; samples are
+        decoded at the end (:meth:`_records`). A file is scanned, never loaded whole."""
+        key = edges if isinstance(edges, Path) else id(edges)
+        if key not in self._loaded:
             s = self.session
-            raw = s.load(edges)
+            raw = s.source(edges)
             ids = s.load_query(q.id_codes(raw))
-            self._loaded[edges] = _Coded(s.load_query(q.coded_edges(raw, ids)), ids)
-            s.connection.execute(f"DROP TABLE {raw}")
-        return self._loaded[edges]
+            keep = None if isinstance(edges, Path) else edges
+            self._loaded[key] = _Coded(raw, ids, len(_schema(edges)), keep=keep)
+        return self._loaded[key]
 
-    @staticmethod
-    def _table(checked: pa.Table | _Coded) -> pa.Table | str:
-        return checked.edges if isinstance(checked, _Coded) else checked
+    def _edges(self, c: _Coded) -> str:
+        """The coded edge table (every column), materialized on first use."""
+        if c.edges is None:
+            c.edges = self.session.load_query(q.coded_edges(c.raw, c.ids))
+        return c.edges
 
-    def _records(self, checked: pa.Table | _Coded, sample: str, width: int) -> list[dict[str, Any]]:
-        """A sample query's records, with coded endpoints decoded."""
-        if isinstance(checked, _Coded):
-            sample = q.decoded(sample, checked.ids, width)
-        return self.session.records(sample)
-
-    def _vertex_set(self, checked: pa.Table | _Coded, table: str) -> str:
-        """A vertex ID table as the checked edges name vertices (codes, when coded)."""
-        if isinstance(checked, _Coded):
-            return (
-                f"(SELECT code AS vertex_id FROM {checked.ids} "
-                f"SEMI JOIN {table} w ON id = w.vertex_id)"
+    def _pairs(self, c: _Coded) -> str:
+        """The distinct coded pairs with ``copies`` and ``back`` (reverse present): one table
+        from which dangling edges, loops, exact repeats (without properties), reciprocity
+        and one-way edges are all counted and sampled."""
+        if c.pairs is None:
+            s = self.session
+            counted = s.load_query(
+                q.coded_pairs(c.raw, c.ids)
+                if c.edges is None  # straight from the input: coded edges never stored
+                else f"SELECT source_id, target_id, count(*) AS copies FROM {c.edges} "
+                "GROUP BY source_id, target_id"
             )
-        return table
+            c.pairs = s.load_query(q.pair_flags(counted))
+            s.connection.execute(f"DROP TABLE {counted}")
+        return c.pairs
+
+    def _records(self, c: _Coded, sample: str, width: int) -> list[dict[str, Any]]:
+        """A sample query's records, with coded endpoints decoded."""
+        return self.session.records(q.decoded(sample, c.ids, width))
 
     @property
     def session(self) -> Session:
@@ -120,7 +132,6 @@ class LocalEngine(ReferenceEngine):
     def close(self) -> None:
         super().close()
         self._loaded.clear()
-        self._pairs.clear()
         if self._session is not None:
             self._session.close()
             self._session = None
@@ -132,6 +143,17 @@ class LocalEngine(ReferenceEngine):
         keyed = table.select(list(keys)).append_column("gm_row", _rows(table.num_rows))
         with self.session.tables({"t": keyed}) as n:
             return self.session.positions(q.order_by(keys, "gm_row").format(t=n["t"]))
+
+    def sorted_parts(
+        self, parts: Sequence[Path], columns: Sequence[str], keys: Sequence[str]
+    ) -> Iterator[pa.RecordBatch]:
+        """Scanned and sorted by DuckDB (spilling under the memory limit) and streamed: the
+        parts are never held in Python. Ties keep the parts' order, then their row order."""
+        if not parts:
+            return
+        files = [str(p) for p in parts]
+        floats = any(pa.types.is_floating(t) for t in pq.read_schema(parts[0]).types)
+        yield from self.session.batches(q.sorted_parts(files, columns, keys, ties=floats))
 
     # ------------------------------------------------------------------ build
     def first_rows_by_id(self, ids: Column) -> np.ndarray:
@@ -167,28 +189,71 @@ class LocalEngine(ReferenceEngine):
         self_loops: str,
         symmetrize: bool,
     ) -> EdgeOutcome:
-        s = self.session
         mapped = pa.table({"s": source, "t": target, "row": _rows(len(source))})
+        with self.session.tables({"m": mapped}) as n:
+            return self._police(n["m"], same_type, duplicates, self_loops, symmetrize)
+
+    def mapped_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeOutcome:
+        """One join per side straight from the file; the mapped edges stay in DuckDB."""
+        s = self.session
+        sources = pa.table({"id": _column(source_ids), "position": _rows(len(source_ids))})
+        targets = pa.table({"id": _column(target_ids), "position": _rows(len(target_ids))})
+        if isinstance(edges, Path):
+            ends: TableInput = edges
+            row = "file_row_number"
+        else:
+            ends = edges.select(ENDPOINTS).append_column("gm_row", _rows(edges.num_rows))
+            row = "gm_row"
+        with (
+            s.tables({"e": ends, "vs": sources, "vt": targets}, row_numbers=True) as n,
+            s.scratch(q.mapped(n["e"], row, n["vs"], n["vt"])) as mapped,
+        ):
+            return self._police(mapped, same_type, duplicates, self_loops, symmetrize, owned=True)
+
+    def _police(
+        self,
+        m: str,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+        *,
+        owned: bool = False,
+    ) -> EdgeOutcome:
+        """``edge-policy`` on the session table ``m`` (``s``, ``t``, ``row``; -1: dangling);
+        ``owned``: ``m`` is a scratch table, dropped as soon as the kept edges are taken."""
+        s = self.session
         dropped = dict.fromkeys(DROP_REASONS, 0)
-        with s.tables({"m": mapped}) as n:
-            both, no_source, no_target = s.ints(q.dangling_counts(n["m"]))
-            dropped.update(
-                {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
-            )
-            drop_loops = same_type and self_loops == "drop"
-            with s.scratch(q.kept_edges(n["m"], drop_loops=drop_loops)) as kept:
-                (kept_count,) = s.ints(f"SELECT count(*) FROM {kept}")
-                if drop_loops:
-                    dropped["self-loop"] = len(source) - both - no_source - no_target - kept_count
-                union = f"SELECT s, t, row, 0 AS added FROM {kept}"
-                added = 0
-                if same_type and symmetrize:
-                    with s.scratch(q.missing_reverses(kept)) as extra:
-                        (added,) = s.ints(f"SELECT count(*) FROM {extra}")
-                        union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
-                        result = s.arrow(q.resolved(f"({union})", duplicates))
-                else:
+        total, both, no_source, no_target = s.ints(q.dangling_counts(m))
+        dropped.update(
+            {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
+        )
+        drop_loops = same_type and self_loops == "drop"
+        with s.scratch(q.kept_edges(m, drop_loops=drop_loops)) as kept:
+            (kept_count,) = s.ints(f"SELECT count(*) FROM {kept}")
+            if owned:
+                s.connection.execute(f"DROP TABLE {m}")
+            if drop_loops:
+                dropped["self-loop"] = total - both - no_source - no_target - kept_count
+            union = f"SELECT s, t, row, 0 AS added FROM {kept}"
+            added = 0
+            if same_type and symmetrize:
+                with s.scratch(q.missing_reverses(kept)) as extra:
+                    (added,) = s.ints(f"SELECT count(*) FROM {extra}")
+                    union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
                     result = s.arrow(q.resolved(f"({union})", duplicates))
+            else:
+                result = s.arrow(q.resolved(f"({union})", duplicates))
 
         def column(name: str) -> np.ndarray:
             return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
@@ -208,41 +273,41 @@ class LocalEngine(ReferenceEngine):
         self, edges: TableInput, source_ids: Column, target_ids: Column, k: int
     ) -> Offenders:
         s = self.session
+        c = self._checked(edges)
         sources = pa.table({"vertex_id": _column(source_ids)})
         targets = pa.table({"vertex_id": _column(target_ids)})
-        checked = self._checked(edges)
-        with s.tables({"e": self._table(checked), "vs": sources, "vt": targets}) as n:
-            vs, vt = self._vertex_set(checked, n["vs"]), self._vertex_set(checked, n["vt"])
-            with s.scratch(q.dangling_edges(n["e"], vs, vt)) as flagged:
-                count, on_source, on_target = s.ints(
-                    f"SELECT count(*), count(*) FILTER (WHERE no_source), "
-                    f"count(*) FILTER (WHERE no_target) FROM {flagged}"
-                )
-                sample = self._records(
-                    checked, q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k), 3
-                )
+        with (
+            s.tables({"vs": sources, "vt": targets}) as n,
+            s.scratch(q.missing_codes(c.ids, n["vs"], "source")) as no_source,
+            s.scratch(q.missing_codes(c.ids, n["vt"], "target")) as no_target,
+            s.scratch(q.dangling_pairs(self._pairs(c), no_source, no_target)) as flagged,
+        ):
+            count, on_source, on_target = s.ints(
+                f"SELECT sum(copies), sum(copies) FILTER (WHERE no_source), "
+                f"sum(copies) FILTER (WHERE no_target) FROM {flagged}"
+            )
+            sample = self._records(c, q.sample(flagged, [*ENDPOINTS, q.MISSING_SIDE], k), 3)
         return Offenders(count, sample, {"source_side": on_source, "target_side": on_target})
 
     def self_loops(self, edges: TableInput, k: int) -> Offenders:
-        s = self.session
-        checked = self._checked(edges)
-        with s.tables({"e": self._table(checked)}) as n:
-            loops = f"(SELECT * FROM {n['e']} WHERE source_id = target_id)"
-            (count,) = s.ints(f"SELECT count(*) FROM {loops}")
-            return Offenders(count, self._records(checked, q.sample(loops, ENDPOINTS, k), 2))
+        c = self._checked(edges)
+        loops = f"(SELECT * FROM {self._pairs(c)} WHERE source_id = target_id)"
+        (count,) = self.session.ints(f"SELECT sum(copies) FROM {loops}")
+        return Offenders(count, self._records(c, q.sample(loops, ENDPOINTS, k), 2))
 
     def repeated_edges(self, edges: TableInput, k: int) -> Offenders:
         s = self.session
-        key = q.group_key(_schema(edges))
-        checked = self._checked(edges)
-        with s.tables({"e": self._table(checked)}) as n:
+        c = self._checked(edges)
+        if c.width == 2:  # without properties a repeat is a pair with several copies
+            grouped = f"SELECT * FROM {self._pairs(c)} WHERE copies > 1"
+        else:
             grouped = (
-                f"SELECT source_id, target_id, count(*) AS copies FROM {n['e']} "
-                f"GROUP BY {key} HAVING count(*) > 1"
+                f"SELECT source_id, target_id, count(*) AS copies FROM {self._edges(c)} "
+                f"GROUP BY {q.group_key(_schema(edges))} HAVING count(*) > 1"
             )
-            with s.scratch(grouped) as rep:
-                extra, rows = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {rep}")
-                sample = self._records(checked, q.sample(rep, [*ENDPOINTS, "copies"], k), 3)
+        with s.scratch(grouped) as rep:
+            extra, rows = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {rep}")
+            sample = self._records(c, q.sample(rep, [*ENDPOINTS, "copies"], k), 3)
         return Offenders(extra, sample, {"repeated_edges": rows})
 
     def parallel_edges(self, edges: TableInput, k: int) -> Offenders:
@@ -250,71 +315,41 @@ class LocalEngine(ReferenceEngine):
             return Offenders(0, [], {"pairs": 0})
         s = self.session
         key = q.group_key(_schema(edges))
-        checked = self._checked(edges)
-        with s.tables({"e": self._table(checked)}) as n:
-            grouped = (
-                f"SELECT source_id, target_id, count(*) AS variants FROM "
-                f"(SELECT source_id, target_id FROM {n['e']} GROUP BY {key}) "
-                "GROUP BY source_id, target_id HAVING count(*) > 1"
-            )
-            with s.scratch(grouped) as par:
-                extra, pairs = s.ints(f"SELECT sum(variants) - count(*), count(*) FROM {par}")
-                sample = self._records(checked, q.sample(par, [*ENDPOINTS, "variants"], k), 3)
+        c = self._checked(edges)
+        grouped = (
+            f"SELECT source_id, target_id, count(*) AS variants FROM "
+            f"(SELECT source_id, target_id FROM {self._edges(c)} GROUP BY {key}) "
+            "GROUP BY source_id, target_id HAVING count(*) > 1"
+        )
+        with s.scratch(grouped) as par:
+            extra, pairs = s.ints(f"SELECT sum(variants) - count(*), count(*) FROM {par}")
+            sample = self._records(c, q.sample(par, [*ENDPOINTS, "variants"], k), 3)
         return Offenders(extra, sample, {"pairs": pairs})
 
-    @contextmanager
-    def _distinct_pairs(self, edges: TableInput) -> Iterator[str]:
-        """A table of the distinct (s, t) pairs of ``edges``; kept for the stage when the
-        edges came from a file (reciprocity and one-way edges both need it)."""
-        checked = self._table(self._checked(edges))
-        if isinstance(checked, str) and checked in self._pairs:
-            yield self._pairs[checked]
-            return
-        with self.session.tables({"e": checked}) as n:
-            if isinstance(checked, str):
-                self._pairs[checked] = self.session.load_query(q.distinct_pairs(n["e"]))
-                yield self._pairs[checked]
-            else:
-                with self.session.scratch(q.distinct_pairs(n["e"])) as pairs:
-                    yield pairs
-
     def reciprocity(self, edges: TableInput) -> Offenders:
-        s = self.session
-        with self._distinct_pairs(edges) as pairs:
-            (back,) = s.ints(q.reciprocated(pairs))
-            (total,) = s.ints(f"SELECT count(*) FROM {pairs}")
+        pairs = self._pairs(self._checked(edges))
+        back, total = self.session.ints(
+            f"SELECT count(*) FILTER (WHERE back AND source_id <> target_id), count(*) FROM {pairs}"
+        )
         return Offenders(back, [], {"pairs": total})
 
     def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
-        s = self.session
-        checked = self._checked(edges)
-        with (
-            s.tables({"e": self._table(checked)}) as n,
-            self._distinct_pairs(edges) as pairs,
-            s.scratch(q.one_way(n["e"], pairs)) as ow,
-        ):
-            (count,) = s.ints(f"SELECT count(*) FROM {ow}")
-            (distinct,) = s.ints(f"SELECT count(*) FROM ({q.distinct_pairs(ow)})")
-            sample = self._records(checked, q.sample(ow, ENDPOINTS, k), 2)
+        c = self._checked(edges)
+        one_way = f"(SELECT * FROM {self._pairs(c)} WHERE NOT back)"
+        count, distinct = self.session.ints(f"SELECT sum(copies), count(*) FROM {one_way}")
+        sample = self._records(c, q.sample(one_way, ENDPOINTS, k), 2)
         return Offenders(count, sample, {"pairs": distinct})
 
     def isolated_vertices(
         self, vertex_ids: Column, sides: Sequence[tuple[TableInput, str]], k: int
     ) -> Offenders:
         s = self.session
-        checked = [self._checked(edges) for edges, _ in sides]
-        ends = {f"e{i}": self._table(c) for i, c in enumerate(checked)}
-        with s.tables({"v": pa.table({"vertex_id": _column(vertex_ids)}), **ends}) as n:
-            id_sources = []
-            for i, ((_, side), c) in enumerate(zip(sides, checked, strict=True)):
-                distinct = f"SELECT DISTINCT {side}_id AS code FROM {n[f'e{i}']}"
-                id_sources.append(
-                    f"SELECT d.id FROM ({distinct}) c JOIN {c.ids} d USING (code)"
-                    if isinstance(c, _Coded)
-                    else distinct.replace(" AS code ", " AS id ")
-                )
-            with s.scratch(q.isolated(n["v"], id_sources)) as iso:
-                (count,) = s.ints(f"SELECT count(*) FROM {iso}")
-                (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
-                sample = s.records(q.sample(iso, ["vertex_id"], k))
+        id_sources = [
+            f"SELECT id FROM {self._checked(edges).ids} WHERE as_{side}" for edges, side in sides
+        ]
+        vertices = pa.table({"vertex_id": _column(vertex_ids)})
+        with s.tables({"v": vertices}) as n, s.scratch(q.isolated(n["v"], id_sources)) as iso:
+            (count,) = s.ints(f"SELECT count(*) FROM {iso}")
+            (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
+            sample = s.records(q.sample(iso, ["vertex_id"], k))
         return Offenders(count, sample, {"total": total})

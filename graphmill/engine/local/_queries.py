@@ -24,6 +24,31 @@ def order_by(keys: Sequence[str], row: str) -> str:
     return f"SELECT {row} FROM {{t}} ORDER BY {columns}, {row}"
 
 
+def literal(text: str) -> str:
+    """An SQL string literal."""
+    return "'" + text.replace("'", "''") + "'"
+
+
+def sorted_parts(
+    paths: Sequence[str], columns: Sequence[str], keys: Sequence[str], *, ties: bool
+) -> str:
+    """``canonical-merge``: ``columns`` of the Parquet files at ``paths`` by ``keys``; with
+    ``ties``, rows whose keys compare equal keep the files' order, then row order (needed
+    only where equal keys can hold different values, e.g. -0.0 and 0.0)."""
+    listed = "[" + ", ".join(literal(p) for p in paths) + "]"
+    order = ", ".join(f"{quote(k)} ASC NULLS LAST" for k in keys)
+    options = ""
+    if ties:
+        options = ", filename = true, file_row_number = true"
+        in_order = list(paths) == sorted(paths)  # then the name is the file's rank
+        rank = "filename" if in_order else f"list_position({listed}, filename)"
+        order += f", {rank}, file_row_number"
+    return (
+        f"SELECT {', '.join(quote(c) for c in columns)} FROM read_parquet({listed}, "
+        f"union_by_name = true{options}) ORDER BY {order}"
+    )
+
+
 def first_rows(table: str) -> str:
     """``vertex-index``: first row per ID, in ID order."""
     return f"SELECT min(row) AS row FROM {table} GROUP BY id ORDER BY id"
@@ -35,9 +60,18 @@ def endpoint_positions(endpoints: str, vertices: str) -> str:
     return f"SELECT e.row, v.position FROM {endpoints} e JOIN {vertices} v ON e.id = v.id"
 
 
+def mapped(e: str, row: str, sources: str, targets: str) -> str:
+    """``mapped-edges``: (s, t, row) of every edge, -1 for an endpoint that is no vertex."""
+    return (
+        f"SELECT coalesce(a.position, -1) AS s, coalesce(b.position, -1) AS t, e.{row} AS row "
+        f"FROM {e} e LEFT JOIN {sources} a ON e.source_id = a.id "
+        f"LEFT JOIN {targets} b ON e.target_id = b.id"
+    )
+
+
 def dangling_counts(m: str) -> str:
     return (
-        f"SELECT count(*) FILTER (WHERE s = -1 AND t = -1), "
+        f"SELECT count(*), count(*) FILTER (WHERE s = -1 AND t = -1), "
         f"count(*) FILTER (WHERE s = -1 AND t <> -1), "
         f"count(*) FILTER (WHERE s <> -1 AND t = -1) FROM {m}"
     )
@@ -92,34 +126,10 @@ def sample(table: str, columns: Sequence[str], k: int) -> str:
     return f"SELECT DISTINCT {', '.join(columns)} FROM {table} ORDER BY {order} LIMIT {int(k)}"
 
 
-def dangling_edges(e: str, sources: str, targets: str) -> str:
-    return (
-        f"SELECT * FROM (SELECT {ENDS}, "
-        f"NOT (source_id IN (SELECT vertex_id FROM {sources})) AS no_source, "
-        f"NOT (target_id IN (SELECT vertex_id FROM {targets})) AS no_target FROM {e}) "
-        "WHERE no_source OR no_target"
-    )
-
-
 MISSING_SIDE = (
     "CASE WHEN no_source AND no_target THEN 'both' WHEN no_source THEN 'source' "
     "ELSE 'target' END AS missing"
 )
-
-
-def distinct_pairs(e: str) -> str:
-    return f"SELECT DISTINCT source_id AS s, target_id AS t FROM {e}"
-
-
-def reciprocated(pairs: str) -> str:
-    return (
-        f"SELECT count(*) FROM {pairs} p SEMI JOIN {pairs} r ON r.s = p.t AND r.t = p.s "
-        "WHERE p.s <> p.t"
-    )
-
-
-def one_way(e: str, pairs: str) -> str:
-    return f"SELECT {ENDS} FROM {e} ANTI JOIN {pairs} r ON r.s = target_id AND r.t = source_id"
 
 
 def isolated(v: str, id_sources: Sequence[str]) -> str:
@@ -132,10 +142,13 @@ def isolated(v: str, id_sources: Sequence[str]) -> str:
 
 
 def id_codes(e: str) -> str:
-    """Every endpoint ID of an edge table once, with a code that keeps the byte order."""
+    """Every endpoint ID of an edge table once, with a code that keeps the byte order and
+    whether it stands as a source, as a target (for isolated vertices)."""
     return (
-        "SELECT id, row_number() OVER (ORDER BY id) AS code FROM "
-        f"(SELECT source_id AS id FROM {e} UNION SELECT target_id FROM {e})"
+        "SELECT id, row_number() OVER (ORDER BY id) AS code, as_source, as_target FROM "
+        "(SELECT id, bool_or(side = 0) AS as_source, bool_or(side = 1) AS as_target FROM "
+        f"(SELECT source_id AS id, 0 AS side FROM {e} UNION ALL SELECT target_id, 1 FROM {e}) "
+        "GROUP BY id)"
     )
 
 
@@ -145,6 +158,43 @@ def coded_edges(e: str, ids: str) -> str:
         f"SELECT a.code AS source_id, b.code AS target_id, "
         f"e.* EXCLUDE (source_id, target_id) FROM {e} e "
         f"JOIN {ids} a ON e.source_id = a.id JOIN {ids} b ON e.target_id = b.id"
+    )
+
+
+def coded_pairs(e: str, ids: str) -> str:
+    """The distinct coded (source_id, target_id) pairs of a raw edge table, with ``copies``
+    (edges per pair)."""
+    return (
+        f"SELECT a.code AS source_id, b.code AS target_id, count(*) AS copies FROM {e} e "
+        f"JOIN {ids} a ON e.source_id = a.id JOIN {ids} b ON e.target_id = b.id "
+        "GROUP BY a.code, b.code"
+    )
+
+
+def pair_flags(pairs: str) -> str:
+    """The pairs with ``back``: whether the reverse pair is present too (a loop is its own
+    reverse)."""
+    return (
+        f"SELECT p.source_id, p.target_id, p.copies, r.source_id IS NOT NULL AS back "
+        f"FROM {pairs} p LEFT JOIN {pairs} r "
+        "ON r.source_id = p.target_id AND r.target_id = p.source_id"
+    )
+
+
+def missing_codes(ids: str, vertices: str, side: str) -> str:
+    """Codes of the IDs on ``side`` that are not among ``vertices`` (column ``vertex_id``)."""
+    return (
+        f"SELECT code FROM {ids} i ANTI JOIN {vertices} v ON i.id = v.vertex_id WHERE i.as_{side}"
+    )
+
+
+def dangling_pairs(pairs: str, no_source: str, no_target: str) -> str:
+    """Pairs with an endpoint among the missing codes, flagged by side."""
+    return (
+        f"SELECT * FROM (SELECT source_id, target_id, copies, "
+        f"source_id IN (SELECT code FROM {no_source}) AS no_source, "
+        f"target_id IN (SELECT code FROM {no_target}) AS no_target FROM {pairs}) "
+        "WHERE no_source OR no_target"
     )
 
 

@@ -1,14 +1,18 @@
 """A DuckDB connection set up from the spec's ``engine`` section, and Arrow in and out.
 
-``memory_limit`` makes DuckDB spill to ``temp_directory`` (the spill folder beside the
-output) instead of growing; ``threads`` caps its workers. The spill folder is created by
+``memory_limit`` (default :data:`DEFAULT_MEMORY_LIMIT`) makes DuckDB spill to
+``temp_directory`` (the spill folder beside the output) instead of growing; ``threads`` caps
+its workers (default: every core). Each query's wall and CPU seconds are logged at info
+level (shown by ``graphmill -v``). The spill folder is created by
 DuckDB when it first spills and removed on close if this session created it.
 """
 
 from __future__ import annotations
 
 import itertools
+import logging
 import shutil
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -29,13 +33,27 @@ except ImportError as exc:  # pragma: no cover - duckdb is a core dependency
     ) from exc
 
 _names = itertools.count()
+#: DuckDB's share when ``engine.memory_limit`` is not set (DuckDB's own default is 80% of the
+#: machine's memory, which lets a big graph crowd out everything else): enough for the sorts
+#: and joins of a 10M-edge graph without spilling, and beyond that it spills.
+DEFAULT_MEMORY_LIMIT = "1GiB"
+_log = logging.getLogger("graphmill.engine")
 
 
 @contextmanager
-def _out_of_memory_as_spec_error() -> Iterator[None]:
-    """DuckDB could not stay under ``engine.memory_limit`` even by spilling: one clear line."""
+def _out_of_memory_as_spec_error(query: str = "") -> Iterator[None]:
+    """DuckDB could not stay under ``engine.memory_limit`` even by spilling: one clear line.
+    Each query's wall and CPU seconds are logged (shown with ``-v``)."""
+    started, cpu = time.perf_counter(), time.process_time()
     try:
         yield
+        if query:
+            _log.info(
+                "local engine %.2f s (CPU %.2f s): %s",
+                time.perf_counter() - started,
+                time.process_time() - cpu,
+                " ".join(query.split())[:160],
+            )
     except duckdb.OutOfMemoryException as exc:
         raise SpecError(
             f"the local engine ran out of memory ({str(exc).splitlines()[0]})",
@@ -59,8 +77,8 @@ class Session:
         self.spill_folder = spill_folder
         self._created_spill = spill_folder is not None and not spill_folder.exists()
         try:
-            if memory_limit is not None:
-                self.connection.execute(f"SET memory_limit = '{memory_bytes(memory_limit)}B'")
+            limit = memory_bytes(memory_limit or DEFAULT_MEMORY_LIMIT)
+            self.connection.execute(f"SET memory_limit = '{limit}B'")
             if threads is not None:
                 self.connection.execute(f"SET threads = {int(threads)}")
             if spill_folder is not None:
@@ -117,28 +135,41 @@ class Session:
     def scratch(self, query: str, params: list[Any] | None = None) -> Iterator[str]:
         """Materialize ``query`` as a temporary table (spillable); dropped afterwards."""
         name = f"gm_tmp_{next(_names)}"
-        with _out_of_memory_as_spec_error():
+        with _out_of_memory_as_spec_error(query):
             self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}", params or [])
         try:
             yield name
         finally:
             self.connection.execute(f"DROP TABLE IF EXISTS {name}")
 
-    def load(self, path: Path) -> str:
-        """Copy a Parquet file into a temporary table (DuckDB's own storage, which spills),
-        so that several queries decode it once; it lives as long as the session."""
-        literal = "'" + str(path).replace("'", "''") + "'"
-        return self.load_query(f"SELECT * FROM read_parquet({literal})")
+    def source(self, table: pa.Table | Path) -> str:
+        """Name a Parquet file (a view that scans it) or an Arrow table (a zero-copy scan)
+        for the rest of the session."""
+        name = f"gm_src_{next(_names)}"
+        if isinstance(table, Path):
+            literal = "'" + str(table).replace("'", "''") + "'"
+            self.connection.execute(
+                f"CREATE TEMP VIEW {name} AS SELECT * FROM read_parquet({literal})"
+            )
+        else:
+            self.connection.register(name, table)
+        return name
 
     def load_query(self, query: str) -> str:
         """Materialize ``query`` as a temporary table that lives as long as the session."""
         name = f"gm_kept_{next(_names)}"
-        with _out_of_memory_as_spec_error():
+        with _out_of_memory_as_spec_error(query):
             self.connection.execute(f"CREATE TEMP TABLE {name} AS {query}")
         return name
 
+    def batches(self, query: str, rows: int = 1 << 16) -> Iterator[pa.RecordBatch]:
+        """``query``'s result streamed as record batches of about ``rows`` rows."""
+        with _out_of_memory_as_spec_error(query):
+            reader = self.connection.sql(query).to_arrow_reader(rows)
+            yield from reader
+
     def arrow(self, query: str) -> pa.Table:
-        with _out_of_memory_as_spec_error():
+        with _out_of_memory_as_spec_error(query):
             return self.connection.sql(query).to_arrow_table()
 
     def positions(self, query: str) -> np.ndarray:
@@ -150,7 +181,7 @@ class Session:
 
     def ints(self, query: str) -> tuple[int, ...]:
         """The single row of integers ``query`` returns (NULL as 0)."""
-        with _out_of_memory_as_spec_error():
+        with _out_of_memory_as_spec_error(query):
             rows = self.connection.sql(query).fetchall()
         row = rows[0] if rows else ()
         return tuple(int(v or 0) for v in row)
