@@ -132,6 +132,24 @@ MISSING_SIDE = (
 )
 
 
+def distinct_pairs(e: str) -> str:
+    """Distinct (s, t) endpoint pairs (the per-rule form the Spark engine runs)."""
+    return f"SELECT DISTINCT source_id AS s, target_id AS t FROM {e}"
+
+
+def reciprocated(pairs: str) -> str:
+    """Count of distinct non-loop pairs whose reverse pair is present."""
+    return (
+        f"SELECT count(*) FROM {pairs} p SEMI JOIN {pairs} r ON r.s = p.t AND r.t = p.s "
+        "WHERE p.s <> p.t"
+    )
+
+
+def one_way(e: str, pairs: str) -> str:
+    """Edge rows whose reverse pair is absent from ``pairs``."""
+    return f"SELECT {ENDS} FROM {e} ANTI JOIN {pairs} r ON r.s = target_id AND r.t = source_id"
+
+
 def isolated(v: str, id_sources: Sequence[str]) -> str:
     """Distinct vertex IDs that none of the ``id_sources`` (subqueries with column ``id``)
     holds."""

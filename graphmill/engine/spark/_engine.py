@@ -155,7 +155,7 @@ class SparkEngine(ReferenceEngine):
         t = self.tables
         m = t.arrow_view(pa.table({"s": source, "t": target, "row": _rows(len(source))}), "m")
         dropped = dict.fromkeys(DROP_REASONS, 0)
-        both, no_source, no_target = t.ints(q.dangling_counts(m))
+        _total, both, no_source, no_target = t.ints(q.dangling_counts(m))
         dropped.update(
             {"dangling-both": both, "dangling-source": no_source, "dangling-target": no_target}
         )
