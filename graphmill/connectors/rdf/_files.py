@@ -156,7 +156,7 @@ def reading(item: RdfInput) -> Iterator[None]:
     except MemoryError as exc:
         if "buffer maximal size" not in str(exc):
             raise
-        raise _oversized_term(item) from exc
+        raise oversized_term(item) from exc
     except (ArchiveError, EOFError) as exc:
         raise InputError(
             f"not a readable {item.compression or 'compressed'} file: {exc}",
@@ -176,7 +176,7 @@ def reading(item: RdfInput) -> Iterator[None]:
 TERM_LIMIT = 16 << 20
 
 
-def _oversized_term(item: RdfInput) -> InputError:
+def oversized_term(item: RdfInput) -> InputError:
     """The parser's buffer overflowed: name the first line that is too long, if one is."""
     line = None
     with opened(item) as fh:

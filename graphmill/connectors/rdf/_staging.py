@@ -19,6 +19,7 @@ keeps them in (a tiny store holding the block's distinct literals once), so this
 from __future__ import annotations
 
 import itertools
+import os
 from collections import deque
 from collections.abc import Iterable
 from concurrent.futures import Future, ThreadPoolExecutor
@@ -164,10 +165,23 @@ def stage_stream(
     *,
     chunk: int | None = None,
     report: ReadingReport | None = None,
+    workers: int | None = None,
 ) -> int:
-    """Stage ``item`` (any format) in this process; return the quads with a wanted predicate.
+    """Stage ``item`` (any format); return the quads with a wanted predicate.
 
-    Blocks hold ``chunk`` quads (default :data:`CHUNK_QUADS`); each is told to ``report``."""
+    N-Triples and N-Quads files of :data:`._lines.PROCESSES_FROM` bytes or more (or any, with
+    ``workers``) are staged by worker processes (:func:`._lines.stage_lines`); others in this
+    process, in blocks of ``chunk`` quads (default :data:`CHUNK_QUADS`), each told to
+    ``report``."""
+    from graphmill.connectors.rdf import _lines
+
+    if item.format in _lines.LINE_FORMATS:
+        if workers is None and item.size >= _lines.PROCESSES_FROM and (os.cpu_count() or 1) > 1:
+            workers = _lines.WORKERS
+        if workers:
+            return _lines.stage_lines(
+                item, plan, predicates, folder, prefix, workers=workers, report=report
+            )
     ox = oxigraph()
     chunk = chunk or CHUNK_QUADS
     wanted = pa.array(predicates, _TEXT)

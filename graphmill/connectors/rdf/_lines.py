@@ -1,0 +1,135 @@
+"""Line-based dumps (N-Triples, N-Quads) staged by worker processes, a block of lines each.
+
+A statement of these formats never spans lines, so the file (decompressed, if it is an
+archive) is cut into blocks of whole lines of about :data:`BLOCK_BYTES`, read by this process
+and handed to :data:`WORKERS` processes (pyoxigraph's parser holds Python's GIL for each
+quad, so threads cannot share the parse). Each worker:
+
+1. parses the block with pyoxigraph's strict parser and has its N-Quads writer write it
+   again, canonically (checking a block is already canonical costs more than writing it);
+2. reads and stages it as a block of the single-stream path (:func:`._staging.write_parts`).
+
+Blank node labels are kept as written in both paths, so cutting the file changes nothing.
+A syntax error comes back with its line number in the whole file. Memory: at most
+``WORKERS + 1`` blocks are in flight.
+"""
+
+from __future__ import annotations
+
+import collections
+import multiprocessing
+from collections import deque
+from collections.abc import Iterator
+from concurrent.futures import Future, ProcessPoolExecutor
+from pathlib import Path
+from typing import Any, BinaryIO
+
+import pyarrow as pa
+
+from graphmill.connectors.rdf._files import (
+    FORMAT_NAMES,
+    RdfInput,
+    oversized_term,
+    opened,
+    oxigraph,
+    syntax_details,
+    syntax_error,
+)
+from graphmill.connectors.rdf._plan import RdfPlan
+from graphmill.connectors.rdf._reading import ReadingReport
+from graphmill.connectors.rdf._terms import read_nquads
+
+LINE_FORMATS = frozenset({"n-triples", "n-quads"})
+BLOCK_BYTES = 16 << 20
+WORKERS = 2
+PROCESSES_FROM = 64 << 20  # bytes of a file (as stored) from which workers are started
+
+def stage_block(
+    block: bytes, first_line: int, fmt: str, predicates: list[str], plan: RdfPlan, folder: str,
+    name: str,
+) -> tuple[str, Any]:  # fmt: skip
+    """In a worker: check, canonicalize and stage one block of lines. Returns ``("quads",
+    (parsed, kept))``, ``("syntax", (reason, line, column))`` or ``("oversized", None)``."""
+    from graphmill.connectors.rdf._staging import write_parts
+
+    ox = oxigraph()
+    rdf = getattr(ox.RdfFormat, fmt)
+    n_quads = ox.RdfFormat.N_QUADS
+    try:
+        text = ox.serialize(ox.parse(block, format=rdf, lenient=False), format=n_quads)
+    except SyntaxError as exc:
+        reason, line, column = syntax_details(exc)
+        return "syntax", (reason, None if line is None else line + first_line - 1, column)
+    except MemoryError as exc:
+        if "buffer maximal size" not in str(exc):
+            raise
+        return "oversized", None
+    wanted = pa.array(predicates, pa.string())
+    table = read_nquads(text, predicates=wanted, graphs=fmt == "N_QUADS")
+    write_parts(table, plan, Path(folder), name)
+    return "quads", (text.count(b"\n"), table.num_rows)
+
+
+def line_blocks(handle: BinaryIO, size: int) -> Iterator[tuple[bytes, int]]:
+    """(block, number of its first line): whole lines of about ``size`` bytes (more when
+    one line is longer)."""
+    carry, line = b"", 1
+    while data := handle.read(size):
+        data = carry + data if carry else data
+        cut = data.rfind(b"\n") + 1
+        if not cut:
+            carry = data
+            continue
+        block, carry = data[:cut], data[cut:]
+        yield block, line
+        line += block.count(b"\n")
+    if carry:
+        yield carry, line
+
+
+def stage_lines(
+    item: RdfInput,
+    plan: RdfPlan,
+    predicates: list[str],
+    folder: Path,
+    prefix: str,
+    *,
+    workers: int | None = None,
+    block_bytes: int | None = None,
+    report: ReadingReport | None = None,
+) -> int:
+    """Stage ``item`` (N-Triples or N-Quads) with worker processes; return the quads with a
+    wanted predicate (as :func:`._staging.stage_stream`)."""
+    fmt = FORMAT_NAMES[item.format]
+    context = multiprocessing.get_context("spawn")  # forking a process with threads can hang
+    pool = ProcessPoolExecutor(max_workers=workers or WORKERS, mp_context=context)
+    pending: deque[Future[tuple[str, Any]]] = collections.deque()
+    kept = 0
+
+    def collect() -> None:
+        nonlocal kept
+        outcome, detail = pending.popleft().result()
+        if outcome == "syntax":
+            raise syntax_error(item, *detail)
+        if outcome == "oversized":
+            raise oversized_term(item)
+        kept += detail[1]
+        if report is not None:
+            report.update(detail[0])
+
+    try:
+        with open(item.path, "rb") as raw, opened(item, raw) as handle:
+            if report is not None:
+                report.position.append(raw.tell)
+            blocks = line_blocks(handle, block_bytes or BLOCK_BYTES)
+            for index, (block, first) in enumerate(blocks):
+                name = f"{prefix}-{index:07d}"
+                args = (block, first, fmt, predicates, plan, str(folder), name)
+                pending.append(pool.submit(stage_block, *args))
+                while len(pending) > (workers or WORKERS):
+                    collect()
+            while pending:
+                collect()
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+    return kept
