@@ -303,7 +303,8 @@ def main() -> None:
     seconds: dict[tuple[str, int], float] = {}
     print(
         f"{'input':24} {'mode':9} {'seconds':>8} {'(open)':>7} {'triples/s':>11} {'x bare':>7} "
-        f"{'CPU s':>7} {'x bare':>7} {'peak RSS':>10} {'+workers':>9} {'together':>9} {'load':>5}  digest"
+        f"{'CPU s':>7} {'x bare':>7} {'peak RSS':>10} {'+workers':>9} {'together':>9} "
+        f"{'load':>5}  digest"
     )
     for data, triples in runs:
         bare = measure("bare", data, args.workdir / "out", False)

@@ -21,13 +21,15 @@ import shutil
 from pathlib import Path
 from typing import Any
 
+import pyarrow as pa
+
 from graphmill._atomic import write_bytes_atomic
 from graphmill._progress import Progress, SilentProgress
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads
+from graphmill.connectors.rdf._lines import staged_quads
 from graphmill.connectors.rdf._plan import RDF_TYPE, RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport, quad_blocks
 from graphmill.connectors.rdf._staging import CHUNK_QUADS, wanted_predicates, write_parts
-from graphmill.connectors.rdf._terms import read_nquads
 from graphmill.errors import SourceUnavailableError, SpecError
 
 MARKER = "graphmill-store.json"
@@ -117,6 +119,7 @@ def stage_store(store: Any, plan: RdfPlan, folder: Path, *, chunk: int | None = 
     (made by :func:`._staging.empty_parts`); return how many were read."""
     ox = oxigraph()
     graph = ox.DefaultGraph() if plan.graphs == "default" else None
+    wanted = pa.array(wanted_predicates(plan), pa.string())
     read = 0
     for number, (predicate, obj) in enumerate(store_patterns(plan)):
         target = None if obj is None else ox.NamedNode(obj)
@@ -127,7 +130,7 @@ def stage_store(store: Any, plan: RdfPlan, folder: Path, *, chunk: int | None = 
             )
             if not block:
                 break
-            table = read_nquads(block, graphs=True)
+            table = staged_quads(block, wanted)
             write_parts(table, plan, folder, f"store-{number:04d}-{index:07d}")
             read += table.num_rows
     return read

@@ -2,7 +2,7 @@
 
 Each file is parsed once as a stream (:func:`stage_stream`): pyoxigraph's parser feeds its
 canonical N-Quads writer in blocks of :data:`CHUNK_QUADS` quads, and a worker thread reads
-each block into term columns (:func:`._terms.read_nquads`; Arrow releases the GIL, so parsing
+each block into term columns (:func:`._lines.staged_quads`; Arrow releases the GIL, so parsing
 and reading overlap), keeps the quads of the selected graphs the plan can use, and writes
 them as one Parquet part per block into a folder per role the quad plays:
 
@@ -32,7 +32,7 @@ import pyarrow.parquet as pq
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads, reading
 from graphmill.connectors.rdf._plan import RDF_TYPE, RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport
-from graphmill.connectors.rdf._terms import read_nquads, read_tsv_results
+from graphmill.connectors.rdf._terms import read_tsv_results
 from graphmill.connectors.rdf._xsd import XSD, XSD_STRING
 
 CHUNK_QUADS = 250_000
@@ -151,7 +151,9 @@ def write_parts(table: pa.Table, plan: RdfPlan, folder: Path, name: str) -> None
 def _stage_block(
     block: bytes, predicates: pa.Array, graphs: bool, plan: RdfPlan, folder: Path, name: str
 ) -> int:
-    table = read_nquads(block, predicates=predicates, graphs=graphs)
+    from graphmill.connectors.rdf._lines import staged_quads
+
+    table = staged_quads(block, predicates, graphs=graphs)
     write_parts(table, plan, folder, name)
     return table.num_rows
 
