@@ -222,14 +222,15 @@ def quads(item: RdfInput, *, position: list[Callable[[], int]] | None = None) ->
         yield ox.parse(handle, format=rdf_format(item), lenient=False)
 
 
-def file_details(inputs: list[RdfInput]) -> list[dict[str, Any]]:
-    """Publishable facts about the inputs: path as written, format, size, sha256."""
+def file_details(inputs: list[RdfInput], prints: Any = None) -> list[dict[str, Any]]:
+    """Publishable facts about the inputs: path as written, format, size, sha256 (taken from
+    ``prints``, a :class:`~graphmill.connectors._fingerprints.FileFingerprints`, if given)."""
     return [
         {
             "path": i.shown,
             "format": i.format,
             "bytes": i.path.stat().st_size,
-            "sha256": sha256_file(i.path),
+            "sha256": prints.of_file(i.path, i.shown)["sha256"] if prints else sha256_file(i.path),
         }
         for i in inputs
     ]

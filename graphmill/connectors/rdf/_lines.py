@@ -17,6 +17,8 @@ A syntax error comes back with its line number in the whole file. Memory: at mos
 from __future__ import annotations
 
 import collections
+import hashlib
+import io
 import multiprocessing
 from collections import deque
 from collections.abc import Iterator
@@ -28,6 +30,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.rdf._files import (
     FORMAT_NAMES,
     RdfInput,
@@ -127,6 +130,33 @@ def line_blocks(handle: BinaryIO, size: int) -> Iterator[tuple[bytes, int]]:
         yield carry, line
 
 
+class HashedFile(io.FileIO):
+    """A file opened for reading that hashes (sha256) every byte read from it."""
+
+    def __init__(self, path: Path) -> None:
+        super().__init__(path, "rb")
+        self.sha256 = hashlib.sha256()
+
+    def read(self, size: int | None = -1) -> bytes:
+        data = super().read(size)
+        self.sha256.update(data or b"")
+        return data or b""
+
+    def readinto(self, buffer: Any) -> int:
+        size = super().readinto(buffer) or 0
+        self.sha256.update(memoryview(buffer)[:size])
+        return size
+
+    def readall(self) -> bytes:
+        return self.read(-1)
+
+    def finish(self) -> str:
+        """Read what is left unread; the hex digest of the whole file."""
+        while self.read(1 << 20):
+            pass
+        return self.sha256.hexdigest()
+
+
 def stage_lines(
     item: RdfInput,
     plan: RdfPlan,
@@ -137,9 +167,11 @@ def stage_lines(
     workers: int | None = None,
     block_bytes: int | None = None,
     report: ReadingReport | None = None,
+    prints: FileFingerprints | None = None,
 ) -> int:
     """Stage ``item`` (N-Triples or N-Quads) with worker processes; return the quads with a
-    wanted predicate (as :func:`._staging.stage_stream`)."""
+    wanted predicate (as :func:`._staging.stage_stream`). The file's sha256, computed while
+    reading it, is told to ``prints``."""
     fmt = FORMAT_NAMES[item.format]
     context = multiprocessing.get_context("spawn")  # forking a process with threads can hang
     pool = ProcessPoolExecutor(max_workers=workers or WORKERS, mp_context=context)
@@ -157,8 +189,9 @@ def stage_lines(
         if report is not None:
             report.update(detail[0])
 
+    before = item.path.stat()
     try:
-        with open(item.path, "rb") as raw, opened(item, raw) as handle:
+        with HashedFile(item.path) as raw, opened(item, raw) as handle:
             if report is not None:
                 report.position.append(raw.tell)
             blocks = line_blocks(handle, block_bytes or BLOCK_BYTES)
@@ -170,6 +203,13 @@ def stage_lines(
                     collect()
             while pending:
                 collect()
+            digest = raw.finish()
+        after = item.path.stat()
+        if prints is not None and (after.st_size, after.st_mtime_ns) == (
+            before.st_size,
+            before.st_mtime_ns,
+        ):
+            prints.remember(item.path, before.st_size, before.st_mtime_ns, digest)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
     return kept

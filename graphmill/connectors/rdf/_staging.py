@@ -29,6 +29,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads, reading
 from graphmill.connectors.rdf._plan import RDF_TYPE, RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport
@@ -168,13 +169,14 @@ def stage_stream(
     chunk: int | None = None,
     report: ReadingReport | None = None,
     workers: int | None = None,
+    prints: FileFingerprints | None = None,
 ) -> int:
     """Stage ``item`` (any format); return the quads with a wanted predicate.
 
     N-Triples and N-Quads files of :data:`._lines.PROCESSES_FROM` bytes or more (or any, with
     ``workers``) are staged by worker processes (:func:`._lines.stage_lines`); others in this
     process, in blocks of ``chunk`` quads (default :data:`CHUNK_QUADS`), each told to
-    ``report``."""
+    ``report``; the worker path tells the file's sha256 to ``prints``."""
     from graphmill.connectors.rdf import _lines
 
     if item.format in _lines.LINE_FORMATS:
@@ -182,8 +184,9 @@ def stage_stream(
             workers = _lines.WORKERS
         if workers:
             return _lines.stage_lines(
-                item, plan, predicates, folder, prefix, workers=workers, report=report
-            )
+                item, plan, predicates, folder, prefix, workers=workers, report=report,
+                prints=prints,
+            )  # fmt: skip
     ox = oxigraph()
     chunk = chunk or CHUNK_QUADS
     wanted = pa.array(predicates, _TEXT)

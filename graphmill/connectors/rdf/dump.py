@@ -62,6 +62,7 @@ class RdfFileSource(GraphSource):
         self._facts: FactParts | None = None
         self._folder: Path | None = None
         self.quads_kept = 0
+        self._prints = FileFingerprints()  # sha256 of each dump, taken while staging it
 
     def plan(self) -> list[WorkUnit]:
         return plan_units(self.spec)
@@ -76,8 +77,9 @@ class RdfFileSource(GraphSource):
             for i, item in enumerate(inputs):
                 report = ReadingReport(self.progress, item)
                 self.quads_kept += stage_stream(
-                    item, self.rdf, predicates, folder, f"in{i:04d}", report=report
-                )
+                    item, self.rdf, predicates, folder, f"in{i:04d}", report=report,
+                    prints=self._prints,
+                )  # fmt: skip
             self._facts = FactParts(parts, self.rdf, folder)
         except BaseException:
             self.close()
@@ -98,8 +100,7 @@ class RdfFileSource(GraphSource):
 
     def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
         """Size, modification time and sha256 of every dump (each unit reads them all)."""
-        prints = self.__dict__.setdefault("_prints", FileFingerprints())
-        return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
+        return self._prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
 
     def property_keys(self, unit: WorkUnit) -> list[str] | None:
         """Predicates of the vertex type's subjects: the dumps are read once more, keeping
@@ -112,7 +113,8 @@ class RdfFileSource(GraphSource):
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)
-        details: dict[str, Any] = {"files": file_details(inputs), "quads_used": self.quads_kept}
+        files = file_details(inputs, self._prints)
+        details: dict[str, Any] = {"files": files, "quads_used": self.quads_kept}
         return Provenance(
             kind=self.kind, location=", ".join(i.shown for i in inputs), details=details
         )

@@ -9,6 +9,7 @@ Reference values: pyoxigraph's N-Quads reader as the general term reader reads i
 from __future__ import annotations
 
 import gzip
+import hashlib
 import io
 import json
 from pathlib import Path
@@ -20,6 +21,7 @@ from rdfsource_helpers import pull_snapshot, rdf_spec, table_hashes
 from test_differential import CONFIGS, random_dump
 from test_differential import _spec as differential_spec
 
+from graphmill.connectors import _fingerprints, open_source
 from graphmill.connectors.rdf import _lines
 from graphmill.connectors.rdf._lines import line_blocks, staged_quads
 from graphmill.connectors.rdf._terms import read_nquads
@@ -139,3 +141,15 @@ def test_a_compressed_dump_through_workers_reads_as_the_plain_one(tmp_path, work
     document["output"] = {"bundle": str(tmp_path / "packed" / "bundle")}
     packed_spec = spec_from_dict(document, base_dir=tmp_path)
     assert table_hashes(pull_snapshot(packed_spec)) == table_hashes(pull_snapshot(plain))
+
+
+def test_the_dump_is_hashed_while_it_is_read(tmp_path, workers, monkeypatch):
+    packed = gzip.compress(random_dump(10).encode(), mtime=0)
+    (tmp_path / "dump.nq.gz").write_bytes(packed)
+    spec = rdf_spec(tmp_path, "rdf-file", ["dump.nq.gz"], {"node": {"match": f"<{NODE}>"}})
+    source = open_source(spec)
+    with source:
+        monkeypatch.setattr(_fingerprints, "sha256_file", lambda path: pytest.fail("read again"))
+        printed = source.fingerprint(source.plan()[0])["files"][0]["sha256"]
+        published = source.provenance().details["files"][0]["sha256"]
+    assert printed == published == hashlib.sha256(packed).hexdigest()  # of the file as stored
