@@ -12,7 +12,9 @@ Every measurement runs in its own process, so its peak RSS (``VmHWM``) is its ow
 * ``rdf-file`` / ``rdf-store`` (``--kinds``): the source opened and every work unit read and
   staged as the pull does (``graphmill.snapshot.Stager``), i.e. everything the source does
   before the snapshot's merge; ``--merge`` adds the merge (the whole ``pull``), whose memory
-  belongs to the snapshot engine, not to the source.
+  belongs to the snapshot engine, not to the source;
+* ``rdf-file-stream``: ``rdf-file`` with its single-stream parse (no worker processes), to
+  compare the two in one run.
 
 ``rdf-store`` runs with its on-disk store (``source.store_folder``). CPU seconds include
 worker processes (``rdf-file`` parses dumps of 64 MiB or more in two); "+workers" is their
@@ -141,6 +143,11 @@ def source_run(kind: str, data: Path, out: Path, merge: bool) -> dict[str, float
     from graphmill.snapshot import Stager, pull
     from graphmill.spec import spec_from_dict
 
+    if kind == "rdf-file-stream":  # rdf-file with its single-stream parse whatever the size
+        from graphmill.connectors.rdf import _lines
+
+        _lines.PROCESSES_FROM = 1 << 62
+        kind = "rdf-file"
     spec = spec_from_dict(bench_spec(kind, data, out))
     source = open_source(spec)
     started = time.perf_counter()
