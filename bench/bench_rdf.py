@@ -12,10 +12,17 @@ Every measurement runs in its own process, so its peak RSS (``VmHWM``) is its ow
 * ``rdf-file`` / ``rdf-store`` (``--kinds``): the source opened and every work unit read and
   staged as the pull does (``graphmill.snapshot.Stager``), i.e. everything the source does
   before the snapshot's merge; ``--merge`` adds the merge (the whole ``pull``), whose memory
-  belongs to the snapshot engine, not to the source.
+  belongs to the snapshot engine, not to the source;
+* ``rdf-file-stream``: ``rdf-file`` with its single-stream parse (no worker processes), to
+  compare the two in one run.
 
-``rdf-store`` runs with its on-disk store (``source.store_folder``). Figures are printed,
-never asserted. Usage (from the repo root)::
+``rdf-store`` runs with its on-disk store (``source.store_folder``). CPU seconds include
+worker processes (``rdf-file`` parses dumps of 64 MiB or more in two); "+workers" is their
+peak RSS (the largest times their number); "together" is the largest sum of the process's
+and its workers' RSS, sampled every 0.1 s (they peak at different times). "digest" is an
+order-free digest of the staged rows of every unit (:func:`staged_digest`): ``rdf-file`` and
+``rdf-store`` on the same dump must print the same. "load" is the machine's load average
+during the run. Figures are printed, never asserted. Usage (from the repo root)::
 
     .venv/bin/python bench/bench_rdf.py                       # 5M and 50M triples
     .venv/bin/python bench/bench_rdf.py --sizes 100000 1000000 --kinds rdf-file
@@ -24,11 +31,15 @@ never asserted. Usage (from the repo root)::
 from __future__ import annotations
 
 import argparse
+import contextlib
+import hashlib
 import json
+import os
 import resource
 import shutil
 import subprocess
 import sys
+import threading
 import time
 from pathlib import Path
 from typing import Any
@@ -132,6 +143,11 @@ def source_run(kind: str, data: Path, out: Path, merge: bool) -> dict[str, float
     from graphmill.snapshot import Stager, pull
     from graphmill.spec import spec_from_dict
 
+    if kind == "rdf-file-stream":  # rdf-file with its single-stream parse whatever the size
+        from graphmill.connectors.rdf import _lines
+
+        _lines.PROCESSES_FROM = 1 << 62
+        kind = "rdf-file"
     spec = spec_from_dict(bench_spec(kind, data, out))
     source = open_source(spec)
     started = time.perf_counter()
@@ -147,13 +163,34 @@ def source_run(kind: str, data: Path, out: Path, merge: bool) -> dict[str, float
             units = source.plan()
             for unit in units:
                 stager.stage(unit, task)
+        seconds = time.perf_counter() - started
         rows = sum(pq.read_metadata(p).num_rows for p in stager.parts(units))
         return {
-            "seconds": time.perf_counter() - started,
+            "seconds": seconds,
             "open_seconds": opened - started,
             "rows": rows,
+            "digest": lambda: staged_digest([stager.parts([u]) for u in units]),
         }
     return {"seconds": time.perf_counter() - started, "rows": rows}
+
+
+def staged_digest(parts: list[list[Path]]) -> str:
+    """An order-free digest of the staged rows of every unit (a sum of row hashes per unit,
+    with DuckDB): equal for two sources that staged the same rows in any order and pages."""
+    import duckdb
+
+    con = duckdb.connect(config={"memory_limit": "512MiB", "threads": 2})
+    sums = []
+    for files in parts:
+        if not files:
+            sums.append("-")
+            continue
+        n, total = con.execute(
+            "SELECT count(*), sum(hash(t)::HUGEINT) FROM read_parquet(?) t",
+            [[str(f) for f in files]],
+        ).fetchone()
+        sums.append(f"{n}:{total}")
+    return hashlib.sha256("|".join(sums).encode()).hexdigest()[:16]
 
 
 def peak_rss_mib() -> float:
@@ -164,11 +201,48 @@ def peak_rss_mib() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
+def tree_rss_mib() -> float:
+    """RSS of this process and its child processes now (from ``/proc``)."""
+    total = 0
+    pids = ["self"]
+    for task in Path("/proc/self/task").iterdir():
+        with contextlib.suppress(OSError):
+            pids += (task / "children").read_text().split()
+    for pid in pids:
+        with contextlib.suppress(OSError, ValueError, IndexError):
+            status = Path(f"/proc/{pid}/status").read_text()
+            total += int(status.split("VmRSS:")[1].split()[0])
+    return total / 1024
+
+
+class TreePeak(threading.Thread):
+    """Samples :func:`tree_rss_mib` every ``every`` seconds; ``peak`` is the largest seen."""
+
+    def __init__(self, every: float = 0.1) -> None:
+        super().__init__(daemon=True)
+        self.every, self.peak, self.done = every, 0.0, threading.Event()
+
+    def run(self) -> None:
+        while not self.done.wait(self.every):
+            self.peak = max(self.peak, tree_rss_mib())
+
+
 def child(mode: str, data: Path, out: Path, merge: bool) -> None:
+    sampler = TreePeak()
+    sampler.start()
+    load = os.getloadavg()[0]
     result = bare_parse(data) if mode == "bare" else source_run(mode, data, out, merge)
+    result["load"] = (load + os.getloadavg()[0]) / 2
     result["peak_rss_mib"] = peak_rss_mib()
     usage = resource.getrusage(resource.RUSAGE_SELF)
-    result["cpu_seconds"] = usage.ru_utime + usage.ru_stime
+    workers = resource.getrusage(resource.RUSAGE_CHILDREN)  # rdf-file's parse workers
+    result["cpu_seconds"] = sum(u.ru_utime + u.ru_stime for u in (usage, workers))
+    result["worker_peak_rss_mib"] = workers.ru_maxrss / 1024
+    sampler.done.set()
+    result["tree_peak_rss_mib"] = max(sampler.peak, result["peak_rss_mib"])
+    digest = result.pop("digest", None)
+    if digest is not None:
+        result["digest"] = digest()
     print(json.dumps(result))
 
 
@@ -182,6 +256,16 @@ def measure(mode: str, data: Path, out: Path, merge: bool) -> dict[str, float]:
     if done.returncode:
         raise SystemExit(f"{mode} on {data.name} failed:\n{done.stderr[-3000:]}")
     return json.loads(done.stdout.splitlines()[-1])
+
+
+def worker_mib(got: dict[str, Any]) -> str:
+    """The largest worker's peak RSS times the number of workers (rdf-file's parse of a
+    line-based dump), added to the process's own for the total; "" without workers."""
+    if got.get("worker_peak_rss_mib", 0) < 1:
+        return ""
+    from graphmill.connectors.rdf._lines import WORKERS
+
+    return f"{WORKERS * got['worker_peak_rss_mib']:,.0f} MiB"
 
 
 def dump(workdir: Path, triples: int) -> Path:
@@ -226,7 +310,8 @@ def main() -> None:
     seconds: dict[tuple[str, int], float] = {}
     print(
         f"{'input':24} {'mode':9} {'seconds':>8} {'(open)':>7} {'triples/s':>11} {'x bare':>7} "
-        f"{'CPU s':>7} {'x bare':>7} {'peak RSS':>10}"
+        f"{'CPU s':>7} {'x bare':>7} {'peak RSS':>10} {'+workers':>9} {'together':>9} "
+        f"{'load':>5}  digest"
     )
     for data, triples in runs:
         bare = measure("bare", data, args.workdir / "out", False)
@@ -240,7 +325,9 @@ def main() -> None:
                 f"{data.name:24} {mode:9} {got['seconds']:8.1f} {opened} "
                 f"{triples / got['seconds']:11,.0f} {bare['seconds'] / got['seconds']:7.2f} "
                 f"{got['cpu_seconds']:7.1f} {bare['cpu_seconds'] / got['cpu_seconds']:7.2f} "
-                f"{got['peak_rss_mib']:7,.0f} MiB",
+                f"{got['peak_rss_mib']:7,.0f} MiB {worker_mib(got):>9} "
+                f"{got['tree_peak_rss_mib']:5,.0f} MiB {got['load']:5.1f}  "
+                f"{got.get('digest', '')}",
                 flush=True,
             )
     if len(sizes) > 1:

@@ -52,6 +52,11 @@ class FileFingerprints:
             "sha256": self._seen[key],
         }
 
+    def remember(self, path: Path, size: int, mtime_ns: int, sha256: str) -> None:
+        """Take the sha256 of ``path`` as it was at ``size`` and ``mtime_ns`` from a reader
+        that hashed it while reading it (so it is not read again)."""
+        self._seen[(str(path), size, mtime_ns)] = sha256
+
     def of_files(self, files: Iterable[tuple[Path, str]]) -> Fingerprint:
         """The fingerprint of a unit that reads ``files`` (``(path, shown)`` pairs)."""
         unique = dict.fromkeys((Path(p), s) for p, s in files)

@@ -156,7 +156,7 @@ def reading(item: RdfInput) -> Iterator[None]:
     except MemoryError as exc:
         if "buffer maximal size" not in str(exc):
             raise
-        raise _oversized_term(item) from exc
+        raise oversized_term(item) from exc
     except (ArchiveError, EOFError) as exc:
         raise InputError(
             f"not a readable {item.compression or 'compressed'} file: {exc}",
@@ -176,7 +176,7 @@ def reading(item: RdfInput) -> Iterator[None]:
 TERM_LIMIT = 16 << 20
 
 
-def _oversized_term(item: RdfInput) -> InputError:
+def oversized_term(item: RdfInput) -> InputError:
     """The parser's buffer overflowed: name the first line that is too long, if one is."""
     line = None
     with opened(item) as fh:
@@ -222,14 +222,15 @@ def quads(item: RdfInput, *, position: list[Callable[[], int]] | None = None) ->
         yield ox.parse(handle, format=rdf_format(item), lenient=False)
 
 
-def file_details(inputs: list[RdfInput]) -> list[dict[str, Any]]:
-    """Publishable facts about the inputs: path as written, format, size, sha256."""
+def file_details(inputs: list[RdfInput], prints: Any = None) -> list[dict[str, Any]]:
+    """Publishable facts about the inputs: path as written, format, size, sha256 (taken from
+    ``prints``, a :class:`~graphmill.connectors._fingerprints.FileFingerprints`, if given)."""
     return [
         {
             "path": i.shown,
             "format": i.format,
             "bytes": i.path.stat().st_size,
-            "sha256": sha256_file(i.path),
+            "sha256": prints.of_file(i.path, i.shown)["sha256"] if prints else sha256_file(i.path),
         }
         for i in inputs
     ]

@@ -2,7 +2,7 @@
 
 Each file is parsed once as a stream (:func:`stage_stream`): pyoxigraph's parser feeds its
 canonical N-Quads writer in blocks of :data:`CHUNK_QUADS` quads, and a worker thread reads
-each block into term columns (:func:`._terms.read_nquads`; Arrow releases the GIL, so parsing
+each block into term columns (:func:`._lines.staged_quads`; Arrow releases the GIL, so parsing
 and reading overlap), keeps the quads of the selected graphs the plan can use, and writes
 them as one Parquet part per block into a folder per role the quad plays:
 
@@ -19,6 +19,7 @@ keeps them in (a tiny store holding the block's distinct literals once), so this
 from __future__ import annotations
 
 import itertools
+import os
 from collections import deque
 from collections.abc import Iterable
 from concurrent.futures import Future, ThreadPoolExecutor
@@ -28,10 +29,11 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
+from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.rdf._files import RdfInput, oxigraph, quads, reading
 from graphmill.connectors.rdf._plan import RDF_TYPE, RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport
-from graphmill.connectors.rdf._terms import read_nquads, read_tsv_results
+from graphmill.connectors.rdf._terms import read_tsv_results
 from graphmill.connectors.rdf._xsd import XSD, XSD_STRING
 
 CHUNK_QUADS = 250_000
@@ -150,7 +152,9 @@ def write_parts(table: pa.Table, plan: RdfPlan, folder: Path, name: str) -> None
 def _stage_block(
     block: bytes, predicates: pa.Array, graphs: bool, plan: RdfPlan, folder: Path, name: str
 ) -> int:
-    table = read_nquads(block, predicates=predicates, graphs=graphs)
+    from graphmill.connectors.rdf._lines import staged_quads
+
+    table = staged_quads(block, predicates, graphs=graphs)
     write_parts(table, plan, folder, name)
     return table.num_rows
 
@@ -164,10 +168,25 @@ def stage_stream(
     *,
     chunk: int | None = None,
     report: ReadingReport | None = None,
+    workers: int | None = None,
+    prints: FileFingerprints | None = None,
 ) -> int:
-    """Stage ``item`` (any format) in this process; return the quads with a wanted predicate.
+    """Stage ``item`` (any format); return the quads with a wanted predicate.
 
-    Blocks hold ``chunk`` quads (default :data:`CHUNK_QUADS`); each is told to ``report``."""
+    N-Triples and N-Quads files of :data:`._lines.PROCESSES_FROM` bytes or more (or any, with
+    ``workers``) are staged by worker processes (:func:`._lines.stage_lines`); others in this
+    process, in blocks of ``chunk`` quads (default :data:`CHUNK_QUADS`), each told to
+    ``report``; the worker path tells the file's sha256 to ``prints``."""
+    from graphmill.connectors.rdf import _lines
+
+    if item.format in _lines.LINE_FORMATS:
+        if workers is None and item.size >= _lines.PROCESSES_FROM and (os.cpu_count() or 1) > 1:
+            workers = _lines.WORKERS
+        if workers:
+            return _lines.stage_lines(
+                item, plan, predicates, folder, prefix, workers=workers, report=report,
+                prints=prints,
+            )  # fmt: skip
     ox = oxigraph()
     chunk = chunk or CHUNK_QUADS
     wanted = pa.array(predicates, _TEXT)

@@ -35,6 +35,20 @@ def work_folder(spec: PipelineSpec, purpose: str) -> Path:
     return Path(tempfile.mkdtemp(prefix=f".graphmill-{purpose}-", dir=where))
 
 
+def fact_pages(facts: FactParts, unit: WorkUnit, page_rows: int) -> Iterator[Page]:
+    """The pages of ``unit`` answered from staged parts (under ``reject``, a member with
+    another declared class raises the InputError naming it before any page)."""
+    rdf = facts.plan
+    rejects = rdf.several_types == "reject" and bool(rdf.other_classes(unit.name))
+    if unit.table == "vertices" and unit.facet is None and rejects:
+        clashes = facts.clashes(unit.name)
+        if clashes.num_rows:
+            list(unit_pages(rdf, unit, clashes))
+    present, batches = facts.unit_answer(unit)
+    for terms in batches:
+        yield from unit_pages(rdf, unit, terms, page_rows=page_rows, present=present)
+
+
 class RdfFileSource(GraphSource):
     """Stages ``source.paths`` on :meth:`open` and answers units from the parts."""
 
@@ -48,6 +62,7 @@ class RdfFileSource(GraphSource):
         self._facts: FactParts | None = None
         self._folder: Path | None = None
         self.quads_kept = 0
+        self._prints = FileFingerprints()  # sha256 of each dump, taken while staging it
 
     def plan(self) -> list[WorkUnit]:
         return plan_units(self.spec)
@@ -62,8 +77,9 @@ class RdfFileSource(GraphSource):
             for i, item in enumerate(inputs):
                 report = ReadingReport(self.progress, item)
                 self.quads_kept += stage_stream(
-                    item, self.rdf, predicates, folder, f"in{i:04d}", report=report
-                )
+                    item, self.rdf, predicates, folder, f"in{i:04d}", report=report,
+                    prints=self._prints,
+                )  # fmt: skip
             self._facts = FactParts(parts, self.rdf, folder)
         except BaseException:
             self.close()
@@ -80,21 +96,11 @@ class RdfFileSource(GraphSource):
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if self._facts is None:
             raise GraphmillError("the source is not open", hint="use it in a 'with' block")
-        if unit.table == "vertices" and unit.facet is None and self._rejects(unit.name):
-            clashes = self._facts.clashes(unit.name)
-            if clashes.num_rows:  # raises the InputError naming the subject
-                list(unit_pages(self.rdf, unit, clashes))
-        present, batches = self._facts.unit_answer(unit)
-        for terms in batches:
-            yield from unit_pages(self.rdf, unit, terms, page_rows=self.page_rows, present=present)
-
-    def _rejects(self, vertex_type: str) -> bool:
-        return self.rdf.several_types == "reject" and bool(self.rdf.other_classes(vertex_type))
+        yield from fact_pages(self._facts, unit, self.page_rows)
 
     def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
         """Size, modification time and sha256 of every dump (each unit reads them all)."""
-        prints = self.__dict__.setdefault("_prints", FileFingerprints())
-        return prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
+        return self._prints.of_files((i.path, i.shown) for i in spec_inputs(self.spec))
 
     def property_keys(self, unit: WorkUnit) -> list[str] | None:
         """Predicates of the vertex type's subjects: the dumps are read once more, keeping
@@ -107,7 +113,8 @@ class RdfFileSource(GraphSource):
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)
-        details: dict[str, Any] = {"files": file_details(inputs), "quads_used": self.quads_kept}
+        files = file_details(inputs, self._prints)
+        details: dict[str, Any] = {"files": files, "quads_used": self.quads_kept}
         return Provenance(
             kind=self.kind, location=", ".join(i.shown for i in inputs), details=details
         )

@@ -6,9 +6,11 @@ serialized by the store as SPARQL TSV and read back with :mod:`._terms`, in bulk
 Small dumps are loaded into an in-memory store. From :data:`DISK_FROM` bytes of input, or
 whenever ``source.store_folder`` is set, the store lives on disk (:mod:`._disk_store`):
 ``store_folder`` is kept and reused by later runs while the inputs are unchanged, otherwise a
-temporary folder beside the snapshot is used and removed on :meth:`close`. On disk, each
-answer is written to a TSV file and read back in blocks, and property facets are sorted by
-subject with DuckDB (:class:`._facts.FacetSorter`), so memory does not grow with the dump.
+temporary folder beside the snapshot is used and removed on :meth:`close`. On disk the SELECTs
+are not run (Oxigraph evaluates their joins in memory that grows with the store): the quads
+of the wanted predicates are read by index scans and staged, and the units answered with
+``rdf-file``'s DuckDB joins (:func:`._disk_store.stage_store`, :class:`._facts.FactParts`),
+so memory does not grow with the dump.
 """
 
 from __future__ import annotations
@@ -18,21 +20,18 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import Any, ClassVar
 
-import pyarrow as pa
-import pyarrow.compute as pc
-import pyarrow.parquet as pq
-
 from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors.base import GraphSource, Page, Provenance, SourceCapabilities, WorkUnit
-from graphmill.connectors.rdf._disk_store import open_disk_store
-from graphmill.connectors.rdf._facts import FacetSorter
+from graphmill.connectors.rdf._disk_store import open_disk_store, stage_store
+from graphmill.connectors.rdf._facts import FactParts
 from graphmill.connectors.rdf._files import file_details, oxigraph, quads, spec_inputs
 from graphmill.connectors.rdf._mapping import DEFAULT_PAGE_ROWS, unit_pages
 from graphmill.connectors.rdf._plan import plan_units, resolve
-from graphmill.connectors.rdf._queries import CLASH, keys_query, unit_query
+from graphmill.connectors.rdf._queries import keys_query, unit_query
 from graphmill.connectors.rdf._reading import ReadingReport, quad_blocks
-from graphmill.connectors.rdf._terms import read_tsv_file, read_tsv_results
-from graphmill.connectors.rdf.dump import work_folder
+from graphmill.connectors.rdf._staging import empty_parts
+from graphmill.connectors.rdf._terms import read_tsv_results
+from graphmill.connectors.rdf.dump import fact_pages, work_folder
 from graphmill.errors import GraphmillError, SourceServerError
 from graphmill.spec import PipelineSpec
 
@@ -50,8 +49,8 @@ class EmbeddedStoreSource(GraphSource):
         self.page_rows = page_rows
         self.rdf = resolve(spec)
         self._store: Any = None
-        self._folder: Path | None = None  # scratch: answers, sorting, a temporary store
-        self._sorter: FacetSorter | None = None
+        self._folder: Path | None = None  # scratch: staged parts, DuckDB, a temporary store
+        self._facts: FactParts | None = None
         self.quads_loaded = 0
         self.on_disk = False
 
@@ -80,27 +79,29 @@ class EmbeddedStoreSource(GraphSource):
                 location, inputs, shown=named or "", progress=self.progress
             )
             self.quads_loaded = len(self._store)
-            self._sorter = FacetSorter(self._folder, self.rdf.languages)
+            parts = empty_parts(self._folder / "parts")
+            stage_store(self._store, self.rdf, self._folder / "parts")
+            self._facts = FactParts(parts, self.rdf, self._folder)
         except BaseException:
             self.close()
             raise
 
     def close(self) -> None:
-        if self._sorter is not None:
-            self._sorter.close()
-            self._sorter = None
+        if self._facts is not None:
+            self._facts.close()
+            self._facts = None
         self._store = None
         if self._folder is not None:
             shutil.rmtree(self._folder, ignore_errors=True)
             self._folder = None
 
-    def _query(self, unit: WorkUnit, output: str | None = None) -> Any:
+    def _query(self, unit: WorkUnit) -> Any:
         if self._store is None:
             raise GraphmillError("the source is not open", hint="use it in a 'with' block")
         ox = oxigraph()
         text = unit_query(self.spec, unit)
         try:
-            return self._store.query(text).serialize(output, format=ox.QueryResultsFormat.TSV)
+            return self._store.query(text).serialize(format=ox.QueryResultsFormat.TSV)
         except (SyntaxError, OSError) as exc:
             raise SourceServerError(
                 f"the embedded store refused a query: {exc}", source=self.kind
@@ -123,35 +124,9 @@ class EmbeddedStoreSource(GraphSource):
         if not self.on_disk:
             yield from unit_pages(self.rdf, unit, self.query_terms(unit), page_rows=self.page_rows)
             return
-        present, batches = self._answer_batches(unit)
-        clashes = []  # under reject: raised once the whole answer is seen (smallest subject)
-        for terms in batches:
-            if CLASH in terms.column_names:
-                found = pc.is_valid(terms.column(CLASH))
-                clashes.append(terms.filter(found))
-                terms = terms.filter(pc.invert(found))
-            yield from unit_pages(self.rdf, unit, terms, page_rows=self.page_rows, present=present)
-        if any(t.num_rows for t in clashes):
-            list(unit_pages(self.rdf, unit, pa.concat_tables(clashes)))
-
-    def _answer_batches(self, unit: WorkUnit) -> tuple[set[str] | None, Iterator[Any]]:
-        """The unit's answer streamed through a TSV file; facets sorted by subject."""
-        assert self._folder is not None and self._sorter is not None
-        answer = self._folder / "answer.tsv"
-        self._query(unit, str(answer))
-        batches = read_tsv_file(str(answer), where=f"{self.kind} {unit.unit_id}")
-        facet = unit.facet is not None and unit.facet != self.rdf.graph_property
-        if not facet:
-            return None, batches
-        parts = self._folder / "facet"
-        shutil.rmtree(parts, ignore_errors=True)
-        parts.mkdir()
-        count = 0
-        for count, terms in enumerate(batches, start=1):
-            pq.write_table(terms, parts / f"{count:07d}.parquet", compression="lz4")
-        if not count:
-            return None, iter(())
-        return self._sorter.sorted_facet(str(parts / "*.parquet"))
+        if self._facts is None:
+            raise GraphmillError("the source is not open", hint="use it in a 'with' block")
+        yield from fact_pages(self._facts, unit, self.page_rows)
 
     def fingerprint(self, unit: WorkUnit) -> dict[str, Any]:
         """Size, modification time and sha256 of every dump (each unit reads them all)."""
@@ -160,9 +135,12 @@ class EmbeddedStoreSource(GraphSource):
 
     def provenance(self) -> Provenance:
         inputs = spec_inputs(self.spec)
+        details: dict[str, Any] = {"files": file_details(inputs), "quads": self.quads_loaded}
+        if self.on_disk:
+            details["answered_by"] = "index scans per predicate, then DuckDB joins"
         return Provenance(
             kind=self.kind,
             location=", ".join(i.shown for i in inputs),
-            queries=[unit_query(self.spec, u) for u in self.plan()],
-            details={"files": file_details(inputs), "quads": self.quads_loaded},
+            queries=[] if self.on_disk else [unit_query(self.spec, u) for u in self.plan()],
+            details=details,
         )

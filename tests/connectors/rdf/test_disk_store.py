@@ -1,7 +1,8 @@
 """rdf-store with its store on disk: byte-identical to rdf-file, reused between runs.
 
-The on-disk mode streams each answer through a TSV file and sorts property facets with
-DuckDB; it is forced here with ``source.store_folder`` or by lowering ``DISK_FROM``.
+The on-disk mode reads the wanted quads by index scans, in blocks, and answers units with
+DuckDB as rdf-file does; it is forced here with ``source.store_folder`` or by lowering
+``DISK_FROM``.
 """
 
 from __future__ import annotations
@@ -15,7 +16,7 @@ from rdfsource_helpers import pull_snapshot, table_hashes
 from test_differential import CONFIGS, random_dump
 from test_differential import _spec as differential_spec
 
-from graphmill.connectors.rdf import _facts, _terms, embedded
+from graphmill.connectors.rdf import _disk_store, _facts, embedded
 from graphmill.errors import InputError, SpecError
 from graphmill.spec import spec_from_dict
 
@@ -34,7 +35,7 @@ def _spec(root: Path, kind: str, out: str, store: str | None = None, **rdf):
 def test_disk_store_matches_rdf_file_byte_for_byte(tmp_path, monkeypatch, config):
     (tmp_path / "dump.nq").write_text(random_dump(5), encoding="utf-8")
     monkeypatch.setattr(_facts, "BATCH_ROWS", 4)  # subjects split across DuckDB batches
-    monkeypatch.setattr(_terms, "TSV_BLOCK_BYTES", 300)  # answers read in many blocks
+    monkeypatch.setattr(_disk_store, "CHUNK_QUADS", 5)  # scans read in many blocks
     file_snap = pull_snapshot(_spec(tmp_path, "rdf-file", "file", **config))
     disk_snap = pull_snapshot(_spec(tmp_path, "rdf-store", "disk", "store", **config))
     monkeypatch.setattr(embedded, "DISK_FROM", 0)  # a temporary store beside the output
@@ -87,7 +88,7 @@ def test_rdf_file_refuses_a_store_folder(tmp_path):
 
 
 def test_reject_on_disk_fails_as_in_memory(tmp_path, monkeypatch):
-    monkeypatch.setattr(_terms, "TSV_BLOCK_BYTES", 300)
+    monkeypatch.setattr(_disk_store, "CHUNK_QUADS", 5)
     (tmp_path / "dump.nq").write_text(random_dump(4), encoding="utf-8")
     messages = []
     for store in (None, "store"):
