@@ -95,7 +95,14 @@ def _joined(pages: list[Page]) -> Page:
                 (p.raw or {}).get(name, pa.nulls(p.batch.num_rows, pa.string())) for p in pages
             ]
             raw[name] = pa.concat_arrays([part.cast(pa.string()) for part in parts])
-    return Page(batch=pa.RecordBatch.from_arrays(columns, names=names), value_kinds=kinds, raw=raw)
+    identity: dict[str, pa.Array] | None = None
+    if any(p.identity for p in pages):
+        identity = {
+            name: pa.concat_arrays([(p.identity or {})[name].cast(pa.string()) for p in pages])
+            for name in (pages[0].identity or {})
+        }
+    batch = pa.RecordBatch.from_arrays(columns, names=names)
+    return Page(batch=batch, value_kinds=kinds, raw=raw, identity=identity)
 
 
 __all__ = ["MAP_ROWS", "PageBuilder", "boundary", "slices"]
