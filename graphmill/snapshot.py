@@ -416,7 +416,7 @@ def distinct_facts(facts: pa.Table, identity: str) -> tuple[pa.Table, dict[str, 
     Equal identities have equal values, so repeats are adjacent in that order: a value
     read twice (two terms equal as values, on separate pages) is kept once, as a source
     that read the vertex's rows together keeps it, whatever order the rows came in."""
-    ids, keys = facts.column(VERTEX_ID), facts.column(identity)
+    ids, keys = (facts.column(n).combine_chunks() for n in (VERTEX_ID, identity))
     if facts.num_rows > 1:
         same = pc.and_(
             pc.equal(ids.slice(1), ids.slice(0, facts.num_rows - 1)),
@@ -425,8 +425,7 @@ def distinct_facts(facts: pa.Table, identity: str) -> tuple[pa.Table, dict[str, 
         keep = pa.concat_arrays([pa.array([True]), pc.invert(pc.fill_null(same, False))])
         facts = facts.filter(keep)
     found = pc.extract_regex(facts.column(identity), r"^(?P<kind>[^\x1f]*)\x1f")
-    kind = pc.struct_field(found, "kind").combine_chunks() if facts.num_rows else pa.array([])
-    counts = pc.value_counts(kind.drop_null())
+    counts = pc.value_counts(pc.struct_field(found, "kind").combine_chunks().drop_null())
     profile = {
         k: n
         for k, n in zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist())
