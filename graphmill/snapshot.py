@@ -428,7 +428,9 @@ def distinct_facts(facts: pa.Table, identity: str) -> tuple[pa.Table, dict[str, 
     counts = pc.value_counts(pc.struct_field(found, "kind").combine_chunks().drop_null())
     profile = {
         k: n
-        for k, n in zip(counts.field("values").to_pylist(), counts.field("counts").to_pylist())
+        for k, n in zip(
+            counts.field("values").to_pylist(), counts.field("counts").to_pylist(), strict=True
+        )
         if k
     }
     return facts.drop_columns([identity]), dict(sorted(profile.items()))

@@ -39,7 +39,7 @@ def split_nquads(seed: int = 5) -> str:
         s, k = f"<{EX}n{i:02d}>", i % 5
         lines.append(f"{s} <http://www.w3.org/1999/02/22-rdf-syntax-ns#type> <{EX}T> <{GRAPHS[0]}>")
         for graph, term in zip(
-            GRAPHS, [f'"+{k}"^^<{X}integer>', f'"0{k}"^^<{X}long>', f'"{k}"^^<{X}int>']
+            GRAPHS, [f'"+{k}"^^<{X}integer>', f'"0{k}"^^<{X}long>', f'"{k}"^^<{X}int>'], strict=True
         ):
             lines.append(f"{s} <{EX}count> {term} <{graph}>")
         lines.append(f'{s} <{EX}label> "x{i}"@en <{GRAPHS[1]}>')
