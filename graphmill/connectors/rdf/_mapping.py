@@ -235,8 +235,8 @@ def unit_pages(
     """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds.
 
     ``terms`` may be one batch of a unit read in batches: then pass the unit's ``present``
-    kinds, and keep each subject's facet rows in one batch (values are made distinct per
-    subject within a batch)."""
+    kinds. Values are made distinct per subject within a batch here, and across batches by
+    the snapshot merge from each facet page's ``identity``."""
     table, kinds = unit_table(plan, unit, terms, present=present)
     table = table.combine_chunks()
     for start in range(0, table.num_rows, page_rows):

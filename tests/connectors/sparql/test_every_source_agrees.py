@@ -202,6 +202,8 @@ SOURCES = [
     "fuseki auto",
     "fuseki key-range",
 ]
+
+
 def _source(name: str, dump: Path, servers: dict[str, Any], store: Path) -> dict[str, Any]:
     if name == "rdf-file":
         return {"kind": "rdf-file", "paths": [str(dump)]}
