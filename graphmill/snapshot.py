@@ -47,6 +47,7 @@ from graphmill._snapshot_merge import merge_plan, merge_to_file, property_column
 from graphmill._version import __version__
 from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
+    IDENTITY_PREFIX,
     RAW_PREFIX,
     SOURCE_ID,
     TARGET_ID,
@@ -188,6 +189,8 @@ class Stager:
         for name, raw in (page.raw or {}).items():  # ill-typed values' text, when there are any
             if raw.null_count < len(raw):
                 batch = batch.append_column(RAW_PREFIX + name, raw.cast(pa.string()))
+        for name, identity in (page.identity or {}).items():  # facet value identities
+            batch = batch.append_column(IDENTITY_PREFIX + name, identity.cast(pa.string()))
         schema = batch.schema.with_metadata({VALUE_KINDS_KEY: encode_kinds(profile)})
         table = pa.Table.from_batches([batch.replace_schema_metadata(schema.metadata)], schema)
         scratch = path.with_suffix(".writing")
@@ -371,10 +374,14 @@ def faceted_table(
     for prop in declared:
         facet_units = [u for u in units if u.facet == prop.name]
         scalar = PropertySpec(prop.name, prop.source_key, prop.kind, multi=False)
-        facts, profile = canonical_table(
-            _read_parts(stager.parts(facet_units)), [VERTEX_ID], [scalar], engine=engine
-        )
+        parts = _read_parts(stager.parts(facet_units))
+        identity = IDENTITY_PREFIX + prop.name
+        keyed = bool(parts) and all(identity in p.column_names for p in parts)
+        extra = [PropertySpec(identity, identity, "string")] if keyed else []
+        facts, profile = canonical_table(parts, [VERTEX_ID], [scalar, *extra], engine=engine)
         kinds[prop.name] = profile.get(prop.name, {})
+        if keyed:
+            facts, kinds[prop.name] = distinct_facts(facts, identity)
         facts = facts.filter(pc.is_valid(facts.column(prop.name)))
         value_type = facts.schema.field(prop.name).type
         if prop.multi:
@@ -401,6 +408,33 @@ def faceted_table(
     fields = [pa.field(VERTEX_ID, pa.string(), nullable=False)]
     fields += [members.schema.field(p.name) for p in declared]
     return members.select([f.name for f in fields]).cast(pa.schema(fields)), kinds, collapsed
+
+
+def distinct_facts(facts: pa.Table, identity: str) -> tuple[pa.Table, dict[str, int]]:
+    """Facts in canonical order (vertex, value, identity) without repeats of a (vertex,
+    identity) pair, and their value kinds (the identity's prefix, see ``Page.identity``).
+
+    Equal identities have equal values, so repeats are adjacent in that order: a value
+    read twice (two terms equal as values, on separate pages) is kept once, as a source
+    that read the vertex's rows together keeps it, whatever order the rows came in."""
+    ids, keys = (facts.column(n).combine_chunks() for n in (VERTEX_ID, identity))
+    if facts.num_rows > 1:
+        same = pc.and_(
+            pc.equal(ids.slice(1), ids.slice(0, facts.num_rows - 1)),
+            pc.equal(keys.slice(1), keys.slice(0, facts.num_rows - 1)),
+        )
+        keep = pa.concat_arrays([pa.array([True]), pc.invert(pc.fill_null(same, False))])
+        facts = facts.filter(keep)
+    found = pc.extract_regex(facts.column(identity), r"^(?P<kind>[^\x1f]*)\x1f")
+    counts = pc.value_counts(pc.struct_field(found, "kind").combine_chunks().drop_null())
+    profile = {
+        k: n
+        for k, n in zip(
+            counts.field("values").to_pylist(), counts.field("counts").to_pylist(), strict=True
+        )
+        if k
+    }
+    return facts.drop_columns([identity]), dict(sorted(profile.items()))
 
 
 def write_parquet(table: pa.Table, path: Path) -> None:

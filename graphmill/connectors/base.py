@@ -49,6 +49,8 @@ from graphmill.spec import PipelineSpec, RelationKey
 VERTEX_ID = "vertex_id"
 #: staged part columns holding ``Page.raw`` are named RAW_PREFIX + property name
 RAW_PREFIX = "graphmill.raw:"
+#: staged part columns holding ``Page.identity`` are named IDENTITY_PREFIX + property name
+IDENTITY_PREFIX = "graphmill.identity:"
 SOURCE_ID = "source_id"
 TARGET_ID = "target_id"
 
@@ -89,6 +91,9 @@ class Page:
     cursor: str | None = None
     value_kinds: dict[str, dict[str, int]] | None = None
     raw: dict[str, pa.Array] | None = None  # property -> text of its ill-typed values
+    #: property facet -> each row's value identity (``kind``, U+001F, identity): the
+    #: snapshot keeps one row per vertex and identity across all of a unit's pages
+    identity: dict[str, pa.Array] | None = None
 
 
 @dataclass

@@ -9,7 +9,9 @@ Both RDF sources answer each unit with a term table shaped like the SELECT of
   chosen for the whole unit: one kind keeps its type, integer + float give float64, any other
   mix gives strings rendered as the snapshot renders typed columns (so the result does not
   depend on page boundaries). Values equal as values (``"01"`` and ``"1"`` as xsd:integer)
-  are kept once per vertex, so every store gives the same sets;
+  are kept once per vertex, so every store gives the same sets: once per term table here,
+  and once per unit by the snapshot, from each row's ``Page.identity`` (rows of a vertex
+  may come on several pages, in any order);
 * graph facet -> the graph name as a string; relation -> ``source_id``, ``target_id``.
 
 Each page reports its property's value kinds, ``ill-typed`` included.
@@ -24,7 +26,15 @@ import pyarrow.compute as pc
 
 from graphmill._columns import KIND_TO_ARROW, conform
 from graphmill.connectors._declared import accepted_kinds
-from graphmill.connectors.base import RAW_PREFIX, SOURCE_ID, TARGET_ID, VERTEX_ID, Page, WorkUnit
+from graphmill.connectors.base import (
+    IDENTITY_PREFIX,
+    RAW_PREFIX,
+    SOURCE_ID,
+    TARGET_ID,
+    VERTEX_ID,
+    Page,
+    WorkUnit,
+)
 from graphmill.connectors.rdf._plan import RdfPlan
 from graphmill.connectors.rdf._queries import CLASH, SOURCE, TARGET, VALUE, VERTEX
 from graphmill.connectors.rdf._xsd import ILL_TYPED, XSD_STRING, LiteralValues, literal_values
@@ -191,11 +201,15 @@ def unit_table(
         present=present,
     )
     distinct = _distinct_values(ids, values, kinds, identity, ill_typed_raw(lexical, kinds))
+    kind = pc.fill_null(distinct.column("kind"), "")
     table = pa.table(
         {
             VERTEX_ID: distinct.column(VERTEX_ID),
             unit.facet: distinct.column("value"),
             RAW_PREFIX + unit.facet: distinct.column("raw"),
+            IDENTITY_PREFIX + unit.facet: pc.binary_join_element_wise(
+                kind, distinct.column("identity"), "\x1f"
+            ),
         }
     )
     return table, distinct.column("kind").combine_chunks()
@@ -221,8 +235,8 @@ def unit_pages(
     """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds.
 
     ``terms`` may be one batch of a unit read in batches: then pass the unit's ``present``
-    kinds, and keep each subject's facet rows in one batch (values are made distinct per
-    subject within a batch)."""
+    kinds. Values are made distinct per subject within a batch here, and across batches by
+    the snapshot merge from each facet page's ``identity``."""
     table, kinds = unit_table(plan, unit, terms, present=present)
     table = table.combine_chunks()
     for start in range(0, table.num_rows, page_rows):
@@ -234,7 +248,12 @@ def unit_pages(
         if name in batch.schema.names:  # the text of ill-typed literals goes beside the page
             raw = {unit.facet or "": batch.column(name)}
             batch = batch.drop_columns([name])
-        yield Page(batch=batch, value_kinds=value_kinds, raw=raw)
+        identity = None
+        name = IDENTITY_PREFIX + (unit.facet or "")
+        if name in batch.schema.names:  # for the snapshot to drop repeats across pages
+            identity = {unit.facet or "": batch.column(name)}
+            batch = batch.drop_columns([name])
+        yield Page(batch=batch, value_kinds=value_kinds, raw=raw, identity=identity)
 
 
 __all__ = ["ILL_TYPED", "language_mask", "typed_values", "unit_pages", "unit_table"]

@@ -3,8 +3,9 @@
 A page of ``page_size`` rows used to be mapped from ``page_size`` rows of full RDF terms
 (each row's IRIs, datatype IRIs and language tags as text), and the mapping's working tables
 were several times that. Here an answer is cut into slices of at most ``MAP_ROWS`` rows, each
-moved forward to the next change of the unit's first variable (so a subject's rows share a
-slice, and values can be made distinct per subject as before); each slice is mapped as it
+moved forward to the next change of the unit's first variable (so a subject's rows, when
+the server sends them together, share a slice; values equal as values are made distinct per
+slice here and per unit by the snapshot, from ``Page.identity``); each slice is mapped as it
 arrives and only its mapped rows are kept until the page is taken. Slices of one page are
 joined with the snapshot merge's own type rules (:func:`~graphmill._columns.unify_types`), so
 a page's rows are those the merge would make of the slices as separate pages.
@@ -95,7 +96,14 @@ def _joined(pages: list[Page]) -> Page:
                 (p.raw or {}).get(name, pa.nulls(p.batch.num_rows, pa.string())) for p in pages
             ]
             raw[name] = pa.concat_arrays([part.cast(pa.string()) for part in parts])
-    return Page(batch=pa.RecordBatch.from_arrays(columns, names=names), value_kinds=kinds, raw=raw)
+    identity: dict[str, pa.Array] | None = None
+    if any(p.identity for p in pages):
+        identity = {
+            name: pa.concat_arrays([(p.identity or {})[name].cast(pa.string()) for p in pages])
+            for name in (pages[0].identity or {})
+        }
+    batch = pa.RecordBatch.from_arrays(columns, names=names)
+    return Page(batch=batch, value_kinds=kinds, raw=raw, identity=identity)
 
 
 __all__ = ["MAP_ROWS", "PageBuilder", "boundary", "slices"]

@@ -203,7 +203,7 @@ class SparqlEndpointSource(GraphSource):
                 limit = rows  # the server's cap: page by it from now on
             finished = rows < limit
             if rows == limit and unit.table == "vertices":
-                # a vertex's values must share a page, so equal values can be merged
+                # a vertex's values share a page (fewer repeats for the snapshot to drop)
                 keys = terms.column(first).combine_chunks()
                 keep = pc.not_equal(keys, keys[rows - 1])
                 if pc.any(keep).as_py():

@@ -30,8 +30,9 @@ Sources: ``rdf-file``, ``rdf-store`` in memory and on disk (``source.store_folde
 ``sparql-endpoint`` against Oxigraph server and Fuseki (whose default graph is a graph of
 its own, as N-Quads has it; Virtuoso's is the union of all graphs, so it is left out here
 and checked on its own graph in ``test_virtuoso_cap.py``), each endpoint with ``auto`` paging
-and with key-range slices, in pages mapped in several slices. One known gap is marked xfail
-(``SPLIT_CASES``): Fuseki with a list of named graphs.
+and with key-range slices, in pages mapped in several slices. Fuseki answers a list of
+named graphs graph by graph, so a subject's values come apart, on separate pages: equal
+values among them are kept once all the same (the snapshot drops repeats per unit).
 """
 
 from __future__ import annotations
@@ -201,15 +202,6 @@ SOURCES = [
     "fuseki auto",
     "fuseki key-range",
 ]
-# Found by this test, and older than the slices: Fuseki answers a list of named graphs graph
-# by graph, so a subject's values come in separate runs of rows, and two terms equal as
-# values ("7"^^xsd:integer in one graph, "7"^^xsd:int in the other) land in different pages
-# or slices, where they are not made distinct (rdf-file does it per unit). Also with whole
-# pages of 5 rows on the code before the slices.
-SPLIT_CASES = {("named", "fuseki auto"), ("named", "fuseki key-range")}
-SPLIT_SUBJECTS = pytest.mark.xfail(
-    reason="Fuseki answers a subject's rows apart for a graph list: equal values kept twice"
-)
 
 
 def _source(name: str, dump: Path, servers: dict[str, Any], store: Path) -> dict[str, Any]:
@@ -239,13 +231,7 @@ def reference(dump, tmp_path_factory) -> dict[str, dict[str, Any]]:
     return out
 
 
-CASES = [
-    pytest.param(config, name, marks=SPLIT_SUBJECTS)
-    if (config, name) in SPLIT_CASES
-    else pytest.param(config, name)
-    for config in sorted(CONFIGS)
-    for name in SOURCES
-]
+CASES = [(config, name) for config in sorted(CONFIGS) for name in SOURCES]
 
 
 @pytest.mark.parametrize(("config", "name"), CASES)
