@@ -13,6 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+import pyarrow as pa
 
 from graphmill.transform._indexing import NO_VERTEX
 
@@ -48,6 +49,28 @@ class EdgeOutcome:
     dropped: dict[str, int] = field(default_factory=lambda: dict.fromkeys(DROP_REASONS, 0))
     merged: int = 0  # copies folded into another edge's multiplicity
     added_reverses: int = 0  # edges added by symmetrize
+
+
+def resolved_outcome(
+    result: pa.Table, dropped: dict[str, int], *, kept: int, added: int, duplicates: str
+) -> EdgeOutcome:
+    """An engine's resolved edges (columns ``s``, ``t``, ``row`` and, when merging,
+    ``multiplicity``) as an :class:`EdgeOutcome`: ``kept`` edges survived the dangling and
+    self-loop drops, ``added`` reverses were added, and whatever the resolution removed is
+    counted as merged copies or dropped repeats."""
+
+    def column(name: str) -> np.ndarray:
+        return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
+
+    multiplicity = column("multiplicity") if duplicates == "merge" else None
+    edges = EdgeArrays(column("s"), column("t"), column("row"), multiplicity)
+    removed = kept + added - len(edges)
+    outcome = EdgeOutcome(edges, dropped, added_reverses=added)
+    if duplicates == "merge":
+        outcome.merged = removed
+    else:
+        outcome.dropped["repeated-edge"] = removed
+    return outcome
 
 
 def drop_dangling(source: np.ndarray, target: np.ndarray) -> tuple[EdgeArrays, dict[str, int]]:

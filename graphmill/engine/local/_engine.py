@@ -21,7 +21,7 @@ from graphmill.engine._contracts import Offenders
 from graphmill.engine.local import _queries as q
 from graphmill.engine.local._session import Session
 from graphmill.engine.reference import ReferenceEngine
-from graphmill.transform._edges import DROP_REASONS, EdgeArrays, EdgeOutcome
+from graphmill.transform._edges import DROP_REASONS, EdgeOutcome, resolved_outcome
 
 ENDPOINTS = ["source_id", "target_id"]
 
@@ -255,18 +255,9 @@ class LocalEngine(ReferenceEngine):
             else:
                 result = s.arrow(q.resolved(f"({union})", duplicates))
 
-        def column(name: str) -> np.ndarray:
-            return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
-
-        multiplicity = column("multiplicity") if duplicates == "merge" else None
-        edges = EdgeArrays(column("s"), column("t"), column("row"), multiplicity)
-        removed = kept_count + added - len(edges)
-        outcome = EdgeOutcome(edges, dropped, added_reverses=added)
-        if duplicates == "merge":
-            outcome.merged = removed
-        else:
-            outcome.dropped["repeated-edge"] = removed
-        return outcome
+        return resolved_outcome(
+            result, dropped, kept=kept_count, added=added, duplicates=duplicates
+        )
 
     # ------------------------------------------------------------------ check
     def dangling_edges(

@@ -23,7 +23,7 @@ from graphmill.engine.local import _queries as q
 from graphmill.engine.reference import ReferenceEngine
 from graphmill.engine.spark._session import session_for
 from graphmill.engine.spark._tables import Tables
-from graphmill.transform._edges import DROP_REASONS, EdgeArrays, EdgeOutcome
+from graphmill.transform._edges import DROP_REASONS, EdgeOutcome, resolved_outcome
 
 ENDPOINTS = ["source_id", "target_id"]
 
@@ -172,18 +172,9 @@ class SparkEngine(ReferenceEngine):
             union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
         result = t.arrow(q.resolved(f"({union})", duplicates))
 
-        def column(name: str) -> np.ndarray:
-            return np.asarray(result.column(name).to_numpy(), dtype=np.int64)
-
-        multiplicity = column("multiplicity") if duplicates == "merge" else None
-        edges = EdgeArrays(column("s"), column("t"), column("row"), multiplicity)
-        removed = kept_count + added - len(edges)
-        outcome = EdgeOutcome(edges, dropped, added_reverses=added)
-        if duplicates == "merge":
-            outcome.merged = removed
-        else:
-            outcome.dropped["repeated-edge"] = removed
-        return outcome
+        return resolved_outcome(
+            result, dropped, kept=kept_count, added=added, duplicates=duplicates
+        )
 
     # ------------------------------------------------------------------ check
     def dangling_edges(
