@@ -1,10 +1,17 @@
-"""Progress reporting: rich bars on a terminal, silence otherwise."""
+"""Progress reporting: rich bars on a terminal, silence otherwise.
+
+Stages count rows, not steps: a pull task counts the rows staged (or MiB of an RDF file
+read), merge, check and build tasks count the snapshot's rows each step went through, with
+the snapshot's row counts (``snapshot.json``) as totals. Bars are drawn on stderr, and only
+when stderr is a terminal and no CI system is running us (``CI`` set).
+"""
 
 from __future__ import annotations
 
+import os
 import sys
 import threading
-from collections.abc import Iterator
+from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
 from typing import Protocol
 
@@ -58,13 +65,35 @@ class RichProgress:
         return _RichTask(self._bar, task_id, self._lock)
 
 
+def in_ci(environ: Mapping[str, str] | None = None) -> bool:
+    """Whether a CI system runs us: ``CI`` (in ``environ``, default the process's) is set to
+    anything but empty, 0, false or no. CI systems set ``CI=true``, and a log is no place
+    for bars that redraw themselves.
+
+    >>> in_ci({"CI": "true"}), in_ci({"CI": "1"}), in_ci({"CI": "false"}), in_ci({})
+    (True, True, False, False)
+    """
+    value = (os.environ if environ is None else environ).get("CI", "")
+    return value.strip().lower() not in ("", "0", "false", "no")
+
+
+def shows_bars() -> bool:
+    """Whether bars would be shown by default: stderr is a terminal and not in CI."""
+    return sys.stderr.isatty() and not in_ci()
+
+
 @contextmanager
 def progress_for_terminal(enabled: bool | None = None) -> Iterator[Progress]:
-    """Rich progress bars (on stderr) when ``enabled`` or, if None, when stdout is a terminal."""
-    show = sys.stdout.isatty() if enabled is None else enabled
+    """Rich progress bars on stderr when ``enabled`` or, if None, when :func:`shows_bars`.
+
+    What the command prints to stdout is left alone unless stdout is the terminal too (then
+    it is printed above the bars), so redirected output never holds bar characters.
+    """
+    show = shows_bars() if enabled is None else enabled
     if not show:
         yield SilentProgress()
         return
+    from rich.console import Console
     from rich.progress import (
         BarColumn,
         MofNCompleteColumn,
@@ -80,6 +109,8 @@ def progress_for_terminal(enabled: bool | None = None) -> Iterator[Progress]:
         MofNCompleteColumn(),
         TimeElapsedColumn(),
         TimeRemainingColumn(),
+        console=Console(stderr=True),
         transient=True,
+        redirect_stdout=sys.stdout.isatty(),
     ) as bar:
         yield RichProgress(bar)

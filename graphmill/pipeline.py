@@ -48,7 +48,7 @@ class _LoggedProgress:
         self._inner = inner
 
     def task(self, description: str, total: int | None = None) -> ProgressTask:
-        log.info("%s%s", description, f" ({plural(total, 'step')})" if total else "")
+        log.info("%s%s", description, f" ({total:,} to go)" if total else "")
         return self._inner.task(description, total)
 
 
@@ -168,6 +168,7 @@ class Pipeline:
             snapshot,
             previous=Path(previous) if previous is not None else None,
             part_moves=part_moves,
+            progress=self.progress,
         )
         rules = sorted({e.rule for e in report.evaluated})
         log.info(

@@ -4,12 +4,16 @@ An engine is opened per stage (``with open_engine(spec) as engine: ...``) and cl
 so no state outlives a stage. Columns are Arrow arrays (``pa.Array`` or ``pa.ChunkedArray``);
 positions and indices are int64 numpy arrays. Check operations take their edge tables as
 :data:`TableInput`: an Arrow table, or the snapshot's Parquet file.
+
+Progress: while a stage holds :meth:`Engine.reporting`, the engine advances the named step
+tasks ("mapped", "policed") by the rows each of its queries or steps went through.
 """
 
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator, Mapping, Sequence
+from contextlib import contextmanager
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
@@ -17,6 +21,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from graphmill._progress import ProgressTask
 from graphmill.engine._contracts import Offenders
 from graphmill.spec import EngineSpec
 
@@ -38,6 +43,22 @@ class Engine(ABC):
     def __init__(self, settings: EngineSpec | None = None, *, spill_folder: Path | None = None):
         self.settings = settings or EngineSpec(kind=self.kind)
         self.spill_folder = spill_folder
+        self._steps: Mapping[str, ProgressTask] = {}
+
+    @contextmanager
+    def reporting(self, steps: Mapping[str, ProgressTask]) -> Iterator[None]:
+        """Advance ``steps`` (by step name) with the rows each step covers, for the block."""
+        self._steps = steps
+        try:
+            yield
+        finally:
+            self._steps = {}
+
+    def covered(self, step: str, rows: int) -> None:
+        """``rows`` more rows went through ``step``: advance its task, if one is reported."""
+        task = getattr(self, "_steps", {}).get(step)  # getattr: for an __init__ not called
+        if task is not None:
+            task.advance(rows)
 
     def close(self) -> None:  # noqa: B027 - an engine that holds nothing has nothing to do
         """Release what the engine holds (connections, spill files)."""
@@ -99,16 +120,22 @@ class Engine(ABC):
         symmetrize: bool,
     ) -> EdgeOutcome:
         """Both endpoints mapped, then the policies (``mapped-edges``); this default
-        composes :meth:`endpoint_positions` and :meth:`edge_policy`."""
-        return self.edge_policy(
-            self.endpoint_positions(edges, "source", source_ids),
-            self.endpoint_positions(edges, "target", target_ids),
+        composes :meth:`endpoint_positions` and :meth:`edge_policy`. Reports the edge rows
+        as ``mapped``, then as ``policed``."""
+        source = self.endpoint_positions(edges, "source", source_ids)
+        target = self.endpoint_positions(edges, "target", target_ids)
+        self.covered("mapped", len(source))
+        outcome = self.edge_policy(
+            source,
+            target,
             same_type=same_type,
             vertex_count=len(source_ids),
             duplicates=duplicates,
             self_loops=self_loops,
             symmetrize=symmetrize,
         )
+        self.covered("policed", len(source))
+        return outcome
 
     # ------------------------------------------------------------------ check
     @abstractmethod

@@ -166,7 +166,7 @@ def build_bundle(
         }
     )
     with atomic_directory(spec.output.bundle, kind="bundle", key="output.bundle") as scratch:
-        manifest = write_bundle(scratch, content)
+        manifest = write_bundle(scratch, content, progress=progress)
         if before is not None:
             from graphmill.compare._with_build import record_comparison
 
@@ -211,7 +211,9 @@ def assemble_content(
         {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
     )
     indices: dict[str, VertexIndex] = {}
-    task = progress.task("build vertices", total=len(spec.vertex_types))
+    rows = {name: snapshot.rows("vertices", name) for name in spec.vertex_types}
+    indexed = progress.task("index vertices", total=sum(rows.values()))
+    encoded = progress.task("encode vertices", total=sum(rows.values()))
     for name, vt in spec.vertex_types.items():
         columns = [VERTEX_ID] + [p.name for p in vt.properties]
         table = snapshot.vertices(name).select(columns)
@@ -219,15 +221,20 @@ def assemble_content(
         indices[name] = vi = index_vertices(
             name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
         )
+        indexed.advance(rows[name])
         check_unique(vi)
         info.warnings += add_vertex_type(content, spec, vi, pinned, features=not audit_only)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
-        task.advance()
-    task = progress.task("build relations", total=len(spec.relations))
-    for rel in spec.relations:
-        _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
-        task.advance()
+        encoded.advance(rows[name])
+    edge_rows = sum(snapshot.rows("edges", rel.key.dotted) for rel in spec.relations)
+    steps = {
+        "mapped": progress.task("map edges", total=edge_rows),
+        "policed": progress.task("police edges", total=edge_rows),
+    }
+    with engine.reporting(steps):  # the engine advances them as its queries finish
+        for rel in spec.relations:
+            _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
     return content

@@ -18,6 +18,7 @@ import numpy as np
 import pyarrow as pa
 
 from graphmill._atomic import sha256_file
+from graphmill._progress import Progress, SilentProgress
 from graphmill._schemas import validate_document
 from graphmill.bundle import BUNDLE_FORMAT, MANIFEST_FILE, TENSOR_FILE, seal_manifest
 from graphmill.snapshot import write_parquet
@@ -61,12 +62,20 @@ def tensor_index(content: BundleContent) -> dict[str, dict[str, Any]]:
     return index
 
 
-def write_bundle(root: Path, content: BundleContent) -> dict[str, Any]:
-    """Write everything into ``root`` (an empty folder); return the sealed manifest."""
+def write_bundle(
+    root: Path, content: BundleContent, *, progress: Progress | None = None
+) -> dict[str, Any]:
+    """Write everything into ``root`` (an empty folder); return the sealed manifest.
+    ``progress`` gets one task, ``write tables``, advanced by each table's rows."""
     from safetensors.numpy import save_file
 
-    for rel_path, table in sorted(content.tables.items()):
+    tables = sorted(content.tables.items())
+    written = (progress or SilentProgress()).task(
+        "write tables", total=sum(t.num_rows for _, t in tables)
+    )
+    for rel_path, table in tables:
         write_parquet(table, root / rel_path)
+        written.advance(table.num_rows)
     # written straight from the arrays: no second copy of every tensor in memory
     save_file(
         dict(sorted(content.tensors.items())), root / TENSOR_FILE, metadata={"bundle_format": "1"}

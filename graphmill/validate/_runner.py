@@ -26,6 +26,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
+from graphmill._progress import Progress, SilentProgress
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
 from graphmill.snapshot import Snapshot
@@ -220,6 +221,7 @@ def run_checks(
     engine: Engine | None = None,
     previous: Path | None = None,
     part_moves: bool = True,
+    progress: Progress | None = None,
 ) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
@@ -228,6 +230,8 @@ def run_checks(
     ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``);
     ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
     whose build evaluates it on the bundle it writes and gates the same way).
+    ``progress`` gets one task per rule, ``check <rule>``, advanced by the rows of each
+    subject's table as the subject is checked (:func:`subject_rows`).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -237,7 +241,12 @@ def run_checks(
     if engine is None:
         with open_engine(spec) as opened:
             return run_checks(
-                spec, snapshot, engine=opened, previous=previous, part_moves=part_moves
+                spec,
+                snapshot,
+                engine=opened,
+                previous=previous,
+                part_moves=part_moves,
+                progress=progress,
             )
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
@@ -248,12 +257,16 @@ def run_checks(
         level = severities[rule_id]
         if level == "off":
             continue
-        for subject in subjects(ctx):
+        listed = subjects(ctx)
+        rows = [subject_rows(ctx, subject) for subject in listed]
+        task = (progress or SilentProgress()).task(f"check {rule_id}", total=sum(rows))
+        for subject, n in zip(listed, rows, strict=True):
             result = check(ctx, subject)
             outcomes = result if isinstance(result, list) else [result]
             found = [_finding(rule_id, level, subject, o) for o in outcomes if o.reported]
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
+            task.advance(n)
     leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
     findings += leaks
     evaluated += audited
@@ -263,6 +276,16 @@ def run_checks(
         findings += leaks
         evaluated += audited
     return Report(findings=findings, evaluated=evaluated, snapshot=_snapshot_info(snapshot))
+
+
+def subject_rows(ctx: CheckContext, subject: Subject) -> int:
+    """The snapshot rows a check of ``subject`` goes through: its relation's edges or its
+    vertex type's vertices (a property's table), every vertex for the whole graph."""
+    if "relation" in subject:
+        return ctx.rows("edges", subject["relation"])
+    if "vertex_type" in subject:
+        return ctx.rows("vertices", subject["vertex_type"])
+    return sum(ctx.rows("vertices", name) for name in ctx.vertex_types)
 
 
 def _require_declared_tables(spec: PipelineSpec, snapshot: Snapshot) -> None:

@@ -204,21 +204,29 @@ class LocalEngine(ReferenceEngine):
         self_loops: str,
         symmetrize: bool,
     ) -> EdgeOutcome:
-        """One join per side straight from the file; the mapped edges stay in DuckDB."""
+        """One join per side straight from the file; the mapped edges stay in DuckDB.
+        Reports the edge rows as ``mapped`` once joined, as ``policed`` once policed."""
         s = self.session
         sources = pa.table({"id": _column(source_ids), "position": _rows(len(source_ids))})
         targets = pa.table({"id": _column(target_ids), "position": _rows(len(target_ids))})
         if isinstance(edges, Path):
             ends: TableInput = edges
             row = "file_row_number"
+            count = pq.read_metadata(edges).num_rows
         else:
             ends = edges.select(ENDPOINTS).append_column("gm_row", _rows(edges.num_rows))
             row = "gm_row"
+            count = edges.num_rows
         with (
             s.tables({"e": ends, "vs": sources, "vt": targets}, row_numbers=True) as n,
             s.scratch(q.mapped(n["e"], row, n["vs"], n["vt"])) as mapped,
         ):
-            return self._police(mapped, same_type, duplicates, self_loops, symmetrize, owned=True)
+            self.covered("mapped", count)
+            outcome = self._police(
+                mapped, same_type, duplicates, self_loops, symmetrize, owned=True
+            )
+        self.covered("policed", count)
+        return outcome
 
     def _police(
         self,
