@@ -177,7 +177,8 @@ def test_verbose_logs_each_stage(tmp_path, table_project):
         "INFO: pull: person.knows.person: 1 row\n",
         "INFO: check: ",
         " rules on ",
-        "INFO: build vertices",
+        "INFO: index vertices (2 to go)",  # each task, with its total in rows
+        "INFO: check dangling-edge (1 to go)",
         "INFO: build: wrote ",
         "INFO: build: file manifest.json (",
         "INFO: local engine ",  # each engine query, with its wall and CPU seconds
