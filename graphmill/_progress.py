@@ -42,12 +42,22 @@ class SilentProgress:
 
 
 class _RichTask:
-    def __init__(self, bar: object, task_id: object, lock: threading.Lock) -> None:
+    """One bar; hidden once it reaches its total, so that the bars still running stay in
+    view on a short terminal (a stage can have dozens of steps)."""
+
+    def __init__(
+        self, bar: object, task_id: object, lock: threading.Lock, total: int | None
+    ) -> None:
         self._bar, self._id, self._lock = bar, task_id, lock
+        self._left = total
 
     def advance(self, amount: int = 1) -> None:
         with self._lock:
             self._bar.advance(self._id, amount)  # type: ignore[attr-defined]
+            if self._left is not None:
+                self._left -= amount
+                if self._left <= 0:
+                    self._bar.update(self._id, visible=False)  # type: ignore[attr-defined]
 
     def describe(self, description: str) -> None:
         with self._lock:
@@ -62,7 +72,7 @@ class RichProgress:
     def task(self, description: str, total: int | None = None) -> ProgressTask:
         with self._lock:
             task_id = self._bar.add_task(description, total=total)  # type: ignore[attr-defined]
-        return _RichTask(self._bar, task_id, self._lock)
+        return _RichTask(self._bar, task_id, self._lock, total)
 
 
 def in_ci(environ: Mapping[str, str] | None = None) -> bool:

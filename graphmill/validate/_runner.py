@@ -230,8 +230,8 @@ def run_checks(
     ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``);
     ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
     whose build evaluates it on the bundle it writes and gates the same way).
-    ``progress`` gets one task per rule, ``check <rule>``, advanced by the rows of each
-    subject's table as the subject is checked (:func:`subject_rows`).
+    ``progress`` gets one task per rule with subjects, ``check <rule>``, advanced by the
+    rows of each subject's table as the subject is checked (:func:`subject_rows`).
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -258,6 +258,8 @@ def run_checks(
         if level == "off":
             continue
         listed = subjects(ctx)
+        if not listed:
+            continue
         rows = [subject_rows(ctx, subject) for subject in listed]
         task = (progress or SilentProgress()).task(f"check {rule_id}", total=sum(rows))
         for subject, n in zip(listed, rows, strict=True):
