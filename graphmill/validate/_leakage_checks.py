@@ -33,6 +33,7 @@ import time
 from pathlib import Path
 from typing import Any
 
+from graphmill._reuse import StageMemo
 from graphmill.engine import Engine
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
@@ -71,10 +72,11 @@ def leakage_subjects(spec: PipelineSpec, severity: dict[str, str]) -> list[tuple
 
 
 def leakage_checks(
-    spec: PipelineSpec, snapshot: Snapshot, engine: Engine
+    spec: PipelineSpec, snapshot: Snapshot, engine: Engine, memo: StageMemo | None = None
 ) -> tuple[list[Finding], list[Evaluation]]:
     """The audit's findings and evaluations for the check report (none when no rule
-    applies: no links task and no feature of a labelled type)."""
+    applies: no links task and no feature of a labelled type). ``memo``: where the vertex
+    indices and keyed-hash numbers go for the build of the same pipeline to reuse."""
     from graphmill.transform._build import BuildInfo, assemble_content
     from graphmill.transform._leakage_audit import audit_content, severities
 
@@ -83,7 +85,7 @@ def leakage_checks(
         return [], []
     started = time.perf_counter()
     content = assemble_content(
-        spec, snapshot, engine, BuildInfo(spec.output.bundle), audit_only=True
+        spec, snapshot, engine, BuildInfo(spec.output.bundle), audit_only=True, memo=memo
     )
     entry = audit_content(content, spec)
     log.info(

@@ -26,6 +26,7 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
+from graphmill._reuse import StageMemo
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
 from graphmill.snapshot import Snapshot
@@ -220,6 +221,7 @@ def run_checks(
     engine: Engine | None = None,
     previous: Path | None = None,
     part_moves: bool = True,
+    memo: StageMemo | None = None,
 ) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
@@ -227,7 +229,8 @@ def run_checks(
     ``previous`` (default: ``drift_gate.previous``): the earlier bundle that
     ``part-changed-since-previous`` compares with (a trial build; see ``_leakage_checks``);
     ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
-    whose build evaluates it on the bundle it writes and gates the same way).
+    whose build evaluates it on the bundle it writes and gates the same way). ``memo``:
+    where the leakage audit leaves its vertex indices for the build of the same pipeline.
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -237,7 +240,12 @@ def run_checks(
     if engine is None:
         with open_engine(spec) as opened:
             return run_checks(
-                spec, snapshot, engine=opened, previous=previous, part_moves=part_moves
+                spec,
+                snapshot,
+                engine=opened,
+                previous=previous,
+                part_moves=part_moves,
+                memo=memo,
             )
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
@@ -254,7 +262,7 @@ def run_checks(
             found = [_finding(rule_id, level, subject, o) for o in outcomes if o.reported]
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
-    leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
+    leaks, audited = leakage_checks(spec, snapshot, engine, memo)  # the build's audit
     findings += leaks
     evaluated += audited
     previous = previous or spec.drift_gate.previous
