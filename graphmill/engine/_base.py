@@ -9,7 +9,7 @@ positions and indices are int64 numpy arrays. Check operations take their edge t
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
@@ -143,3 +143,11 @@ class Engine(ABC):
     ) -> Offenders:
         """``isolated-vertices``; ``sides``: (edge table, "source" or "target") for every
         relation side where the vertex type stands."""
+
+    @abstractmethod
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        """``duplicate-vertex-ids``."""
+
+    @abstractmethod
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        """``shared-vertex-ids``; ``ids_by_type``: vertex type -> its ID column."""

@@ -7,7 +7,7 @@ this class inherits.
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -73,6 +73,8 @@ class LocalEngine(ReferenceEngine):
             "reciprocity",
             "one-way-edges",
             "isolated-vertices",
+            "duplicate-vertex-ids",
+            "shared-vertex-ids",
         }
     )
 
@@ -353,4 +355,26 @@ class LocalEngine(ReferenceEngine):
             (count,) = s.ints(f"SELECT count(*) FROM {iso}")
             (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
             sample = s.records(q.sample(iso, ["vertex_id"], k))
+        return Offenders(count, sample, {"total": total})
+
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        s = self.session
+        vertices = pa.table({"vertex_id": _column(vertex_ids)})
+        with s.tables({"v": vertices}) as n, s.scratch(q.repeated_ids(n["v"])) as dup:
+            extra, ids = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {dup}")
+            sample = s.records(q.sample(dup, ["vertex_id", "copies"], k)) if ids else []
+        return Offenders(extra, sample, {"ids": ids})
+
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        if not ids_by_type:
+            return Offenders(0, [], {"total": 0})
+        s = self.session
+        tables = {
+            f"v{i}": pa.table({"vertex_id": _column(ids)})
+            for i, ids in enumerate(ids_by_type.values())
+        }
+        with s.tables(tables) as n, s.scratch(q.shared_ids(list(n.values()))) as shared:
+            (count,) = s.ints(f"SELECT count(*) FROM {shared}")
+            (total,) = s.ints(q.distinct_ids(list(n.values())))
+            sample = s.records(q.sample(shared, ["vertex_id"], k)) if count else []
         return Offenders(count, sample, {"total": total})
