@@ -1,11 +1,17 @@
 """The leakage audit in the check report: the build's own rules on the build's own parts.
 
 Contract: :func:`leakage_checks` computes, from the snapshot and the spec, what the build
-computes before its audit (:func:`graphmill.transform._build.assemble_content`: vertex
-indices, labels or targets, the keyed-hash parts, each relation's edges and link parts; no
-feature encoders are fitted and no negatives drawn, since no rule reads them) and runs the
-build's audit (:func:`graphmill.transform._leakage_audit.audit_content`) on it. There is one
-copy of the rules; the check report's leakage findings equal the manifest's ``leakage``
+computes before its audit (:func:`graphmill.transform._build.assemble_content` with
+``audit_only``), limited to what the applicable rules read
+(:func:`graphmill.transform._leakage_audit.audit_reads`): for ``feature-copies-label`` the
+labelled type's index, labels or targets and keyed-hash parts, and no edges at all; for a
+links task the linked relations' edges and link parts, the relations between the same two
+types (for ``evaluation-pair-in-other-relation``) and their endpoint types. No feature
+encoders are fitted and no negatives drawn. It then runs the build's audit
+(:func:`graphmill.transform._leakage_audit.audit_content`) on it. The vertex indices it makes
+(with their keyed-hash numbers) are left in the pipeline's memo (``graphmill/_reuse.py``) for
+the build of the same pipeline, which takes them instead of computing them again when the
+snapshot is unchanged. There is one copy of the rules; the check report's leakage findings equal the manifest's ``leakage``
 findings for the same snapshot and spec, except that samples name original IDs where a
 pseudonymized bundle names pseudonyms (every check sample names original IDs).
 
@@ -20,8 +26,8 @@ Subjects: each relation of a links task for ``evaluation-edge-in-training`` and
 ``evaluation-pair-in-other-relation`` (and ``training-edge-after-cut`` under ``by_time``);
 each feature property of the labelled type for ``feature-copies-label``. Severities are the
 spec's (``checks.severity``), ``off`` skips a rule as for every other rule. Computing the
-parts costs about what the build's first steps cost (see bench/bench_check_leakage.py);
-the time is logged at INFO (``-v``), never skipped.
+parts costs what the build's first steps cost for the types and relations read (see
+bench/bench_check_leakage.py); the time is logged at INFO (``-v``), never skipped.
 """
 
 from __future__ import annotations
