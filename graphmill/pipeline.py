@@ -82,7 +82,10 @@ class RunResult:
 
 
 class Pipeline:
-    """The stages of one spec. Each stage reads what the previous one published on disk.
+    """The stages of one spec. Each stage reads what the previous one published on disk;
+    the one thing carried in memory is what the check's leakage audit indexed (vertex
+    indices with their keyed-hash numbers), which the next build takes when the snapshot is
+    unchanged (``graphmill/_reuse.py``).
 
     Before a stage does any work, the outputs it will replace are checked to be earlier
     graphmill outputs of the same kind. A ``build`` or ``run`` that ends without a new bundle

@@ -11,9 +11,10 @@ encoders are fitted and no negatives drawn. It then runs the build's audit
 (:func:`graphmill.transform._leakage_audit.audit_content`) on it. The vertex indices it makes
 (with their keyed-hash numbers) are left in the pipeline's memo (``graphmill/_reuse.py``) for
 the build of the same pipeline, which takes them instead of computing them again when the
-snapshot is unchanged. There is one copy of the rules; the check report's leakage findings equal the manifest's ``leakage``
-findings for the same snapshot and spec, except that samples name original IDs where a
-pseudonymized bundle names pseudonyms (every check sample names original IDs).
+snapshot is unchanged. There is one copy of the rules; the check report's leakage findings
+equal the manifest's ``leakage`` findings for the same snapshot and spec, except that
+samples name original IDs where a pseudonymized bundle names pseudonyms (every check sample
+names original IDs).
 
 ``part-changed-since-previous`` needs the comparison of the new version with an earlier
 bundle, which compares written bundles: when a previous bundle is named (``--previous`` or
