@@ -21,6 +21,7 @@ from graphmill._output_kinds import (
     retire_bundle,
 )
 from graphmill._progress import Progress, ProgressTask, SilentProgress
+from graphmill._reuse import StageMemo
 from graphmill._text import plural
 from graphmill.connectors import open_source
 from graphmill.errors import BundleIntegrityError, ExitCode, GraphmillError
@@ -81,7 +82,10 @@ class RunResult:
 
 
 class Pipeline:
-    """The stages of one spec. Each stage reads what the previous one published on disk.
+    """The stages of one spec. Each stage reads what the previous one published on disk;
+    the one thing carried in memory is what the check's leakage audit indexed (vertex
+    indices with their keyed-hash numbers), which the next build takes when the snapshot is
+    unchanged (``graphmill/_reuse.py``).
 
     Before a stage does any work, the outputs it will replace are checked to be earlier
     graphmill outputs of the same kind. A ``build`` or ``run`` that ends without a new bundle
@@ -96,6 +100,9 @@ class Pipeline:
         self.progress: Progress = _LoggedProgress(progress or SilentProgress())
         self.last_report: Report | None = None
         self.retired: Path | None = None
+        # What the check's leakage audit computed (vertex indices, keyed-hash numbers) for
+        # the build of this pipeline to take, under a key of the snapshot's content.
+        self._memo = StageMemo()
 
     @classmethod
     def from_file(cls, path: str | Path, *, progress: Progress | None = None) -> Pipeline:
@@ -163,12 +170,14 @@ class Pipeline:
                 "check: part-changed-since-previous is left to the build, which compares "
                 "the bundle it writes with the previous one"
             )
+        self._memo.clear()
         report = run_checks(
             self.spec,
             snapshot,
             previous=Path(previous) if previous is not None else None,
             part_moves=part_moves,
             progress=self.progress,
+            memo=self._memo,
         )
         rules = sorted({e.rule for e in report.evaluated})
         log.info(
@@ -220,15 +229,19 @@ class Pipeline:
             )
         if not report.passed:
             log.info("build: the checks failed; building anyway (--even-if-failing)")
-        info = build_bundle(
-            self.spec,
-            snapshot,
-            checks_summary=report.summary(),
-            progress=self.progress,
-            previous=Path(previous) if previous is not None else None,
-            even_if_drifting=even_if_failing,
-            even_if_leaking=even_if_failing,
-        )
+        try:
+            info = build_bundle(
+                self.spec,
+                snapshot,
+                checks_summary=report.summary(),
+                progress=self.progress,
+                previous=Path(previous) if previous is not None else None,
+                even_if_drifting=even_if_failing,
+                even_if_leaking=even_if_failing,
+                memo=self._memo,
+            )
+        finally:
+            self._memo.clear()  # nothing is held past the build
         log.info("build: wrote %s", info.bundle)
         for path in sorted(Path(info.bundle).rglob("*")):
             if path.is_file():

@@ -170,3 +170,11 @@ class Engine(ABC):
     ) -> Offenders:
         """``isolated-vertices``; ``sides``: (edge table, "source" or "target") for every
         relation side where the vertex type stands."""
+
+    @abstractmethod
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        """``duplicate-vertex-ids``."""
+
+    @abstractmethod
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        """``shared-vertex-ids``; ``ids_by_type``: vertex type -> its ID column."""

@@ -203,18 +203,35 @@ OPERATIONS: dict[str, Operation] = {
             the sides where the type stands): count, details total = distinct IDs; sample
             (vertex_id).""",
         ),
+        _op(
+            "duplicate-vertex-ids",
+            "check",
+            "duplicate_vertex_ids",
+            {"vertices": VERTEX_IDS},
+            {"finding": FINDING},
+            """IDs of one vertex type held by more than one row: count = rows beyond the
+            first of each such ID, details ids = such IDs; sample (vertex_id, copies).""",
+        ),
+        _op(
+            "shared-vertex-ids",
+            "check",
+            "shared_vertex_ids",
+            {"vertices": VERTEX_IDS},
+            {"finding": FINDING},
+            """Given the IDs of every vertex type: distinct IDs held by more than one type:
+            count = such IDs, details total = distinct IDs over every type; sample
+            (vertex_id).""",
+        ),
     ]
 }
 
 #: Operations every engine runs on the reference code for now (numpy, seeded or small):
 #: encoder statistics (standardize, min-max, log, categories), splits (PCG64 draws),
-#: pseudonyms (keyed hashes), the property and contract checks, duplicate and shared IDs.
+#: pseudonyms (keyed hashes), the property and contract checks.
 REFERENCE_ONLY = (
     "encoder-statistics",
     "splits",
     "pseudonyms",
     "property-checks",
     "contract-checks",
-    "duplicate-vertex-ids",
-    "shared-vertex-ids",
 )

@@ -8,7 +8,7 @@ computed once per table and shared by the check operations, as the rules allow.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -27,6 +27,7 @@ from graphmill.validate.rules import (
     dangling_mask,
     distinct_pairs,
     distinct_rows,
+    duplicate_counts,
     exact_repeats,
     isolated_mask,
     pair_codes,
@@ -34,6 +35,7 @@ from graphmill.validate.rules import (
     reciprocated_mask,
     reciprocity_counts,
     self_loop_mask,
+    shared_ids,
 )
 
 ENDPOINTS = ["source_id", "target_id"]
@@ -186,3 +188,17 @@ class ReferenceEngine(Engine):
         isolated = pc.unique(ids.filter(mask))
         sample = sorted_sample(pa.table({"vertex_id": isolated}), k)
         return Offenders(len(isolated), sample, {"total": len(pc.unique(ids))})
+
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        dups = duplicate_counts(vertex_ids)
+        records = pa.table({"vertex_id": dups.column("value"), "copies": dups.column("copies")})
+        extra = _sum(dups.column("copies")) - dups.num_rows
+        return Offenders(extra, sorted_sample(records, k), {"ids": dups.num_rows})
+
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        shared = shared_ids(ids_by_type)
+        chunks = [pc.unique(c) for c in ids_by_type.values()]
+        every = pa.chunked_array(chunks, pa.string())
+        total = len(pc.unique(every)) if len(every) else 0
+        sample = sorted_sample(shared.select(["vertex_id"]), k)
+        return Offenders(shared.num_rows, sample, {"total": total})

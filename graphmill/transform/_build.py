@@ -19,6 +19,7 @@ import pyarrow.parquet as pq
 
 from graphmill._atomic import atomic_directory
 from graphmill._progress import Progress, SilentProgress
+from graphmill._reuse import StageMemo, snapshot_digest
 from graphmill._text import plural
 from graphmill._version import __version__
 from graphmill.bundle import relation_key, table_path
@@ -90,6 +91,7 @@ def build_bundle(
     even_if_drifting: bool = False,
     even_if_leaking: bool = False,
     engine: Engine | None = None,
+    memo: StageMemo | None = None,
 ) -> BuildInfo:
     """Build the bundle of ``spec`` from ``snapshot`` and publish it atomically.
 
@@ -97,6 +99,7 @@ def build_bundle(
     that bundle before publishing; the comparison and the previous manifest's hash go into the
     manifest, and a failing drift gate publishes nothing (unless ``even_if_drifting``).
     ``engine`` runs the set operations (default: the one the spec names, opened here).
+    ``memo``: what the check of the same pipeline computed and the build may reuse.
     """
     from graphmill.compare._compare import open_side
     from graphmill.compare._lineage import lineage_entry
@@ -112,6 +115,7 @@ def build_bundle(
                 even_if_drifting=even_if_drifting,
                 even_if_leaking=even_if_leaking,
                 engine=opened,
+                memo=memo,
             )
     started = time.perf_counter()
     previous = previous or spec.drift_gate.previous
@@ -123,7 +127,7 @@ def build_bundle(
     check_summary(checks_summary)
     info = BuildInfo(spec.output.bundle)
     content = assemble_content(
-        spec, snapshot, engine, info, key=key, pinned=pinned, progress=progress
+        spec, snapshot, engine, info, key=key, pinned=pinned, progress=progress, memo=memo
     )
     _audit_leakage(content, info, spec, even_if_leaking)
     add_edge_features(content, spec)  # after the edge split: fitted on training edges
@@ -199,41 +203,55 @@ def assemble_content(
     pinned: PinnedVocabularies | None = None,
     audit_only: bool = False,
     progress: Progress | None = None,
+    memo: StageMemo | None = None,
 ) -> BundleContent:
     """The bundle content up to the leakage audit: the vertex indices, labels, targets and
     parts, the features, and each relation's edges with their edge and link parts and
     negatives. The build continues from here; ``graphmill check`` stops here to run the
     leakage audit on the same parts (see :mod:`graphmill.validate._leakage_checks`), with
-    ``audit_only``: no feature encoders and no negatives, which no audit rule reads."""
+    ``audit_only``: only the vertex types and relations the applicable audit rules read
+    (``audit_reads``), no feature encoders and no negatives. ``memo``: the audit keeps its
+    vertex indices (with their keyed-hash numbers) there and the build takes them."""
+    from graphmill.transform._leakage_audit import audit_reads
+
     progress = progress or SilentProgress()
     content = BundleContent()
     content.manifest.update(
         {"vertex_types": {}, "relations": {}, "label": None, "split": None, "task": None}
     )
+    types, relations = audit_reads(spec) if audit_only else (set(spec.vertex_types), None)
+    digest = snapshot_digest(snapshot) if memo is not None and key is None else None
     indices: dict[str, VertexIndex] = {}
-    rows = {name: snapshot.rows("vertices", name) for name in spec.vertex_types}
+    rows = {name: snapshot.rows("vertices", name) for name in spec.vertex_types if name in types}
     indexed = progress.task("index vertices", total=sum(rows.values()))
     encoded = progress.task("encode vertices", total=sum(rows.values()))
     for name, vt in spec.vertex_types.items():
+        if name not in types:
+            continue
         columns = [VERTEX_ID] + [p.name for p in vt.properties]
-        table = snapshot.vertices(name).select(columns)
-        fn = pseudonymizer(name, key) if key is not None else None
-        indices[name] = vi = index_vertices(
-            name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id
-        )
+        reused = (digest, "vertex-index", name, tuple(columns))
+        vi = memo.take(reused) if memo is not None and digest and not audit_only else None
+        if vi is None:
+            table = snapshot.vertices(name).select(columns)
+            fn = pseudonymizer(name, key) if key is not None else None
+            vi = index_vertices(name, table, pseudonymize=fn, first_rows=engine.first_rows_by_id)
+        if audit_only and memo is not None and digest:
+            memo.keep(reused, vi)  # the build of the same pipeline takes it
+        indices[name] = vi
         indexed.advance(rows[name])
         check_unique(vi)
         info.warnings += add_vertex_type(content, spec, vi, pinned, features=not audit_only)
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
         encoded.advance(rows[name])
-    edge_rows = sum(snapshot.rows("edges", rel.key.dotted) for rel in spec.relations)
+    chosen = [r for r in spec.relations if relations is None or r.key.dotted in relations]
+    edge_rows = sum(snapshot.rows("edges", rel.key.dotted) for rel in chosen)
     steps = {
         "mapped": progress.task("map edges", total=edge_rows),
         "policed": progress.task("police edges", total=edge_rows),
     }
     with engine.reporting(steps):  # the engine advances them as its queries finish
-        for rel in spec.relations:
+        for rel in chosen:
             _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
     if links_task := (spec.task.links if spec.task is not None else None):
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}

@@ -10,7 +10,7 @@ in snapshot order is kept; the others are counted and dropped.
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pyarrow as pa
@@ -30,10 +30,23 @@ class VertexIndex:
     public_ids: pa.Array  # what the bundle ships: the IDs or their pseudonyms
     table: pa.Table  # the kept rows (vertex_id + properties) in index order
     duplicates: int  # rows dropped because their ID repeated an earlier row's
+    _units: dict[int, np.ndarray] = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def count(self) -> int:
         return len(self.ids)
+
+    def unit_interval(self, seed: int) -> np.ndarray:
+        """:func:`~graphmill.transform._splits.stable_unit_interval` of the original IDs in
+        index order, computed once per seed (the check's audit and the build share it when
+        the build reuses this index; see ``_reuse.py``)."""
+        from graphmill.transform._splits import stable_unit_interval
+
+        if seed not in self._units:
+            units = stable_unit_interval(self.ids, seed)
+            units.setflags(write=False)  # shared between stages: never changed in place
+            self._units[seed] = units
+        return self._units[seed]
 
 
 def first_rows_by_id(ids: pa.Array | pa.ChunkedArray) -> np.ndarray:

@@ -72,6 +72,40 @@ def audit_content(content: BundleContent, spec: PipelineSpec) -> dict[str, Any] 
     return leakage_entry(severity, findings)
 
 
+def audit_reads(spec: PipelineSpec) -> tuple[set[str], set[str]]:
+    """The vertex types and relations (dotted) whose content :func:`audit_content` reads
+    under ``spec``'s severities: for ``feature-copies-label``, the labelled type only (its
+    table, labels or targets and parts; no edges); for a links task, each linked relation
+    (with its added reverse), the relations between the same two types (either way round)
+    when ``evaluation-pair-in-other-relation`` is on, and their endpoint types. What the
+    check stage computes for its audit, and nothing more (``assemble_content``)."""
+    severity = severities(spec)
+    links = spec.task.links if spec.task is not None else None
+    types: set[str] = set()
+    relations: set[str] = set()
+    if links is not None:
+        linked = [RelationKey.parse(d) for d in links.relations]
+        ends = {(k.source_type, k.target_type) for k in linked}
+        ends |= {(t, s) for s, t in ends}
+        others = severity["evaluation-pair-in-other-relation"] != "off"
+        for rel in spec.relations:
+            key = rel.key
+            if key.dotted in links.relations or (
+                others and (key.source_type, key.target_type) in ends
+            ):
+                relations.add(key.dotted)
+                types |= {key.source_type, key.target_type}
+    label = spec.label
+    copies = severity["feature-copies-label"] != "off"
+    if (
+        label is not None
+        and copies
+        and any(f.vertex_type == label.vertex_type for f in spec.features)
+    ):
+        types.add(label.vertex_type)
+    return types, relations
+
+
 def audit_links(
     content: BundleContent, spec: PipelineSpec, severity: dict[str, str]
 ) -> list[dict[str, Any]]:

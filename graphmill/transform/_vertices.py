@@ -27,7 +27,6 @@ from graphmill.transform._splits import (
     part_flags,
     part_positions,
     split_vertices,
-    stable_unit_interval,
 )
 from graphmill.transform._targets import refuse_float_classes
 from graphmill.transform._writer import BundleContent
@@ -142,7 +141,7 @@ def add_vertex_parts(
     fractions = (split.train, split.validation, split.test)
     part_of = split_vertices(
         codes,
-        stable_unit_interval(vi.ids, split.seed),  # original IDs, even when pseudonymized
+        vi.unit_interval(split.seed),  # original IDs, even when pseudonymized
         method=split.method,
         fractions=fractions,
         tolerance=split.tolerance,

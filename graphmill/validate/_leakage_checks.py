@@ -1,13 +1,20 @@
 """The leakage audit in the check report: the build's own rules on the build's own parts.
 
 Contract: :func:`leakage_checks` computes, from the snapshot and the spec, what the build
-computes before its audit (:func:`graphmill.transform._build.assemble_content`: vertex
-indices, labels or targets, the keyed-hash parts, each relation's edges and link parts; no
-feature encoders are fitted and no negatives drawn, since no rule reads them) and runs the
-build's audit (:func:`graphmill.transform._leakage_audit.audit_content`) on it. There is one
-copy of the rules; the check report's leakage findings equal the manifest's ``leakage``
-findings for the same snapshot and spec, except that samples name original IDs where a
-pseudonymized bundle names pseudonyms (every check sample names original IDs).
+computes before its audit (:func:`graphmill.transform._build.assemble_content` with
+``audit_only``), limited to what the applicable rules read
+(:func:`graphmill.transform._leakage_audit.audit_reads`): for ``feature-copies-label`` the
+labelled type's index, labels or targets and keyed-hash parts, and no edges at all; for a
+links task the linked relations' edges and link parts, the relations between the same two
+types (for ``evaluation-pair-in-other-relation``) and their endpoint types. No feature
+encoders are fitted and no negatives drawn. It then runs the build's audit
+(:func:`graphmill.transform._leakage_audit.audit_content`) on it. The vertex indices it makes
+(with their keyed-hash numbers) are left in the pipeline's memo (``graphmill/_reuse.py``) for
+the build of the same pipeline, which takes them instead of computing them again when the
+snapshot is unchanged. There is one copy of the rules; the check report's leakage findings
+equal the manifest's ``leakage`` findings for the same snapshot and spec, except that
+samples name original IDs where a pseudonymized bundle names pseudonyms (every check sample
+names original IDs).
 
 ``part-changed-since-previous`` needs the comparison of the new version with an earlier
 bundle, which compares written bundles: when a previous bundle is named (``--previous`` or
@@ -20,8 +27,8 @@ Subjects: each relation of a links task for ``evaluation-edge-in-training`` and
 ``evaluation-pair-in-other-relation`` (and ``training-edge-after-cut`` under ``by_time``);
 each feature property of the labelled type for ``feature-copies-label``. Severities are the
 spec's (``checks.severity``), ``off`` skips a rule as for every other rule. Computing the
-parts costs about what the build's first steps cost (see bench/bench_check_leakage.py);
-the time is logged at INFO (``-v``), never skipped.
+parts costs what the build's first steps cost for the types and relations read (see
+bench/bench_check_leakage.py); the time is logged at INFO (``-v``), never skipped.
 """
 
 from __future__ import annotations
@@ -33,6 +40,7 @@ import time
 from pathlib import Path
 from typing import Any
 
+from graphmill._reuse import StageMemo
 from graphmill.engine import Engine
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
@@ -71,10 +79,11 @@ def leakage_subjects(spec: PipelineSpec, severity: dict[str, str]) -> list[tuple
 
 
 def leakage_checks(
-    spec: PipelineSpec, snapshot: Snapshot, engine: Engine
+    spec: PipelineSpec, snapshot: Snapshot, engine: Engine, memo: StageMemo | None = None
 ) -> tuple[list[Finding], list[Evaluation]]:
     """The audit's findings and evaluations for the check report (none when no rule
-    applies: no links task and no feature of a labelled type)."""
+    applies: no links task and no feature of a labelled type). ``memo``: where the vertex
+    indices and keyed-hash numbers go for the build of the same pipeline to reuse."""
     from graphmill.transform._build import BuildInfo, assemble_content
     from graphmill.transform._leakage_audit import audit_content, severities
 
@@ -83,7 +92,7 @@ def leakage_checks(
         return [], []
     started = time.perf_counter()
     content = assemble_content(
-        spec, snapshot, engine, BuildInfo(spec.output.bundle), audit_only=True
+        spec, snapshot, engine, BuildInfo(spec.output.bundle), audit_only=True, memo=memo
     )
     entry = audit_content(content, spec)
     log.info(

@@ -27,6 +27,7 @@ from collections.abc import Callable, Iterator
 from pathlib import Path
 
 from graphmill._progress import Progress, SilentProgress
+from graphmill._reuse import StageMemo
 from graphmill.engine import Engine, open_engine
 from graphmill.errors import InputError
 from graphmill.snapshot import Snapshot
@@ -222,6 +223,7 @@ def run_checks(
     previous: Path | None = None,
     part_moves: bool = True,
     progress: Progress | None = None,
+    memo: StageMemo | None = None,
 ) -> Report:
     """Evaluate every rule that is not ``off`` on ``snapshot`` under ``spec``.
 
@@ -231,7 +233,8 @@ def run_checks(
     ``part_moves=False`` leaves that rule to the build that follows (``build`` and ``run``,
     whose build evaluates it on the bundle it writes and gates the same way).
     ``progress`` gets one task per rule with subjects, ``check <rule>``, advanced by the
-    rows of each subject's table as the subject is checked (:func:`subject_rows`).
+    rows of each subject's table as the subject is checked (:func:`subject_rows`). ``memo``:
+    where the leakage audit leaves its vertex indices for the build of the same pipeline.
 
     Raises :class:`~graphmill.errors.SpecError` for an unknown rule id in
     ``checks.severity``, :class:`~graphmill.errors.InputError` for a snapshot that lacks a
@@ -247,6 +250,7 @@ def run_checks(
                 previous=previous,
                 part_moves=part_moves,
                 progress=progress,
+                memo=memo,
             )
     severities = resolve_severities(spec)
     _require_declared_tables(spec, snapshot)
@@ -269,7 +273,7 @@ def run_checks(
             findings += found
             evaluated.append(Evaluation(rule_id, subject, _status(found)))
             task.advance(n)
-    leaks, audited = leakage_checks(spec, snapshot, engine)  # the build's leakage audit
+    leaks, audited = leakage_checks(spec, snapshot, engine, memo)  # the build's audit
     findings += leaks
     evaluated += audited
     previous = previous or spec.drift_gate.previous

@@ -12,12 +12,7 @@ import pyarrow.compute as pc
 
 from graphmill._text import plural
 from graphmill.connectors.base import VERTEX_ID
-from graphmill.validate._context import CheckContext, Outcome, counted, share, sorted_sample
-from graphmill.validate.rules import duplicate_counts, shared_ids
-
-
-def _sum(column: pa.Array | pa.ChunkedArray) -> int:
-    return int(pc.sum(column).as_py() or 0)
+from graphmill.validate._context import CheckContext, Outcome, counted, share
 
 
 def _sides(ctx: CheckContext, vertex_type: str) -> list[tuple[pa.Table | Path, str]]:
@@ -35,34 +30,31 @@ def check_duplicate_vertex_id(ctx: CheckContext, subject: dict[str, str]) -> Out
     """Vertex rows beyond the first for each id (count = extra copies)."""
     name = subject["vertex_type"]
     ids = ctx.vertices(name).column(VERTEX_ID)
-    dups = duplicate_counts(ids)
-    extra = _sum(dups.column("copies")) - dups.num_rows
-    records = pa.table({VERTEX_ID: dups.column("value"), "copies": dups.column("copies")})
+    found = ctx.engine.duplicate_vertex_ids(ids, ctx.sample_size)
+    extra, repeated = found.count, found.details["ids"]
     return Outcome(
         extra,
         len(ids),
-        f"{counted(dups.num_rows, 'vertex id')} of {name} occur more than once "
+        f"{counted(repeated, 'vertex id')} of {name} occur more than once "
         f"({counted(extra, 'extra row')} of {len(ids)}); make the ids unique in the source",
-        sorted_sample(records, ctx.sample_size),
-        {"ids": dups.num_rows},
+        found.sample,
+        {"ids": repeated},
     )
 
 
 def check_shared_ids(ctx: CheckContext, subject: dict[str, str]) -> Outcome:
     """IDs used by vertices of more than one type (count = such ids)."""
     ids = {t: ctx.vertices(t).column(VERTEX_ID) for t in ctx.vertex_types}
-    shared = shared_ids(ids)
-    every = pa.chunked_array([pc.unique(c.combine_chunks()) for c in ids.values()], pa.string())
-    total = len(pc.unique(every)) if len(every) else 0
-    sample = sorted_sample(shared.select([VERTEX_ID]), ctx.sample_size)
+    found = ctx.engine.shared_vertex_ids(ids, ctx.sample_size)
+    sample, total = found.sample, found.details["total"]
     picked = pa.array([r[VERTEX_ID] for r in sample], pa.string())
     holders = {t: pc.is_in(picked, value_set=c).to_pylist() for t, c in ids.items()}
     for i, record in enumerate(sample):
         record["vertex_types"] = sorted(t for t, flags in holders.items() if flags[i])
     return Outcome(
-        shared.num_rows,
+        found.count,
         total,
-        f"{shared.num_rows} of {total} vertex ids are used by vertices of several types; "
+        f"{found.count} of {total} vertex ids are used by vertices of several types; "
         "each names a different vertex in each type, so check that this is intended",
         sample,
     )

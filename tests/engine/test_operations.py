@@ -201,6 +201,19 @@ def test_check_operations(engines: tuple[Engine, Engine]) -> None:
             assert getattr(other, method)(*args) == expected, method
 
 
+def test_vertex_id_operations(engines: tuple[Engine, Engine]) -> None:
+    """``duplicate-vertex-ids`` on one type and ``shared-vertex-ids`` over up to 3 types,
+    IDs repeated within and across types (chunked columns, as a snapshot's are)."""
+
+    @examples(engines, st.lists(st.lists(IDS, max_size=12), max_size=3), st.integers(0, 4))
+    def _(reference: Engine, other: Engine, types: list[list[str]], k: int) -> None:
+        columns = {f"t{i}": pa.chunked_array([ids], pa.string()) for i, ids in enumerate(types)}
+        for column in columns.values():
+            expected = reference.duplicate_vertex_ids(column, k)
+            assert other.duplicate_vertex_ids(column, k) == expected
+        assert other.shared_vertex_ids(columns, k) == reference.shared_vertex_ids(columns, k)
+
+
 def test_canonical_order_of_other_key_types(engines: tuple[Engine, Engine]) -> None:
     """Keys of every type a staged table may hold, including those Spark cannot hold as they
     are (unsigned 64-bit, nanoseconds): the same order as the reference."""

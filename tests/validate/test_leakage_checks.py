@@ -17,9 +17,11 @@ import yaml
 from graphmill._schemas import validate_document
 from graphmill.cli import main
 from graphmill.errors import ExitCode
+from graphmill.pipeline import Pipeline
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec
 from graphmill.transform import build_bundle
+from graphmill.transform._leakage_audit import audit_reads
 from graphmill.validate import Report, run_checks
 from graphmill.validate._junit import junit_xml
 from graphmill.validate._leakage_checks import CHECKED
@@ -238,3 +240,36 @@ def test_build_leaves_part_moves_to_its_own_build(
     assert MOVES not in {e.rule for e in pipeline.last_report.evaluated}
     assert info.leakage is not None  # the build evaluated it (a warning by default)
     assert [f["rule"] for f in info.leakage["findings"]] == [MOVES]
+
+
+def test_the_audit_reads_only_what_its_rules_read(tmp_path: Path) -> None:
+    """The labelled type alone for feature-copies-label; a links task's relations between
+    the same types (and the types), and only the linked one when the cross-relation rule is
+    off."""
+    spec, _ = _karate(tmp_path / "karate")
+    assert audit_reads(spec) == ({"person"}, set())
+    spec, _ = les_miserables(tmp_path / "les")
+    both = {"character.meets.character", "character.echoes.character"}
+    assert audit_reads(spec) == ({"character"}, both)
+    spec, _ = les_miserables(tmp_path / "off", **{"evaluation-pair-in-other-relation": "off"})
+    assert audit_reads(spec) == ({"character"}, {"character.meets.character"})
+
+
+def _bundle_files(folder: Path) -> dict[str, bytes]:
+    return {str(p.relative_to(folder)): p.read_bytes() for p in folder.rglob("*") if p.is_file()}
+
+
+def test_the_build_reuses_the_checks_vertex_index(tmp_path: Path) -> None:
+    """Check then build in one pipeline takes the audit's vertex index (with its keyed-hash
+    numbers) instead of computing it again, and writes the same bytes as without it."""
+    spec, _ = _karate(tmp_path)
+    pipeline = Pipeline(spec)
+    report = pipeline.check()
+    assert len(pipeline._memo) == 1  # the labelled type's index, kept for the build
+    pipeline.build(report=report, even_if_failing=True)
+    assert len(pipeline._memo) == 0  # taken by the build, nothing held past it
+    reused = _bundle_files(spec.output.bundle)
+    report = pipeline.check()
+    pipeline._memo.clear()  # the build computes everything itself
+    pipeline.build(report=report, even_if_failing=True)
+    assert _bundle_files(spec.output.bundle) == reused

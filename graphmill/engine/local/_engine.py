@@ -7,7 +7,7 @@ this class inherits.
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -42,13 +42,15 @@ def _rows(n: int) -> pa.Array:
 class _Coded:
     """A check input named in the session (``raw``: a view over the file, or the registered
     Arrow table), its (id, code, as_source, as_target) dictionary, and what is derived from
-    it once per stage: the edges with coded endpoints and the flagged distinct pairs."""
+    it once per stage: the edges with coded endpoints and the distinct pairs (flagged with
+    whether the reverse is present only when reciprocity or one-way edges ask)."""
 
     raw: str
     ids: str
     width: int  # columns of the edge table
     edges: str | None = None
-    pairs: str | None = None
+    pairs: str | None = None  # distinct coded pairs with ``copies``
+    flagged: str | None = None  # the same with ``back`` (reverse present), when asked for
     keep: object = None  # the Arrow table, held so that its id() stays its own
 
 
@@ -71,6 +73,8 @@ class LocalEngine(ReferenceEngine):
             "reciprocity",
             "one-way-edges",
             "isolated-vertices",
+            "duplicate-vertex-ids",
+            "shared-vertex-ids",
         }
     )
 
@@ -99,20 +103,28 @@ class LocalEngine(ReferenceEngine):
         return c.edges
 
     def _pairs(self, c: _Coded) -> str:
-        """The distinct coded pairs with ``copies`` and ``back`` (reverse present): one table
-        from which dangling edges, loops, exact repeats (without properties), reciprocity
-        and one-way edges are all counted and sampled."""
+        """The distinct coded pairs with ``copies``: one table from which dangling edges,
+        loops and exact repeats (without properties) are counted and sampled."""
         if c.pairs is None:
-            s = self.session
-            counted = s.load_query(
+            c.pairs = self.session.load_query(
                 q.coded_pairs(c.raw, c.ids)
                 if c.edges is None  # straight from the input: coded edges never stored
                 else f"SELECT source_id, target_id, count(*) AS copies FROM {c.edges} "
                 "GROUP BY source_id, target_id"
             )
-            c.pairs = s.load_query(q.pair_flags(counted))
-            s.connection.execute(f"DROP TABLE {counted}")
         return c.pairs
+
+    def _flagged(self, c: _Coded) -> str:
+        """The distinct coded pairs with ``copies`` and ``back`` (the reverse pair is
+        present), for reciprocity and one-way edges: made only when one of them asks, so a
+        relation between two types never pays for the self-join; it replaces the plain
+        pairs table, which it holds whole."""
+        if c.flagged is None:
+            s = self.session
+            c.flagged = s.load_query(q.pair_flags(self._pairs(c)))
+            s.connection.execute(f"DROP TABLE {c.pairs}")
+            c.pairs = c.flagged
+        return c.flagged
 
     def _records(self, c: _Coded, sample: str, width: int) -> list[dict[str, Any]]:
         """A sample query's records, with coded endpoints decoded."""
@@ -326,7 +338,7 @@ class LocalEngine(ReferenceEngine):
         return Offenders(extra, sample, {"pairs": pairs})
 
     def reciprocity(self, edges: TableInput) -> Offenders:
-        pairs = self._pairs(self._checked(edges))
+        pairs = self._flagged(self._checked(edges))
         back, total = self.session.ints(
             f"SELECT count(*) FILTER (WHERE back AND source_id <> target_id), count(*) FROM {pairs}"
         )
@@ -334,7 +346,7 @@ class LocalEngine(ReferenceEngine):
 
     def one_way_edges(self, edges: TableInput, k: int) -> Offenders:
         c = self._checked(edges)
-        one_way = f"(SELECT * FROM {self._pairs(c)} WHERE NOT back)"
+        one_way = f"(SELECT * FROM {self._flagged(c)} WHERE NOT back)"
         count, distinct = self.session.ints(f"SELECT sum(copies), count(*) FROM {one_way}")
         sample = self._records(c, q.sample(one_way, ENDPOINTS, k), 2)
         return Offenders(count, sample, {"pairs": distinct})
@@ -351,4 +363,26 @@ class LocalEngine(ReferenceEngine):
             (count,) = s.ints(f"SELECT count(*) FROM {iso}")
             (total,) = s.ints(f"SELECT count(DISTINCT vertex_id) FROM {n['v']}")
             sample = s.records(q.sample(iso, ["vertex_id"], k))
+        return Offenders(count, sample, {"total": total})
+
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        s = self.session
+        vertices = pa.table({"vertex_id": _column(vertex_ids)})
+        with s.tables({"v": vertices}) as n, s.scratch(q.repeated_ids(n["v"])) as dup:
+            extra, ids = s.ints(f"SELECT sum(copies) - count(*), count(*) FROM {dup}")
+            sample = s.records(q.sample(dup, ["vertex_id", "copies"], k)) if ids else []
+        return Offenders(extra, sample, {"ids": ids})
+
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        if not ids_by_type:
+            return Offenders(0, [], {"total": 0})
+        s = self.session
+        tables = {
+            f"v{i}": pa.table({"vertex_id": _column(ids)})
+            for i, ids in enumerate(ids_by_type.values())
+        }
+        with s.tables(tables) as n, s.scratch(q.shared_ids(list(n.values()))) as shared:
+            (count,) = s.ints(f"SELECT count(*) FROM {shared}")
+            (total,) = s.ints(q.distinct_ids(list(n.values())))
+            sample = s.records(q.sample(shared, ["vertex_id"], k)) if count else []
         return Offenders(count, sample, {"total": total})

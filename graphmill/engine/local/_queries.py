@@ -225,3 +225,24 @@ def decoded(sample_query: str, ids: str, width: int) -> str:
         f"FROM ({sample_query}) x JOIN {ids} a ON x.source_id = a.code "
         f"JOIN {ids} b ON x.target_id = b.code ORDER BY {order}"
     )
+
+
+def repeated_ids(v: str) -> str:
+    """``duplicate-vertex-ids``: IDs of ``v`` (column ``vertex_id``) in several rows, with
+    ``copies``."""
+    return f"SELECT vertex_id, count(*) AS copies FROM {v} GROUP BY vertex_id HAVING count(*) > 1"
+
+
+def ids_of_types(vs: Sequence[str]) -> str:
+    """Each distinct ``vertex_id`` of each table in ``vs`` once per table."""
+    return " UNION ALL ".join(f"SELECT DISTINCT vertex_id FROM {v}" for v in vs)
+
+
+def shared_ids(vs: Sequence[str]) -> str:
+    """``shared-vertex-ids``: IDs held by more than one of the tables ``vs``."""
+    return f"SELECT vertex_id FROM ({ids_of_types(vs)}) x GROUP BY vertex_id HAVING count(*) > 1"
+
+
+def distinct_ids(vs: Sequence[str]) -> str:
+    """The number of distinct IDs over the tables ``vs``."""
+    return f"SELECT count(DISTINCT vertex_id) FROM ({ids_of_types(vs)}) x"

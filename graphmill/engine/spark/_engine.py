@@ -9,7 +9,7 @@ cannot drift apart; both are checked against the reference engine.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -79,6 +79,8 @@ class SparkEngine(ReferenceEngine):
             "reciprocity",
             "one-way-edges",
             "isolated-vertices",
+            "duplicate-vertex-ids",
+            "shared-vertex-ids",
         }
     )
 
@@ -276,4 +278,23 @@ class SparkEngine(ReferenceEngine):
             f"SELECT count(*), (SELECT count(DISTINCT vertex_id) FROM {v}) FROM {iso}"
         )
         sample = t.records(q.sample(iso, ["vertex_id"], k)) if count else []
+        return Offenders(count, sample, {"total": total})
+
+    def duplicate_vertex_ids(self, vertex_ids: Column, k: int) -> Offenders:
+        t = self.tables
+        v = t.arrow_view(_vertex_set(vertex_ids), "v")
+        dup = t.query_view(q.repeated_ids(v), "dupids", keep=True)
+        extra, ids = t.ints(f"SELECT sum(copies) - count(*), count(*) FROM {dup}")
+        sample = t.records(q.sample(dup, ["vertex_id", "copies"], k)) if ids else []
+        return Offenders(extra, sample, {"ids": ids})
+
+    def shared_vertex_ids(self, ids_by_type: Mapping[str, Column], k: int) -> Offenders:
+        if not ids_by_type:
+            return Offenders(0, [], {"total": 0})
+        t = self.tables
+        vs = [t.arrow_view(_vertex_set(ids), "v") for ids in ids_by_type.values()]
+        shared = t.query_view(q.shared_ids(vs), "shared", keep=True)
+        (count,) = t.ints(f"SELECT count(*) FROM {shared}")
+        (total,) = t.ints(q.distinct_ids(vs))
+        sample = t.records(q.sample(shared, ["vertex_id"], k)) if count else []
         return Offenders(count, sample, {"total": total})
