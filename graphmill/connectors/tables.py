@@ -245,6 +245,9 @@ def _typed(column: pa.Array, prop: PropertySpec, file: str) -> tuple[pa.Array, d
         counts = value_kinds_of(values)
         return values, {**counts, ILL_TYPED: lost} if lost else counts
     values = _lexical.blank_to_null(pc.cast(column, pa.string()))
+    if prop.kind == "string":  # every value is text: no pattern to try
+        present = len(values) - values.null_count
+        return values, ({"string": present} if present else {})
     return _lexical.typed_values(values, prop.kind, date_format=prop.date_format)
 
 
