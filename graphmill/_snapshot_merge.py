@@ -148,8 +148,9 @@ def scans_to_file(
 
 
 def property_columns(path: Path, schema: pa.Schema, id_columns: list[str]) -> pa.Table:
-    """The written file's property columns (what the personal-data scan reads)."""
+    """The property columns of the written file's first row group: the rows the
+    personal-data scan samples (its first ``privacy.SAMPLE`` rows, far fewer than a group)."""
     names = [n for n in schema.names if n not in id_columns]
     if not names:
         return pa.table({})
-    return pq.ParquetFile(path).read(columns=names)  # no dataset layer: a plain file
+    return pq.ParquetFile(path).read_row_group(0, columns=names)
