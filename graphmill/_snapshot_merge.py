@@ -17,11 +17,11 @@ from typing import TYPE_CHECKING, Any
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from graphmill._columns import decode_kinds, merge_kinds, value_kinds_of
+from graphmill._columns import decode_kinds, kind_of_type, merge_kinds, value_kinds_of
 from graphmill.errors import InputError
 
 if TYPE_CHECKING:
-    from graphmill.engine import Engine
+    from graphmill.engine import Engine, FileScan
 
 #: Types that every engine reads from and returns to Arrow unchanged.
 STREAMABLE = (pa.string(), pa.int64(), pa.float64(), pa.bool_(), pa.date32())
@@ -120,9 +120,37 @@ def merge_to_file(
     return write_batches(batches, schema, path, options, advance)
 
 
+def scans_to_file(
+    engine: Engine,
+    scans: Sequence[FileScan],
+    schema: pa.Schema,
+    path: Path,
+    options: dict[str, Any],
+    advance: Callable[[int], None] | None = None,
+) -> dict[str, dict[str, int]]:
+    """Input files straight into the snapshot file (``canonical-merge`` over
+    :class:`~graphmill.engine.FileScan` s): read once, written once. Returns the value-kind
+    profile of each property column (its non-null values, counted as they stream by; the
+    scans' columns have one type each, so one kind each)."""
+    names = [f.name for f in schema if f.nullable]
+    counts = dict.fromkeys(names, 0)
+
+    def counted(batches: Iterable[pa.RecordBatch]) -> Iterable[pa.RecordBatch]:
+        for batch in batches:
+            for name in names:
+                column = batch.column(name)
+                counts[name] += len(column) - column.null_count
+            yield batch
+
+    rows = engine.sorted_parts(scans, schema.names, schema.names)
+    write_batches(counted(rows), schema, path, options, advance)
+    return {n: ({kind_of_type(schema.field(n).type): c} if c else {}) for n, c in counts.items()}
+
+
 def property_columns(path: Path, schema: pa.Schema, id_columns: list[str]) -> pa.Table:
-    """The written file's property columns (what the personal-data scan reads)."""
+    """The property columns of the written file's first row group: the rows the
+    personal-data scan samples (its first ``privacy.SAMPLE`` rows, far fewer than a group)."""
     names = [n for n in schema.names if n not in id_columns]
     if not names:
         return pa.table({})
-    return pq.read_table(path, columns=names)
+    return pq.ParquetFile(path).read_row_group(0, columns=names)

@@ -42,8 +42,8 @@ from graphmill._columns import (
     value_kinds_of,
 )
 from graphmill._progress import Progress, ProgressTask, SilentProgress
-from graphmill._snapshot_gate import add_gate_facts, keys_where_absent
-from graphmill._snapshot_merge import merge_plan, merge_to_file, property_columns
+from graphmill._snapshot_gate import KEYS_KEPT, add_gate_facts, keys_where_absent
+from graphmill._snapshot_merge import merge_plan, merge_to_file, property_columns, scans_to_file
 from graphmill._version import __version__
 from graphmill.connectors._fingerprints import changes, publishable
 from graphmill.connectors.base import (
@@ -63,7 +63,7 @@ from graphmill.spec import PipelineSpec, PropertySpec, RelationKey
 _log = logging.getLogger("graphmill")
 
 if TYPE_CHECKING:
-    from graphmill.engine import Engine
+    from graphmill.engine import Engine, FileScan
 
 SNAPSHOT_FORMAT = 1
 SNAPSHOT_FILE = "snapshot.json"
@@ -227,8 +227,12 @@ def pull(
         units = source.plan()
         workers = max(1, min(source.capabilities.max_concurrency, len(units)))
         with source:
+            scans = _direct_scans(spec, source, units)
 
             def run(unit: WorkUnit) -> None:
+                if unit.unit_id in scans:  # read once, at the merge: nothing to stage
+                    stager.inputs[unit.unit_id] = source.fingerprint(unit)
+                    return
                 stager.stage(unit, progress.task(f"pull {unit.table} {unit.name}"))
 
             if workers == 1:
@@ -253,7 +257,17 @@ def pull(
             shutil.rmtree(stager.root, ignore_errors=True)
             _remove_empty(created)
         raise
-    info = publish_snapshot(spec, stager, units, provenance, discovery, keys, progress=progress)
+    info = publish_snapshot(
+        spec,
+        stager,
+        units,
+        provenance,
+        discovery,
+        keys,
+        progress=progress,
+        scans=scans,
+        keys_of=source.property_keys,
+    )
     shutil.rmtree(stager.root, ignore_errors=True)
     info.units_total = len(units)
     info.units_resumed = stager.units_resumed
@@ -265,6 +279,28 @@ def pull(
     ] + info.warnings
     info.seconds = time.perf_counter() - started
     return info
+
+
+def _direct_scans(
+    spec: PipelineSpec, source: GraphSource, units: list[WorkUnit]
+) -> dict[str, tuple[list[FileScan], pa.Schema]]:
+    """The units read straight from their input files at the merge (unit id -> scans and
+    snapshot schema): when the engine reads input files itself, for tables of one unit whose
+    source offers scans (:meth:`GraphSource.scans`). The others are staged."""
+    from graphmill.engine import engine_class
+
+    if not engine_class(spec.engine.kind).reads_input_files or spec.rdf.graph_property:
+        return {}
+    tables: dict[tuple[str, str], list[WorkUnit]] = {}
+    for unit in units:
+        tables.setdefault((unit.table, unit.name), []).append(unit)
+    out = {}
+    for mine in tables.values():
+        if len(mine) == 1 and mine[0].facet is None:
+            plan = source.scans(mine[0])
+            if plan is not None:
+                out[mine[0].unit_id] = plan
+    return out
 
 
 def _first_missing_ancestor(path: Path) -> Path | None:
@@ -456,7 +492,14 @@ def publish_snapshot(
     source_keys: dict[tuple[str, str], list[str]] | None = None,
     *,
     progress: Progress | None = None,
+    scans: dict[str, tuple[list[FileScan], pa.Schema]] | None = None,
+    keys_of: Callable[[WorkUnit], list[str] | None] | None = None,
 ) -> PullInfo:
+    """Merge what the pull staged (and read the ``scans`` units straight from their input
+    files) into the snapshot, published atomically. ``keys_of(unit)``: the source's property
+    keys, asked for scanned tables where a declared property has no value at all."""
+    scans = scans or {}
+    source_keys = dict(source_keys or {})
     tables: list[dict[str, Any]] = []
     warnings: list[str] = []
     vertex_counts: dict[str, int] = {}
@@ -474,6 +517,7 @@ def publish_snapshot(
             mine = [u for u in units if u.table == "vertices" and u.name == name]
             declared = list(vt.properties) + extra
             rel_path = f"vertices/{name}.parquet"
+            direct = None
             if any(u.facet for u in mine):
                 table, kinds, collapsed = faceted_table(stager, mine, declared, engine=engine)
                 warnings += [
@@ -482,6 +526,11 @@ def publish_snapshot(
                     for prop, n in collapsed.items()
                 ]
                 write_parquet(table, scratch / rel_path)
+            elif (direct := _scanned(scans, mine)) is not None:
+                table, kinds = _scanned_table(
+                    engine, direct, scratch / rel_path, progress, f"vertices {name}"
+                )
+                _ask_keys(source_keys, ("vertices", name), scratch / rel_path, kinds, mine, keys_of)
             else:
                 table, kinds = _merged_table(
                     engine,
@@ -496,26 +545,34 @@ def publish_snapshot(
             )
             entry = _table_entry("vertices", name, rel_path, scratch, kinds)
             vertex_counts[name] = entry["rows"]
-            add_gate_facts(entry, stager.parts(mine), [VERTEX_ID], scratch, source_keys)
+            staged = [] if direct is not None else stager.parts(mine)
+            add_gate_facts(entry, staged, [VERTEX_ID], scratch, source_keys)
             tables.append(entry)
         for rel in spec.relations:
             dotted = rel.key.dotted
             mine = [u for u in units if u.table == "edges" and u.name == dotted]
             rel_path = f"edges/{dotted}.parquet"
-            table, kinds = _merged_table(
-                engine,
-                stager.parts(mine),
-                [SOURCE_ID, TARGET_ID],
-                list(rel.properties),
-                scratch / rel_path,
-                progress.task(f"merge edges {dotted}", total=_staged_rows(stager, mine)),
-            )
+            if (direct := _scanned(scans, mine)) is not None:
+                table, kinds = _scanned_table(
+                    engine, direct, scratch / rel_path, progress, f"edges {dotted}"
+                )
+                _ask_keys(source_keys, ("edges", dotted), scratch / rel_path, kinds, mine, keys_of)
+            else:
+                table, kinds = _merged_table(
+                    engine,
+                    stager.parts(mine),
+                    [SOURCE_ID, TARGET_ID],
+                    list(rel.properties),
+                    scratch / rel_path,
+                    progress.task(f"merge edges {dotted}", total=_staged_rows(stager, mine)),
+                )
             warnings += personal_data_warnings(
                 dotted, table, {p.name: p.source_key for p in rel.properties}
             )
             entry = _table_entry("edges", dotted, rel_path, scratch, kinds)
             edge_counts[dotted] = entry["rows"]
-            add_gate_facts(entry, stager.parts(mine), [SOURCE_ID, TARGET_ID], scratch, source_keys)
+            staged = [] if direct is not None else stager.parts(mine)
+            add_gate_facts(entry, staged, [SOURCE_ID, TARGET_ID], scratch, source_keys)
             tables.append(entry)
         document = {
             "snapshot_format": SNAPSHOT_FORMAT,
@@ -556,6 +613,48 @@ def _merged_table(
     schema, kinds = plan
     merge_to_file(engine, parts, schema, path, PARQUET_OPTIONS, advance=task.advance)
     return property_columns(path, schema, id_columns), kinds
+
+
+def _scanned(
+    scans: dict[str, tuple[list[FileScan], pa.Schema]], units: list[WorkUnit]
+) -> tuple[list[FileScan], pa.Schema] | None:
+    """The scans of a table read straight from its input files, or None (it was staged)."""
+    return scans.get(units[0].unit_id) if len(units) == 1 else None
+
+
+def _scanned_table(
+    engine: Engine,
+    direct: tuple[list[FileScan], pa.Schema],
+    path: Path,
+    progress: Progress,
+    what: str,
+) -> tuple[pa.Table, dict[str, dict[str, int]]]:
+    """A table read from its input files into ``path``: its property columns (for the
+    personal-data scan) and value-kind profiles."""
+    found, schema = direct
+    total = sum(pq.read_metadata(f.path).num_rows for f in found)  # before any selector
+    task = progress.task(f"pull and merge {what}", total=total)
+    kinds = scans_to_file(engine, found, schema, path, PARQUET_OPTIONS, advance=task.advance)
+    ids = [f.name for f in schema if not f.nullable]
+    return property_columns(path, schema, ids), kinds
+
+
+def _ask_keys(
+    keys: dict[tuple[str, str], list[str]],
+    table_key: tuple[str, str],
+    path: Path,
+    kinds: dict[str, dict[str, int]],
+    units: list[WorkUnit],
+    keys_of: Callable[[WorkUnit], list[str] | None] | None,
+) -> None:
+    """As :func:`graphmill._snapshot_gate.keys_where_absent` does for staged tables: the
+    source's property keys when a declared property of a table with rows has no value."""
+    if keys_of is None or not any(sum(k.values()) == 0 for k in kinds.values()):
+        return
+    if pq.read_metadata(path).num_rows:
+        found = keys_of(units[0])
+        if found is not None:
+            keys[table_key] = sorted(found)[:KEYS_KEPT]
 
 
 def _staged_rows(stager: Stager, units: list[WorkUnit]) -> int:

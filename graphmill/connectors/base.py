@@ -39,12 +39,15 @@ from __future__ import annotations
 from abc import ABC, abstractmethod
 from collections.abc import Iterator
 from dataclasses import dataclass, field
-from typing import Any, ClassVar, Literal
+from typing import TYPE_CHECKING, Any, ClassVar, Literal
 
 import pyarrow as pa
 
 from graphmill._progress import Progress, SilentProgress
 from graphmill.spec import PipelineSpec, RelationKey
+
+if TYPE_CHECKING:
+    from graphmill.engine import FileScan
 
 VERTEX_ID = "vertex_id"
 #: staged part columns holding ``Page.raw`` are named RAW_PREFIX + property name
@@ -155,6 +158,14 @@ class GraphSource(ABC):
         a few hundred, sorted; None if the source cannot tell. Called, while the source is
         open, only for tables where a declared property has no value at all, so that the
         check can suggest the key the spec probably meant."""
+        return None
+
+    def scans(self, unit: WorkUnit) -> tuple[list[FileScan], pa.Schema] | None:
+        """The input files ``unit`` reads, as :class:`~graphmill.engine.FileScan` s that give
+        exactly its staged rows, and the snapshot schema; None (the default) when the unit
+        must be read page by page. An engine that reads input files itself then writes the
+        snapshot table straight from them, with no staged copy (see
+        :mod:`graphmill.connectors._table_scans`)."""
         return None
 
     def discover(self) -> dict[str, Any] | None:

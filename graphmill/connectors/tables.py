@@ -27,6 +27,7 @@ from graphmill.connectors._declared import accepted_kinds, apply_declared, ill_t
 from graphmill.connectors._fingerprints import FileFingerprints
 from graphmill.connectors._lexical import ILL_TYPED
 from graphmill.connectors._table_columns import first_missing, key_text, property_values
+from graphmill.connectors._table_scans import Entry, scan_plan
 from graphmill.connectors.base import (
     SOURCE_ID,
     TARGET_ID,
@@ -37,6 +38,7 @@ from graphmill.connectors.base import (
     SourceCapabilities,
     WorkUnit,
 )
+from graphmill.engine import FileScan
 from graphmill.errors import GraphmillError, InputError, SourceUnavailableError, SpecError
 from graphmill.spec import PipelineSpec, PropertySpec, RelationSpec
 
@@ -111,6 +113,36 @@ class TableFilesSource(GraphSource):
                 else:
                     names.update(read_header(path, entry.get("delimiter", ",")))
         return sorted(names)
+
+    def scans(self, unit: WorkUnit) -> tuple[list[FileScan], pa.Schema] | None:
+        """The unit's Parquet files as scans, when no value needs the gate (see
+        :mod:`graphmill.connectors._table_scans`); None for CSV and the other cases."""
+        entries: list[Entry] = []
+        if unit.table == "vertices":
+            vt = self.spec.vertex_types[unit.name]
+            properties = vt.properties
+            for entry in self._unit_entries(unit):
+                select = (entry["type_column"], vt.match) if "type_column" in entry else None
+                entries.append(self._entry(entry, (entry["id_column"],), select))
+            id_names = [VERTEX_ID]
+        else:
+            rel = self.spec.relation(unit.relation)
+            properties = rel.properties
+            for entry in self._unit_entries(unit):
+                select = None
+                if "relation" not in entry:
+                    self._check_unique_match(rel)
+                    select = (entry["relation_column"], rel.match)
+                ends = (entry["source_column"], entry["target_column"])
+                entries.append(self._entry(entry, ends, select))
+            id_names = [SOURCE_ID, TARGET_ID]
+        return scan_plan(entries, id_names, properties)
+
+    def _entry(
+        self, entry: dict[str, Any], ids: tuple[str, ...], select: tuple[str, str] | None
+    ) -> Entry:
+        path = self.spec.resolve_path(entry["path"])
+        return Entry(path, ids, select, parquet=_format(path, entry) == "parquet")
 
     def read(self, unit: WorkUnit, cursor: str | None = None) -> Iterator[Page]:
         if unit.table == "vertices":
@@ -213,6 +245,9 @@ def _typed(column: pa.Array, prop: PropertySpec, file: str) -> tuple[pa.Array, d
         counts = value_kinds_of(values)
         return values, {**counts, ILL_TYPED: lost} if lost else counts
     values = _lexical.blank_to_null(pc.cast(column, pa.string()))
+    if prop.kind == "string":  # every value is text: no pattern to try
+        present = len(values) - values.null_count
+        return values, ({"string": present} if present else {})
     return _lexical.typed_values(values, prop.kind, date_format=prop.date_format)
 
 

@@ -7,7 +7,7 @@ code every engine is checked against), and any registered in the ``graphmill.eng
 entry-point group.
 """
 
-from graphmill.engine._base import Engine
+from graphmill.engine._base import Engine, FileScan
 from graphmill.engine._contracts import OPERATIONS, REFERENCE_ONLY, Offenders, Operation
 from graphmill.engine._registry import (
     BUILTIN_ENGINES,
@@ -26,6 +26,7 @@ __all__ = [
     "OPERATIONS",
     "REFERENCE_ONLY",
     "Engine",
+    "FileScan",
     "Offenders",
     "Operation",
     "available_engines",

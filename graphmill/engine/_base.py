@@ -14,11 +14,13 @@ from __future__ import annotations
 from abc import ABC, abstractmethod
 from collections.abc import Iterator, Mapping, Sequence
 from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar, TypeAlias
 
 import numpy as np
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from graphmill._progress import ProgressTask
@@ -32,6 +34,39 @@ Column: TypeAlias = pa.Array | pa.ChunkedArray
 #: A table given to an operation: in memory, or a Parquet file (a snapshot's) that an engine
 #: may scan itself without the rows ever entering Python.
 TableInput: TypeAlias = pa.Table | Path
+
+
+@dataclass(frozen=True, eq=False)
+class FileScan:
+    """An input Parquet file read as rows of a snapshot table, for ``canonical-merge``: each
+    field of ``schema`` (the table's) is the file's column named at the same place in
+    ``sources``, cast to the field's type (integer IDs become their decimal text); text
+    columns named in ``blank`` hold null for empty text; with ``where`` = (column, value),
+    only the rows whose ``column``, as text, equals ``value`` are read."""
+
+    path: Path
+    schema: pa.Schema
+    sources: tuple[str, ...]
+    blank: frozenset[str] = frozenset()
+    where: tuple[str, str] | None = None
+
+    def read(self) -> pa.Table:
+        """The scan's rows, in the file's order (pyarrow; engines may do it themselves)."""
+        needed = list(dict.fromkeys([*self.sources, *([self.where[0]] if self.where else [])]))
+        table = pq.read_table(self.path, columns=needed)
+        if self.where is not None:
+            selector = table.column(self.where[0]).cast(pa.string())
+            table = table.filter(pc.fill_null(pc.equal(selector, self.where[1]), False))
+        columns = []
+        for field, source in zip(self.schema, self.sources, strict=True):
+            column = table.column(source)
+            if pa.types.is_dictionary(column.type):
+                column = column.cast(column.type.value_type)
+            column = column.cast(field.type)
+            if field.name in self.blank:
+                column = pc.if_else(pc.equal(column, ""), pa.scalar(None, field.type), column)
+            columns.append(column)
+        return pa.Table.from_arrays(columns, schema=self.schema)
 
 
 class Engine(ABC):
@@ -76,13 +111,22 @@ class Engine(ABC):
         ``canonical-order``)."""
 
     def sorted_parts(
-        self, parts: Sequence[Path], columns: Sequence[str], keys: Sequence[str]
+        self, parts: Sequence[Path | FileScan], columns: Sequence[str], keys: Sequence[str]
     ) -> Iterator[pa.RecordBatch]:
-        """``columns`` of the rows of ``parts`` (Parquet files of one schema) in canonical
-        order by ``keys`` (contract: ``canonical-merge``). This default reads the parts into
-        memory and applies :meth:`canonical_order`; an engine may stream instead."""
-        table = pa.concat_tables([pq.read_table(p, columns=list(columns)) for p in parts])
+        """``columns`` of the rows of ``parts`` (Parquet files of one schema: staged parts,
+        or input files read through a :class:`FileScan`) in canonical order by ``keys``
+        (contract: ``canonical-merge``). This default reads the parts into memory and
+        applies :meth:`canonical_order`; an engine may stream instead."""
+        tables = [
+            p.read() if isinstance(p, FileScan) else pq.read_table(p, columns=list(columns))
+            for p in parts
+        ]
+        table = pa.concat_tables(tables).select(list(columns))
         yield from table.take(self.canonical_order(table, keys)).to_batches()
+
+    #: Whether :meth:`sorted_parts` reads input files (:class:`FileScan`) without a staged
+    #: copy cheaper than staging them; the pull stages table files for the other engines.
+    reads_input_files: ClassVar[bool] = False
 
     # ------------------------------------------------------------------ build
     @abstractmethod

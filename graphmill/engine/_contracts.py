@@ -93,7 +93,9 @@ OPERATIONS: dict[str, Operation] = {
             """The rows of staged Parquet parts that share one schema, in the order of
             ``canonical-order`` over the parts' rows taken in turn (ties keep that order),
             streamed as record batches, so that the snapshot's writer cuts the same row groups
-            whatever the engine.""",
+            whatever the engine. The parts may instead be input files read through
+            ``FileScan`` s (columns cast, empty text as null where asked, rows selected by a
+            text column): the same rows the staged route gives, with no staged copy.""",
         ),
         _op(
             "vertex-index",

@@ -16,11 +16,12 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from graphmill.engine._base import Column, TableInput
+from graphmill.engine._base import Column, FileScan, TableInput
 from graphmill.engine._contracts import Offenders
 from graphmill.engine.local import _queries as q
-from graphmill.engine.local._session import Session
+from graphmill.engine.local._session import QueryError, Session
 from graphmill.engine.reference import ReferenceEngine
+from graphmill.errors import InputError
 from graphmill.transform._edges import DROP_REASONS, EdgeOutcome, resolved_outcome
 
 ENDPOINTS = ["source_id", "target_id"]
@@ -58,6 +59,7 @@ class LocalEngine(ReferenceEngine):
     """Embedded DuckDB: multi-threaded, spills to disk under ``engine.memory_limit``."""
 
     kind = "local"
+    reads_input_files = True
     native = frozenset(
         {
             "canonical-order",
@@ -157,15 +159,50 @@ class LocalEngine(ReferenceEngine):
             return self.session.positions(q.order_by(keys, "gm_row").format(t=n["t"]))
 
     def sorted_parts(
-        self, parts: Sequence[Path], columns: Sequence[str], keys: Sequence[str]
+        self, parts: Sequence[Path | FileScan], columns: Sequence[str], keys: Sequence[str]
     ) -> Iterator[pa.RecordBatch]:
         """Scanned and sorted by DuckDB (spilling under the memory limit) and streamed: the
-        parts are never held in Python. Ties keep the parts' order, then their row order."""
+        parts are never held in Python. Ties keep the parts' order, then their row order.
+        Input files (:class:`FileScan`) are read, cast and filtered in the same query."""
         if not parts:
             return
-        files = [str(p) for p in parts]
+        if all(isinstance(p, FileScan) for p in parts):
+            yield from self._sorted_scans([p for p in parts if isinstance(p, FileScan)], keys)
+            return
+        files = [str(p) for p in parts if isinstance(p, Path)]
+        if len(files) != len(parts):
+            yield from super().sorted_parts(parts, columns, keys)
+            return
         floats = any(pa.types.is_floating(t) for t in pq.read_schema(parts[0]).types)
         yield from self.session.batches(q.sorted_parts(files, columns, keys, ties=floats))
+
+    def _sorted_scans(self, scans: list[FileScan], keys: Sequence[str]) -> Iterator[pa.RecordBatch]:
+        schema = scans[0].schema
+        ties = any(pa.types.is_floating(t) for t in schema.types)
+        queries = [
+            q.scanned(
+                str(scan.path),
+                [
+                    (f.name, source, q.SQL_TYPES[f.type])
+                    for f, source in zip(scan.schema, scan.sources, strict=True)
+                ],
+                sorted(scan.blank),
+                scan.where,
+                rank,
+                ties=ties,
+            )
+            for rank, scan in enumerate(scans)
+        ]
+        try:
+            yield from self.session.batches(q.sorted_scans(queries, list(keys), ties=ties))
+        except QueryError as exc:
+            files = ", ".join(str(s.path) for s in scans)
+            text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+            raise InputError(
+                f"cannot read the file: {text[:200]}",
+                file=files,
+                hint="fix the file or its entry in the spec",
+            ) from None
 
     # ------------------------------------------------------------------ build
     def first_rows_by_id(self, ids: Column) -> np.ndarray:

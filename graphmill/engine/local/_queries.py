@@ -49,6 +49,53 @@ def sorted_parts(
     )
 
 
+SQL_TYPES = {
+    pa.string(): "VARCHAR",
+    pa.int64(): "BIGINT",
+    pa.float64(): "DOUBLE",
+    pa.bool_(): "BOOLEAN",
+    pa.date32(): "DATE",
+}
+
+
+def scanned(
+    path: str,
+    fields: Sequence[tuple[str, str, str]],
+    blank: Sequence[str],
+    where: tuple[str, str] | None,
+    rank: int,
+    *,
+    ties: bool,
+) -> str:
+    """One input file's rows as a snapshot table's (a ``FileScan``): ``fields`` are
+    (snapshot column, file column, SQL type); ``blank`` columns hold null for empty text;
+    ``where`` = (column, value) keeps rows whose column reads as that text. With ``ties``,
+    ``gm_rank`` (the scan's place) and ``gm_row`` (the row's place in the file) come too."""
+    columns = []
+    for name, source, sql_type in fields:
+        value = f"CAST({quote(source)} AS {sql_type})"
+        if name in blank:
+            value = f"nullif({value}, '')"
+        columns.append(f"{value} AS {quote(name)}")
+    if ties:
+        columns += [f"{rank} AS gm_rank", "file_row_number AS gm_row"]
+    option = ", file_row_number = true" if ties else ""
+    query = f"SELECT {', '.join(columns)} FROM read_parquet({literal(path)}{option})"
+    if where is not None:
+        query += f" WHERE CAST({quote(where[0])} AS VARCHAR) = {literal(where[1])}"
+    return query
+
+
+def sorted_scans(scans: Sequence[str], columns: Sequence[str], *, ties: bool) -> str:
+    """``canonical-merge`` over input files: the union of ``scans`` (:func:`scanned`) in
+    canonical order by ``columns``; with ``ties``, equal keys keep scan, then row order."""
+    order = ", ".join(f"{quote(k)} ASC NULLS LAST" for k in columns)
+    if ties:
+        order += ", gm_rank, gm_row"
+    union = " UNION ALL ".join(f"({s})" for s in scans)
+    return f"SELECT {', '.join(quote(c) for c in columns)} FROM ({union}) ORDER BY {order}"
+
+
 def first_rows(table: str) -> str:
     """``vertex-index``: first row per ID, in ID order."""
     return f"SELECT min(row) AS row FROM {table} GROUP BY id ORDER BY id"

@@ -32,6 +32,8 @@ except ImportError as exc:  # pragma: no cover - duckdb is a core dependency
         hint="install it with: pip install duckdb, or set engine.kind: reference",
     ) from exc
 
+#: What DuckDB raises for a query that fails (e.g. a file it cannot read).
+QueryError = duckdb.Error
 _names = itertools.count()
 #: DuckDB's share when ``engine.memory_limit`` is not set (DuckDB's own default is 80% of the
 #: machine's memory, which lets a big graph crowd out everything else): enough for the sorts
