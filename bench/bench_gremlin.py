@@ -1,33 +1,43 @@
 """Benchmark: pulling edges out of a real TinkerPop Gremlin Server (TinkerGraph).
 
-Starts one Gremlin Server (servers/manage.py), writes a graph of users and ``follows``
-edges into it through bytecode (``inject(maps).unfold().mergeV()/mergeE()``), then, for each
-size, measures in a fresh Python process each (so peak memory is the measurement's own):
+For each size, writes a graph of users and ``follows`` edges as a GraphSON 3 file (one
+vertex a line, with its incoming edges) that the server's TinkerGraph reads when it starts
+(``servers.manage.GremlinServer(data_dir=...)``: seconds, not the minutes that writing
+through traversals takes), checks the loaded counts, then measures in a fresh Python process
+each (so peak memory is the measurement's own):
 
 * ``paged p1`` / ``paged p2``: the gremlin source reading the relation's work units
   (1 or 2 id-range partitions, pulled concurrently), id-ordered streams cut into pages;
 * ``fingerprint``: the input fingerprint a pull records per unit before reading it (item
   count and digests of the smallest and largest id: three streaming server-side aggregates),
   so its cost can be set against ``paged p1``;
-* ``single``: one unpaged traversal returning the same rows (id, out id, in id, weight)
-  in a single request through gremlinpython's ``Client`` (``.all().result()``), which
-  holds the whole result in client memory.
+* ``streamed``: one bare traversal returning the same rows (id, out id, in id, weight)
+  through gremlinpython's ``Client``, its result batches counted and dropped as they arrive;
+* ``single``: the same traversal collected whole (``.all().result()``), which holds the
+  whole result in client memory;
+* ``pull``: ``graphmill.snapshot.pull`` of the whole spec (users and follows) into a
+  snapshot, with the peak up to the end of reading and the peak of the whole pull (the
+  snapshot's merge runs on the local engine, DuckDB, within its ``memory_limit``).
 
-Figures: rows, seconds, edges/s, and the client's peak RSS above its RSS before the
-measured work (``getrusage`` maximum minus the baseline). Printed, never asserted.
+Figures: rows, seconds, CPU seconds of the client process, edges/s, the client's peak RSS
+(``VmHWM``) and its growth above the RSS before the measured work (``VmRSS``, after
+imports). Printed, never asserted.
 
 Usage (from the repo root)::
 
     .venv/bin/python bench/bench_gremlin.py                  # 100k and 1M edges
-    .venv/bin/python bench/bench_gremlin.py --sizes 100000   # just 100k
+    .venv/bin/python bench/bench_gremlin.py --sizes 1000000 5000000 \\
+        --methods paged-p1 streamed --heap 8g                # the issue-11 scale run
 """
 
 from __future__ import annotations
 
 import argparse
 import json
-import random
+import os
+import queue
 import resource
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -50,46 +60,77 @@ def _g() -> Any:
     return GraphTraversalSource(Graph(), TraversalStrategies())
 
 
-def load(url: str, users: int, first_edge: int, last_edge: int, seed: int) -> float:
-    """Write users (once, when ``first_edge`` is 0) and edges [first_edge, last_edge)."""
-    from gremlin_python.driver.client import Client
-    from gremlin_python.process.traversal import Direction, T
+def write_graph(path: Path, users: int, edges: int, seed: int) -> None:
+    """A GraphSON 3 adjacency file TinkerGraph reads at start: users ``u<i>`` (``age``,
+    an int) and edges ``e<i>`` between random users (``weight``, a double), each edge
+    written once, among its in-vertex's ``inE`` (the reader adds edges from those)."""
+    import numpy as np
 
-    rng = random.Random(seed + first_edge)
-    client = Client(url, "g")
-    started = time.perf_counter()
-    try:
-        if first_edge == 0:
-            for s in range(0, users, 5000):
-                rows = [
-                    {T.id: f"u{i}", T.label: LABEL_V, "age": i % 90}
-                    for i in range(s, min(users, s + 5000))
-                ]
-                client.submit(_g().inject(rows).unfold().merge_v().count().bytecode).all().result()
-        for s in range(first_edge, last_edge, 10_000):
-            rows = [
-                {
-                    T.id: f"e{i}",
-                    T.label: LABEL_E,
-                    Direction.OUT: f"u{rng.randrange(users)}",
-                    Direction.IN: f"u{rng.randrange(users)}",
-                    "weight": rng.random(),
-                }
-                for i in range(s, min(last_edge, s + 10_000))
-            ]
-            client.submit(_g().inject(rows).unfold().merge_e().count().bytecode).all().result()
-    finally:
-        client.close()
-    return time.perf_counter() - started
+    rng = np.random.default_rng(seed)
+    out_v = rng.integers(users, size=edges)
+    in_v = rng.integers(users, size=edges)
+    weight = rng.random(edges)
+    order = np.argsort(in_v, kind="stable")
+    ends = np.searchsorted(in_v[order], np.arange(users + 1))
+    double = '{"@type":"g:Double","@value":'
+    with path.open("w", encoding="utf-8") as f:
+        for v in range(users):
+            mine = order[ends[v] : ends[v + 1]].tolist()
+            outs = out_v[mine].tolist()
+            weights = weight[mine].tolist()
+            incoming = ",".join(
+                f'{{"id":"e{e}","outV":"u{o}","properties":{{"weight":{double}{w!r}}}}}}}'
+                for e, o, w in zip(mine, outs, weights, strict=True)
+            )
+            in_e = f'"inE":{{"{LABEL_E}":[{incoming}]}},' if mine else ""
+            f.write(
+                f'{{"id":"u{v}","label":"{LABEL_V}",{in_e}"properties":{{"age":[{{"id":'
+                f'{{"@type":"g:Int64","@value":{v}}},"value":{{"@type":"g:Int32","@value":'
+                f"{v % 90}}}}}]}}}}\n"
+            )
 
 
-def _peak_mib() -> float:
+def _status_mib(field: str) -> float:
+    """``VmHWM`` (peak) or ``VmRSS`` of this process in MiB (``ru_maxrss`` would carry the
+    parent's peak across ``exec`` on Linux)."""
+    for line in Path("/proc/self/status").read_text().splitlines():
+        if line.startswith(f"{field}:"):
+            return int(line.split()[1]) / 1024
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def _spec(url: str, partitions: int, page_size: int) -> Any:
+def _cpu_s() -> float:
+    usage = resource.getrusage(resource.RUSAGE_SELF)
+    return usage.ru_utime + usage.ru_stime
+
+
+class _Measured:
+    """Wall and CPU seconds, baseline RSS and peak RSS of the work inside ``with``."""
+
+    def __enter__(self) -> _Measured:
+        self.baseline = _status_mib("VmRSS")
+        self.cpu, self.started = _cpu_s(), time.perf_counter()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.seconds = time.perf_counter() - self.started
+        self.cpu_s = _cpu_s() - self.cpu
+
+    def figures(self, rows: int) -> dict[str, Any]:
+        peak = _status_mib("VmHWM")
+        return {
+            "rows": rows,
+            "seconds": self.seconds,
+            "cpu_s": self.cpu_s,
+            "peak_mib": peak,
+            "growth_mib": peak - self.baseline,
+        }
+
+
+def _spec(url: str, partitions: int, page_size: int, out: Path | None = None) -> Any:
     from graphmill.spec import spec_from_dict
 
+    out = out or Path(tempfile.gettempdir()) / "bench-gremlin-unused"
     return spec_from_dict(
         {
             "spec_version": 1,
@@ -99,9 +140,9 @@ def _spec(url: str, partitions: int, page_size: int) -> Any:
                 "partitions": partitions,
                 "concurrency": partitions,
                 "page_size": page_size,
-                "request_timeout_s": 600,
+                "request_timeout_s": 1800,
             },
-            "vertex_types": {"user": {"match": LABEL_V}},
+            "vertex_types": {"user": {"match": LABEL_V, "properties": {"age": {}}}},
             "relations": [
                 {
                     "from": "user",
@@ -111,7 +152,7 @@ def _spec(url: str, partitions: int, page_size: int) -> Any:
                     "properties": {"weight": {}},
                 }
             ],
-            "output": {"bundle": str(Path(tempfile.gettempdir()) / "bench-gremlin-unused")},
+            "output": {"bundle": str(out / "bundle"), "snapshot": str(out / "snapshot")},
         }
     )
 
@@ -119,15 +160,9 @@ def _spec(url: str, partitions: int, page_size: int) -> Any:
 def measure_fingerprint(url: str) -> dict[str, Any]:
     from graphmill.connectors.gremlin import GremlinSource
 
-    baseline = _peak_mib()
-    started = time.perf_counter()
-    with GremlinSource(_spec(url, 1, 10_000)) as source:
+    with _Measured() as m, GremlinSource(_spec(url, 1, 10_000)) as source:
         prints = [source.fingerprint(u) for u in source.plan() if u.table == "edges"]
-    return {
-        "rows": sum(p["count"] for p in prints),
-        "seconds": time.perf_counter() - started,
-        "peak_mib": _peak_mib() - baseline,
-    }
+    return m.figures(sum(p["count"] for p in prints))
 
 
 def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
@@ -136,9 +171,7 @@ def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
     from graphmill.connectors.gremlin import GremlinSource
 
     spec = _spec(url, partitions, page_size)
-    baseline = _peak_mib()
-    started = time.perf_counter()
-    with GremlinSource(spec) as source:
+    with _Measured() as m, GremlinSource(spec) as source:
         units = [u for u in source.plan() if u.table == "edges"]
 
         def read(unit: Any) -> int:
@@ -146,19 +179,38 @@ def measure_paged(url: str, partitions: int, page_size: int) -> dict[str, Any]:
 
         with ThreadPoolExecutor(max_workers=partitions) as pool:
             rows = sum(pool.map(read, units))
-    return {
-        "rows": rows,
-        "seconds": time.perf_counter() - started,
-        "peak_mib": _peak_mib() - baseline,
-    }
+    return m.figures(rows)
 
 
-def measure_single(url: str) -> dict[str, Any]:
-    from gremlin_python.driver.client import Client
+def measure_pull(url: str, page_size: int) -> dict[str, Any]:
+    """A whole pull into a snapshot in a temporary folder; ``read_peak_mib`` is the peak
+    when the source closes (reading done, before the merge)."""
+    from graphmill.connectors.gremlin import GremlinSource
+    from graphmill.snapshot import pull
+
+    with tempfile.TemporaryDirectory(prefix="bench-gremlin-pull-") as out:
+        spec = _spec(url, 1, page_size, Path(out))
+        source = GremlinSource(spec)
+        marks: dict[str, float] = {}
+        close = source.close
+
+        def close_and_mark() -> None:
+            if "read_peak_mib" not in marks:
+                marks["read_peak_mib"] = _status_mib("VmHWM")
+                marks["read_seconds"] = time.perf_counter() - m.started
+            close()
+
+        source.close = close_and_mark  # type: ignore[method-assign]
+        with _Measured() as m:
+            info = pull(spec, source)
+    return {**m.figures(sum(info.edge_counts.values())), **marks}
+
+
+def _bare_traversal() -> Any:
     from gremlin_python.process.graph_traversal import __
     from gremlin_python.process.traversal import Column, T
 
-    traversal = (
+    return (
         _g()
         .E()
         .has_label(LABEL_E)
@@ -169,20 +221,33 @@ def measure_single(url: str) -> dict[str, Any]:
         .by(__.values("weight").fold())
         .select(Column.values)
     )
-    baseline = _peak_mib()
-    started = time.perf_counter()
-    client = Client(url, "g", pool_size=1)
-    try:
-        options = {"batchSize": 1000, "evaluationTimeout": 600_000}
-        result = client.submit(traversal.bytecode, request_options=options).all().result()
-        rows = len(result)
-    finally:
-        client.close()
-    return {
-        "rows": rows,
-        "seconds": time.perf_counter() - started,
-        "peak_mib": _peak_mib() - baseline,
-    }
+
+
+def measure_bare(url: str, *, keep: bool, batch_size: int) -> dict[str, Any]:
+    """The bare traversal through gremlinpython's ``Client``: collected whole (``keep``) or
+    its batches counted as they arrive (waiting on the driver's queue: ``ResultSet.one()``
+    spins, which would take CPU from the thread that reads the socket)."""
+    from gremlin_python.driver.client import Client
+
+    options = {"batchSize": batch_size, "evaluationTimeout": 1_800_000}
+    with _Measured() as m:
+        client = Client(url, "g", pool_size=1)
+        try:
+            result = client.submit(_bare_traversal().bytecode, request_options=options)
+            if keep:
+                rows = len(result.all().result())
+            else:
+                rows = 0
+                while True:
+                    try:
+                        rows += len(result.stream.get(timeout=0.05))
+                    except queue.Empty:
+                        if result.done.done() and result.stream.empty():
+                            result.done.result()  # raises the server's error, if any
+                            break
+        finally:
+            client.close()
+    return m.figures(rows)
 
 
 def _child(args: list[str]) -> dict[str, Any]:
@@ -194,56 +259,140 @@ def _child(args: list[str]) -> dict[str, Any]:
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
+def _run_child(mode: str, url: str, page_size: int, rest: list[str]) -> dict[str, Any]:
+    if mode == "fingerprint":
+        return measure_fingerprint(url)
+    if mode in ("single", "streamed"):
+        return measure_bare(url, keep=mode == "single", batch_size=page_size)
+    if mode == "pull":
+        return measure_pull(url, page_size)
+    return measure_paged(url, int(rest[0]), page_size)
+
+
+def _server_pid(server: Any) -> int | None:
+    """The pid of the server's JVM (its command line names its run folder)."""
+    for proc in Path("/proc").iterdir():
+        if proc.name.isdigit():
+            try:
+                cmdline = (proc / "cmdline").read_bytes()
+            except OSError:
+                continue
+            if b"java" in cmdline and str(server.run_dir).encode() in cmdline:
+                return int(proc.name)
+    return None
+
+
+def _process_cpu_s(pid: int | None) -> float:
+    """CPU seconds (user + system) a process has used so far; 0 when unknown."""
+    if pid is None:
+        return 0.0
+    fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def loaded_counts(server: Any) -> tuple[int, int]:
+    """Users and follows edges the server holds."""
+    users = server.submit(f"g.V().hasLabel('{LABEL_V}').count()")[0]
+    edges = server.submit(f"g.E().hasLabel('{LABEL_E}').count()")[0]
+    return int(users), int(edges)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--sizes", type=int, nargs="+", default=[100_000, 1_000_000])
     parser.add_argument("--users", type=int, default=50_000)
-    parser.add_argument("--page-size", type=int, default=10_000)
+    parser.add_argument(
+        "--page-size",
+        type=int,
+        default=10_000,
+        help="graphmill's page_size, and the batchSize of the bare traversals",
+    )
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument(
         "--methods",
         nargs="+",
-        default=["paged-p1", "fingerprint", "paged-p2", "single"],
-        help="which measurements to run at each size",
+        default=["paged-p1", "fingerprint", "paged-p2", "streamed", "single"],
+        help="which measurements to run at each size (also: pull)",
     )
     parser.add_argument(
         "--heap", default="4g", help="the Gremlin Server's JVM heap (-Xmx); 5M edges want 8g"
     )
+    parser.add_argument(
+        "--repeat", type=int, default=1, help="rounds of all methods per size, interleaved"
+    )
     parser.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
-        mode, url, *rest = args.child
-        if mode == "fingerprint":
-            out = measure_fingerprint(url)
-        else:
-            out = measure_single(url) if mode == "single" else measure_paged(url, *map(int, rest))
-        print(json.dumps(out))
+        mode, url, page_size, *rest = args.child
+        print(json.dumps(_run_child(mode, url, int(page_size), rest)))
         return
     from servers.manage import GremlinServer
 
-    print(f"{'edges':>9} {'method':<10} {'rows':>9} {'seconds':>8} {'edges/s':>9} {'peak MiB':>9}")
-    server_java = (f"-Xmx{args.heap}",)
-    with GremlinServer(java_options=server_java, evaluation_timeout_ms=600_000) as server:
-        loaded = 0
-        for size in sorted(args.sizes):
-            seconds = load(server.url, args.users, loaded, size, args.seed)
-            print(f"# loaded edges {loaded}..{size} in {seconds:.1f} s", flush=True)
-            loaded = size
-            runs = [
-                ("paged p1", ["paged", server.url, "1", str(args.page_size)]),
-                ("fingerprint", ["fingerprint", server.url]),
-                ("paged p2", ["paged", server.url, "2", str(args.page_size)]),
-                ("single", ["single", server.url]),
-            ]
-            wanted = {m.replace("-", " ") for m in args.methods}
-            for name, child_args in [(n, a) for n, a in runs if n in wanted]:
-                out = _child(child_args)
-                rate = out["rows"] / out["seconds"]
+    runs = {
+        "paged-p1": ["paged", "1"],
+        "fingerprint": ["fingerprint"],
+        "paged-p2": ["paged", "2"],
+        "streamed": ["streamed"],
+        "single": ["single"],
+        "pull": ["pull"],
+    }
+    unknown = sorted(set(args.methods) - set(runs))
+    if unknown:
+        parser.error(f"unknown methods {unknown}; choose from {sorted(runs)}")
+    print(
+        f"{'edges':>9} {'method':<11} {'rows':>9} {'seconds':>8} {'CPU s':>7} {'edges/s':>9}"
+        f" {'peak MiB':>9} {'growth':>7} {'server CPU s':>12}  load average"
+    )
+    for size in sorted(args.sizes):
+        data = Path(tempfile.mkdtemp(prefix="bench-gremlin-"))
+        try:
+            started = time.perf_counter()
+            write_graph(data / "graph.json", args.users, size, args.seed)
+            written = time.perf_counter() - started
+            mib = (data / "graph.json").stat().st_size / 2**20
+            server = GremlinServer(
+                data_dir=data,
+                java_options=(f"-Xmx{args.heap}",),
+                evaluation_timeout_ms=1_800_000,
+                startup_timeout=1800,
+            )
+            started = time.perf_counter()
+            server.start()
+            try:
+                counts = loaded_counts(server)
                 print(
-                    f"{size:>9} {name:<10} {out['rows']:>9} {out['seconds']:>8.1f} "
-                    f"{rate:>9.0f} {out['peak_mib']:>9.1f}",
+                    f"# {size} edges: wrote {mib:.0f} MiB of GraphSON in {written:.1f} s; "
+                    f"the server read it in {time.perf_counter() - started:.1f} s and holds "
+                    f"{counts[0]} users, {counts[1]} edges",
                     flush=True,
                 )
+                if counts != (args.users, size):
+                    raise SystemExit(f"loaded {counts}, expected {(args.users, size)}")
+                pid = _server_pid(server)
+                for name in args.methods * args.repeat:
+                    mode, *rest = runs[name]
+                    server_cpu = _process_cpu_s(pid)
+                    out = _child([mode, server.url, str(args.page_size), *rest])
+                    server_cpu = _process_cpu_s(pid) - server_cpu
+                    load = " ".join(Path("/proc/loadavg").read_text().split()[:3])
+                    rate = out["rows"] / out["seconds"]
+                    print(
+                        f"{size:>9} {name:<11} {out['rows']:>9} {out['seconds']:>8.1f} "
+                        f"{out['cpu_s']:>7.1f} {rate:>9.0f} {out['peak_mib']:>9.1f} "
+                        f"{out['growth_mib']:>7.1f} {server_cpu:>12.1f}  {load}",
+                        flush=True,
+                    )
+                    if "read_peak_mib" in out:
+                        print(
+                            f"# pull: reading done after {out['read_seconds']:.1f} s at a "
+                            f"peak of {out['read_peak_mib']:.1f} MiB",
+                            flush=True,
+                        )
+            finally:
+                # TinkerGraph writes the graph back on a clean stop: not needed here
+                server.stop(timeout=5)
+        finally:
+            shutil.rmtree(data, ignore_errors=True)
 
 
 if __name__ == "__main__":

@@ -2,8 +2,9 @@
 
 gremlinpython's ``Client`` reads every response frame into an unbounded queue as fast as the
 server sends it. A :class:`Channel` drives the same protocol and transport classes itself and
-reads the next frame only when the caller asks for the next batch, so TCP flow control holds
-the server back and client memory stays bounded by one frame plus the page being built.
+reads at most one frame ahead of the caller (the next frame arrives while the caller turns the
+last one into a page, so client and server work at the same time), so TCP flow control holds
+the server back and client memory stays bounded by two frames plus the page being built.
 Each channel runs its transport on a thread of its own (the transport runs an asyncio loop,
 which cannot run inside a thread that already has one).
 
@@ -98,7 +99,8 @@ class Channel:
     def stream(self, bytecode: Bytecode, *, timeout_ms: int | None = None) -> Iterator[list[Any]]:
         """Submit ``bytecode`` and yield its results a frame (``batch_size`` results) at a time.
 
-        Raises the driver's exceptions; a stream left before its end marks the channel broken.
+        Raises the driver's exceptions; a stream left before its end marks the channel broken
+        (closing it then waits for the frame being read ahead).
         """
         request_id = str(uuid.uuid4())
         args: dict[str, Any] = {
@@ -113,9 +115,11 @@ class Channel:
         finished = False
         try:
             self._run(self._write, request_id, message)
+            frame = self._thread.submit(self._read_frame, results)
             while not finished:
-                status = self._run(self._read_frame, results)
-                finished = status != 206
+                finished = frame.result() != 206
+                if not finished:  # the next frame is read while the caller uses this one
+                    frame = self._thread.submit(self._read_frame, results)
                 while not pending.empty():
                     yield unwrap(pending.get_nowait())
         finally:
