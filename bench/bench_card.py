@@ -9,7 +9,7 @@ bundle's own ``card.html``, to show they match.
 
 Usage (from the repo root; a bundle from ``bench_engine.py --keep``)::
 
-    .venv/bin/python bench/bench_card.py BUNDLE --code /work/main --code . --repeat 3
+    .venv/bin/python bench/bench_card.py BUNDLE --code OLD_CHECKOUT --code . --repeat 3
 
 Figures are printed, never asserted: this is a measurement, not a test.
 """
