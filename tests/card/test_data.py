@@ -89,3 +89,21 @@ def test_the_card_of_a_bundle_is_the_one_it_holds(karate: Path) -> None:
     body = {k: v for k, v in manifest.items() if k != "manifest_sha256"}
     body["files"] = [f for f in body["files"] if f["path"] != "card.html"]
     assert card_html(karate, body).encode("utf-8") == (karate / "card.html").read_bytes()
+
+
+def test_a_vertex_table_out_of_row_order_is_named(karate: Path, tmp_path: Path) -> None:
+    import shutil
+
+    import pyarrow.parquet as pq
+
+    from graphmill.errors import BundleIntegrityError
+
+    copy = tmp_path / "bundle"
+    shutil.copytree(karate, copy)
+    manifest = read_manifest(copy)
+    path = copy / manifest["vertex_types"]["person"]["table"]
+    table = pq.read_table(path)
+    pq.write_table(table.take(list(reversed(range(table.num_rows)))), path)
+    with pytest.raises(BundleIntegrityError, match="not the row number at row 0") as caught:
+        class_balance(copy, manifest)
+    assert caught.value.file == str(path)
