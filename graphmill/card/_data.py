@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections import Counter
 from pathlib import Path
 from typing import Any
 
@@ -11,45 +12,93 @@ import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from graphmill.compare._drift import finite_values, kind_of
+from graphmill.errors import BundleIntegrityError
 
 TOP_CATEGORIES = 12
+BATCH_ROWS = 1 << 16  # rows per record batch read: 512 KiB of each int64 column
 
 
-def degree_points(root: Path, manifest: dict[str, Any], dotted: str) -> dict[str, Any]:
-    """(degree, number of vertices with it) for out- and in-degrees of one relation."""
+def degree_points(
+    root: Path, manifest: dict[str, Any], dotted: str, *, batch_rows: int = BATCH_ROWS
+) -> dict[str, Any]:
+    """(degree, number of vertices with it) for out- and in-degrees of one relation. The
+    edge table is read one record batch at a time: memory is one int64 per vertex per side
+    plus a batch, never the whole index columns."""
     entry = manifest["relations"][dotted]
-    table = pq.read_table(root / entry["table"], columns=["source_index", "target_index"])
-    counts = {
-        "out": manifest["vertex_types"][entry["source_type"]]["count"],
-        "in": manifest["vertex_types"][entry["target_type"]]["count"],
+    degrees = {
+        "out": np.zeros(manifest["vertex_types"][entry["source_type"]]["count"], np.int64),
+        "in": np.zeros(manifest["vertex_types"][entry["target_type"]]["count"], np.int64),
     }
+    sides = (("out", "source_index"), ("in", "target_index"))
+    edges_path = root / entry["table"]
+    with pq.ParquetFile(edges_path) as edges:
+        for batch in edges.iter_batches(batch_rows, columns=[c for _, c in sides]):
+            for side, column in sides:
+                add_counts(degrees[side], batch.column(column), edges_path)
     out = {}
-    for side, column in (("out", "source_index"), ("in", "target_index")):
-        idx = table.column(column).to_numpy().astype(np.int64, copy=False)
-        degree = np.bincount(idx, minlength=counts[side])
+    for side, degree in degrees.items():
         values, n = np.unique(degree[degree > 0], return_counts=True)
         out[side] = (values.astype(np.float64), n.astype(np.float64))
     return out
 
 
-def class_balance(root: Path, manifest: dict[str, Any]) -> dict[str, dict[str, int]] | None:
-    """part -> class -> vertices, for the labelled type's parts."""
+def add_counts(into: np.ndarray, indices: pa.Array, where: Path) -> None:
+    """Add one to ``into[i]`` for each ``i`` in ``indices``, in place: no per-batch array of
+    the vertex count (``np.add.at`` is unbuffered; a ``bincount`` would allocate one)."""
+    idx = indices.to_numpy(zero_copy_only=False).astype(np.int64, copy=False)
+    if len(idx) and (idx.min() < 0 or idx.max() >= len(into)):
+        raise BundleIntegrityError(
+            f"a vertex index outside 0..{len(into) - 1} in {where.name}",
+            file=str(where),
+            hint="rebuild the bundle; its manifest's vertex count does not match its edges",
+        )
+    np.add.at(into, idx, 1)
+
+
+def class_balance(
+    root: Path, manifest: dict[str, Any], *, batch_rows: int = BATCH_ROWS
+) -> dict[str, dict[str, int]] | None:
+    """part -> class -> vertices, for the labelled type's parts. The vertex table's row ``i``
+    is vertex ``i`` (its ``index`` column is ``0..N-1``, checked batch by batch), so each part
+    row's class is a ``take`` of the label column at its index: no hash join."""
     label = manifest.get("label")
     if not label:
         return None
     entry = manifest["vertex_types"][label["vertex_type"]]
     if not entry.get("parts"):
         return None
-    vertices = pq.read_table(root / entry["table"], columns=["index", label["property"]])
-    parts = pq.read_table(root / entry["parts"]["table"], columns=["index", "part"])
-    joined = parts.join(vertices, "index")
-    values = joined.column(label["property"]).cast(pa.string())
-    grouped = pa.table({"part": joined.column("part"), "class": values}).group_by(["part", "class"])
-    rows = grouped.aggregate([([], "count_all")]).to_pylist()
+    classes = label_column(root / entry["table"], label["property"], batch_rows)
+    counts: Counter[tuple[str, str]] = Counter()
+    with pq.ParquetFile(root / entry["parts"]["table"]) as parts:
+        for batch in parts.iter_batches(batch_rows, columns=["index", "part"]):
+            values = classes.take(batch.column("index"))
+            grouped = pa.table({"part": batch.column("part"), "class": values})
+            rows = grouped.group_by(["part", "class"]).aggregate([([], "count_all")])
+            for row in rows.to_pylist():
+                counts[row["part"], row["class"] or "(none)"] += row["count_all"]
     out: dict[str, dict[str, int]] = {}
-    for row in rows:
-        out.setdefault(row["part"], {})[row["class"] or "(none)"] = row["count_all"]
+    for (part, cls), n in counts.items():
+        out.setdefault(part, {})[cls] = n
     return out
+
+
+def label_column(path: Path, prop: str, batch_rows: int = BATCH_ROWS) -> pa.Array:
+    """The vertex table's ``prop`` as strings, after checking its ``index`` column is the row
+    number (what :mod:`graphmill.transform._vertices` writes)."""
+    chunks: list[pa.Array] = []
+    offset = 0
+    with pq.ParquetFile(path) as vertices:
+        for batch in vertices.iter_batches(batch_rows, columns=["index", prop]):
+            expected = pa.array(np.arange(offset, offset + batch.num_rows, dtype=np.int64))
+            if not batch.column("index").cast(pa.int64()).equals(expected):
+                raise BundleIntegrityError(
+                    f"{path.name}: the index column is not the row number at row {offset}",
+                    file=str(path),
+                    hint="rebuild the bundle with this graphmill",
+                )
+            chunks.append(batch.column(prop).cast(pa.string()))
+            offset += batch.num_rows
+    return pa.concat_arrays(chunks) if chunks else pa.array([], pa.string())
 
 
 def feature_values(root: Path, manifest: dict[str, Any]) -> list[dict[str, Any]]:
@@ -59,12 +108,13 @@ def feature_values(root: Path, manifest: dict[str, Any]) -> list[dict[str, Any]]
         encoders = entry["features"]["encoders"]
         if not encoders:
             continue
-        table = pq.read_table(root / entry["table"])
+        path = root / entry["table"]
+        names = set(pq.read_schema(path).names)
         for enc in encoders:
             prop = enc["property"]
-            if prop not in table.column_names:
+            if prop not in names:
                 continue
-            column = table.column(prop)
+            column = pq.read_table(path, columns=[prop]).column(prop)  # one column at a time
             kind = kind_of(column.type)
             item = {"vertex_type": vt, "property": prop, "encoding": enc["encoding"]}
             if kind == "numeric" and not pa.types.is_boolean(column.type):
