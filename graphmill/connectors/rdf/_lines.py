@@ -43,6 +43,7 @@ from graphmill.connectors.rdf._files import (
 from graphmill.connectors.rdf._plan import RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport
 from graphmill.connectors.rdf._terms import _GRAPH_TAIL, _byte_slice, split_terms
+from graphmill.connectors.rdf._triples import fast_triples
 
 LINE_FORMATS = frozenset({"n-triples", "n-quads"})
 BLOCK_BYTES = 16 << 20
@@ -60,7 +61,10 @@ def staged_quads(data: bytes, predicates: pa.Array, *, graphs: bool = True) -> p
     uses: ``s p o o_kind o_datatype o_lang g`` (``g`` null in the default graph); quads with
     other ``predicates`` are dropped before objects are read. The same values as
     :func:`._terms.read_nquads`, cheaper: lines are cut with numpy, and subjects and graphs,
-    which the writer never escapes, are not parsed as general terms."""
+    which the writer never escapes, are not parsed as general terms; triples (no ``graphs``)
+    are cut with :func:`._triples.fast_triples` where their lines allow."""
+    if not graphs and (fast := fast_triples(data, predicates)) is not None:
+        return fast
     if data and not data.endswith(b"\n"):
         data += b"\n"
     ends = np.flatnonzero(np.frombuffer(data, np.uint8) == 10)

@@ -24,7 +24,9 @@ from test_differential import _spec as differential_spec
 from graphmill.connectors import _fingerprints, open_source
 from graphmill.connectors.rdf import _lines
 from graphmill.connectors.rdf._lines import line_blocks, staged_quads
+from graphmill.connectors.rdf._plan import RDF_TYPE
 from graphmill.connectors.rdf._terms import read_nquads
+from graphmill.connectors.rdf._triples import fast_triples
 from graphmill.errors import InputError
 from graphmill.spec import spec_from_dict
 
@@ -57,6 +59,35 @@ def test_staged_quads_reads_what_the_term_reader_reads(seed):
     assert got.num_rows == reference.num_rows > 100
     for name in got.column_names:
         assert got.column(name).combine_chunks().equals(reference.column(name).combine_chunks())
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3, 4, 5, 6])
+def test_triples_cut_with_numpy_read_what_the_term_reader_reads(seed):
+    quads = ox.parse(random_dump(seed).encode(), format=ox.RdfFormat.N_QUADS)
+    triples = [ox.Quad(q.subject, q.predicate, q.object) for q in quads]  # default graph
+    written = ox.serialize(triples, format=ox.RdfFormat.N_QUADS)
+    wanted = pa.array([f"http://example.org/{p}" for p in "pr"] + [RDF_TYPE])
+    reference = read_nquads(written, predicates=wanted)
+    got = fast_triples(written, wanted)
+    assert got is not None and got.num_rows == reference.num_rows > 100
+    for name in got.column_names:
+        assert got.column(name).combine_chunks().equals(reference.column(name).combine_chunks())
+    assert staged_quads(written, wanted, graphs=False).equals(got)
+
+
+@pytest.mark.parametrize(
+    "lines",
+    [
+        b"<urn:a> <urn:p> <urn:o> <urn:g> .\n",
+        b'<urn:a> <urn:p> "o" _:g .\n',
+        b"<urn:a> <urn:p> <<( <urn:s> <urn:p> <urn:o> )>> .\n",
+        b"\n",
+        b"<urn:a> <urn:p> <urn:o> .",
+    ],
+)
+def test_lines_of_another_shape_go_to_the_general_reader(lines):
+    good = b'<urn:a> <urn:p> "x y"@en .\n'
+    assert fast_triples(good + lines, pa.array(["urn:p"])) is None
 
 
 def test_line_blocks_cut_between_lines_and_count_them():
