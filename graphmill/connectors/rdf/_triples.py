@@ -111,3 +111,27 @@ def _objects(
     datatype = pc.if_else(pa.array(plain), XSD_STRING, datatype)
     datatype = pc.if_else(is_literal, datatype, _NULL)
     return {"o": value, "o_kind": kind, "o_datatype": datatype, "o_lang": lang}
+
+
+_XSD_STRING_TAIL = b"XMLSchema#string>"
+_TAG_BYTES = 24  # language tags longer than this are left to the writer
+
+
+def written_as_is(block: bytes) -> bool:
+    """Whether pyoxigraph's writer would write the N-Triples lines of ``block`` unchanged,
+    as far as bytes tell: no backslash (escapes), no control character but line feeds, no
+    ``^^xsd:string`` (the writer drops it), no upper-case letter in a language tag (the
+    parser lowers them). The lines' shape is checked by :func:`fast_triples`."""
+    raw = np.frombuffer(block, np.uint8)
+    if np.count_nonzero(raw < 32) != np.count_nonzero(raw == 10):
+        return False
+    if np.any(raw == 92) or np.any(raw == 127) or _XSD_STRING_TAIL in block:
+        return False
+    tags = np.flatnonzero((raw[1:] == _AT) & (raw[:-1] == _QUOTE)) + 2  # no '"@' in a value:
+    if not len(tags):  # a quote inside a literal would be escaped
+        return True
+    window = raw[np.minimum(tags[:, None] + np.arange(_TAG_BYTES), len(raw) - 1)]
+    inside = np.cumprod(window != 32, axis=1).astype(bool)
+    if inside[:, -1].any():
+        return False
+    return not np.any(inside & (window >= ord("A")) & (window <= ord("Z")))
