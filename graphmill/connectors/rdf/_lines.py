@@ -6,7 +6,9 @@ and handed to :data:`WORKERS` processes (pyoxigraph's parser holds Python's GIL
 for each quad, so threads cannot share the parse). Each worker:
 
 1. parses the block with pyoxigraph's strict parser and has its N-Quads writer write it
-   again, canonically (checking a block is already canonical costs more than writing it);
+   again, canonically -- unless it is N-Triples already written so
+   (:func:`._triples.written_as_is`: no escapes, no control characters, lower-case
+   language tags, single spaces), which is only parsed, to check it;
 2. reads and stages it as a block of the single-stream path (:func:`._staging.write_parts`).
 
 Blank node labels are kept as written in both paths, so cutting the file changes nothing.
@@ -43,6 +45,7 @@ from graphmill.connectors.rdf._files import (
 from graphmill.connectors.rdf._plan import RdfPlan
 from graphmill.connectors.rdf._reading import ReadingReport
 from graphmill.connectors.rdf._terms import _GRAPH_TAIL, _byte_slice, split_terms
+from graphmill.connectors.rdf._triples import fast_triples, written_as_is
 
 LINE_FORMATS = frozenset({"n-triples", "n-quads"})
 BLOCK_BYTES = 16 << 20
@@ -60,7 +63,10 @@ def staged_quads(data: bytes, predicates: pa.Array, *, graphs: bool = True) -> p
     uses: ``s p o o_kind o_datatype o_lang g`` (``g`` null in the default graph); quads with
     other ``predicates`` are dropped before objects are read. The same values as
     :func:`._terms.read_nquads`, cheaper: lines are cut with numpy, and subjects and graphs,
-    which the writer never escapes, are not parsed as general terms."""
+    which the writer never escapes, are not parsed as general terms; triples (no ``graphs``)
+    are cut with :func:`._triples.fast_triples` where their lines allow."""
+    if not graphs and (fast := fast_triples(data, predicates)) is not None:
+        return fast
     if data and not data.endswith(b"\n"):
         data += b"\n"
     ends = np.flatnonzero(np.frombuffer(data, np.uint8) == 10)
@@ -97,9 +103,15 @@ def stage_block(
 
     ox = oxigraph()
     rdf = getattr(ox.RdfFormat, fmt)
-    n_quads = ox.RdfFormat.N_QUADS
+    wanted = pa.array(predicates, pa.string())
+    table = None
     try:
-        text = ox.serialize(ox.parse(block, format=rdf, lenient=False), format=n_quads)
+        if fmt == "N_TRIPLES" and written_as_is(block):
+            collections.deque(ox.parse(block, format=rdf, lenient=False), maxlen=0)  # strict
+            table, text = fast_triples(block, wanted), block
+        if table is None:
+            parsed = ox.parse(block, format=rdf, lenient=False)
+            text = ox.serialize(parsed, format=ox.RdfFormat.N_QUADS)
     except SyntaxError as exc:
         reason, line, column = syntax_details(exc)
         return "syntax", (reason, None if line is None else line + first_line - 1, column)
@@ -107,8 +119,8 @@ def stage_block(
         if "buffer maximal size" not in str(exc):
             raise
         return "oversized", None
-    wanted = pa.array(predicates, pa.string())
-    table = staged_quads(text, wanted, graphs=fmt == "N_QUADS")
+    if table is None:
+        table = staged_quads(text, wanted, graphs=fmt == "N_QUADS")
     write_parts(table, plan, Path(folder), name)
     return "quads", (text.count(b"\n"), table.num_rows)
 

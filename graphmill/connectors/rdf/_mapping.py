@@ -9,9 +9,8 @@ Both RDF sources answer each unit with a term table shaped like the SELECT of
   chosen for the whole unit: one kind keeps its type, integer + float give float64, any other
   mix gives strings rendered as the snapshot renders typed columns (so the result does not
   depend on page boundaries). Values equal as values (``"01"`` and ``"1"`` as xsd:integer)
-  are kept once per vertex, so every store gives the same sets: once per term table here,
-  and once per unit by the snapshot, from each row's ``Page.identity`` (rows of a vertex
-  may come on several pages, in any order);
+  are kept once per vertex, so every store gives the same sets: by the snapshot, from each
+  row's ``Page.identity`` (rows of a vertex may come on several pages, in any order);
 * graph facet -> the graph name as a string; relation -> ``source_id``, ``target_id``.
 
 Each page reports its property's value kinds, ``ill-typed`` included.
@@ -157,23 +156,6 @@ def ill_typed_raw(lexical: pa.Array, kinds: pa.Array) -> pa.Array:
     return pc.if_else(pc.equal(kinds, ILL_TYPED), lexical, pa.scalar(None, pa.string()))
 
 
-def _distinct_values(
-    ids: pa.Array, values: pa.Array, kinds: pa.Array, identity: pa.Array, raw: pa.Array
-) -> pa.Table:
-    """One row per (vertex, kind, value identity); the value (and the raw text of an
-    ill-typed literal, which is part of its identity) of equal rows is equal."""
-    keys = [VERTEX_ID, "kind", "identity"]
-    table = pa.table({VERTEX_ID: ids, "kind": kinds, "identity": identity, "raw": raw})
-    if pa.types.is_null(values.type):  # no typed value at all (none, or all ill-typed)
-        grouped = table.group_by(keys, use_threads=False).aggregate([("raw", "first")])
-        grouped = grouped.rename_columns([*keys, "raw"])
-        return grouped.append_column("value", pa.nulls(grouped.num_rows))
-    table = table.append_column("value", values)
-    aggregates = [("value", "first"), ("raw", "first")]
-    grouped = table.group_by(keys, use_threads=False).aggregate(aggregates)
-    return grouped.rename_columns([*keys, "value", "raw"])
-
-
 def unit_table(
     plan: RdfPlan, unit: WorkUnit, terms: pa.Table, *, present: set[str] | None = None
 ) -> tuple[pa.Table, pa.Array | None]:
@@ -200,19 +182,17 @@ def unit_table(
         declared,
         present=present,
     )
-    distinct = _distinct_values(ids, values, kinds, identity, ill_typed_raw(lexical, kinds))
-    kind = pc.fill_null(distinct.column("kind"), "")
     table = pa.table(
         {
-            VERTEX_ID: distinct.column(VERTEX_ID),
-            unit.facet: distinct.column("value"),
-            RAW_PREFIX + unit.facet: distinct.column("raw"),
+            VERTEX_ID: ids,
+            unit.facet: values,
+            RAW_PREFIX + unit.facet: ill_typed_raw(lexical, kinds),
             IDENTITY_PREFIX + unit.facet: pc.binary_join_element_wise(
-                kind, distinct.column("identity"), "\x1f"
+                pc.fill_null(kinds, ""), identity, "\x1f"
             ),
         }
     )
-    return table, distinct.column("kind").combine_chunks()
+    return table, kinds
 
 
 def _kind_counts(kinds: pa.Array) -> dict[str, int]:
@@ -235,8 +215,8 @@ def unit_pages(
     """Pages of at most ``page_rows`` rows for ``unit``; facet pages carry their value kinds.
 
     ``terms`` may be one batch of a unit read in batches: then pass the unit's ``present``
-    kinds. Values are made distinct per subject within a batch here, and across batches by
-    the snapshot merge from each facet page's ``identity``."""
+    kinds. Values equal as values are made distinct per subject by the snapshot merge, from
+    each facet page's ``identity``."""
     table, kinds = unit_table(plan, unit, terms, present=present)
     table = table.combine_chunks()
     for start in range(0, table.num_rows, page_rows):

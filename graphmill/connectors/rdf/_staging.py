@@ -49,6 +49,10 @@ ROLES = {
     "links": pa.schema([("s", _TEXT), ("p", _TEXT), ("o", _TEXT)]),
 }
 
+# columns with few distinct values, dictionary-encoded in the parts (subjects and objects
+# mostly differ from row to row, where a dictionary costs time and saves nothing)
+_REPEATED = {"types": {"o", "g"}, "literals": {"p", "o_datatype", "o_lang"}, "links": {"p"}}
+
 
 def wanted_predicates(plan: RdfPlan) -> list[str]:
     """Predicates whose quads the spec can use."""
@@ -146,7 +150,10 @@ def write_parts(table: pa.Table, plan: RdfPlan, folder: Path, name: str) -> None
     """Write the rows of a quad table each role keeps as ``folder/<role>/<name>.parquet``."""
     for role, rows in split_roles(table, plan).items():
         if rows.num_rows:
-            pq.write_table(rows, folder / role / f"{name}.parquet", compression="lz4")
+            repeated = [c for c in rows.column_names if c in _REPEATED[role]]
+            pq.write_table(
+                rows, folder / role / f"{name}.parquet", compression="lz4", use_dictionary=repeated
+            )
 
 
 def _stage_block(

@@ -80,7 +80,7 @@ class RdfFileSource(GraphSource):
                     item, self.rdf, predicates, folder, f"in{i:04d}", report=report,
                     prints=self._prints,
                 )  # fmt: skip
-            self._facts = FactParts(parts, self.rdf, folder)
+            self._facts = FactParts(parts, self.rdf, folder, units=self.plan())
         except BaseException:
             self.close()
             raise

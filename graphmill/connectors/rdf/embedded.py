@@ -81,7 +81,7 @@ class EmbeddedStoreSource(GraphSource):
             self.quads_loaded = len(self._store)
             parts = empty_parts(self._folder / "parts")
             stage_store(self._store, self.rdf, self._folder / "parts")
-            self._facts = FactParts(parts, self.rdf, self._folder)
+            self._facts = FactParts(parts, self.rdf, self._folder, units=self.plan())
         except BaseException:
             self.close()
             raise

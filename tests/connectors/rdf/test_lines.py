@@ -12,6 +12,7 @@ import gzip
 import hashlib
 import io
 import json
+import random
 from pathlib import Path
 
 import pyarrow as pa
@@ -24,7 +25,9 @@ from test_differential import _spec as differential_spec
 from graphmill.connectors import _fingerprints, open_source
 from graphmill.connectors.rdf import _lines
 from graphmill.connectors.rdf._lines import line_blocks, staged_quads
+from graphmill.connectors.rdf._plan import RDF_TYPE
 from graphmill.connectors.rdf._terms import read_nquads
+from graphmill.connectors.rdf._triples import fast_triples, written_as_is
 from graphmill.errors import InputError
 from graphmill.spec import spec_from_dict
 
@@ -57,6 +60,62 @@ def test_staged_quads_reads_what_the_term_reader_reads(seed):
     assert got.num_rows == reference.num_rows > 100
     for name in got.column_names:
         assert got.column(name).combine_chunks().equals(reference.column(name).combine_chunks())
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3, 4, 5, 6])
+def test_triples_cut_with_numpy_read_what_the_term_reader_reads(seed):
+    quads = ox.parse(random_dump(seed).encode(), format=ox.RdfFormat.N_QUADS)
+    triples = [ox.Quad(q.subject, q.predicate, q.object) for q in quads]  # default graph
+    written = ox.serialize(triples, format=ox.RdfFormat.N_QUADS)
+    wanted = pa.array([f"http://example.org/{p}" for p in "pr"] + [RDF_TYPE])
+    reference = read_nquads(written, predicates=wanted)
+    got = fast_triples(written, wanted)
+    assert got is not None and got.num_rows == reference.num_rows > 100
+    for name in got.column_names:
+        assert got.column(name).combine_chunks().equals(reference.column(name).combine_chunks())
+    assert staged_quads(written, wanted, graphs=False).equals(got)
+
+
+@pytest.mark.parametrize(
+    "lines",
+    [
+        b"<urn:a> <urn:p> <urn:o> <urn:g> .\n",
+        b'<urn:a> <urn:p> "o" _:g .\n',
+        b"<urn:a> <urn:p> <<( <urn:s> <urn:p> <urn:o> )>> .\n",
+        b"\n",
+        b"<urn:a> <urn:p> <urn:o> .",
+    ],
+)
+def test_lines_of_another_shape_go_to_the_general_reader(lines):
+    good = b'<urn:a> <urn:p> "x y"@en .\n'
+    assert fast_triples(good + lines, pa.array(["urn:p"])) is None
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_blocks_staged_as_written_are_what_the_writer_writes(seed):
+    """A block that skips the writer (``written_as_is`` and ``fast_triples`` accept it) is
+    byte for byte what the writer writes; others (upper-case tags, double spaces) are
+    different or hold escapes, which are always rewritten."""
+    rng = random.Random(seed)
+    quads = ox.parse(random_dump(seed, 40).encode(), format=ox.RdfFormat.N_QUADS)
+    triples = [ox.Quad(q.subject, q.predicate, q.object) for q in quads]
+    lines = ox.serialize(triples, format=ox.RdfFormat.N_TRIPLES).decode().splitlines(True)
+    wanted = pa.array([f"http://example.org/{p}" for p in "pqr"] + [RDF_TYPE])
+    skipped = 0
+    for start in range(0, len(lines), 3):
+        block = "".join(lines[start : start + 3])
+        block = block.replace("@en", "@EN") if rng.random() < 0.3 else block
+        block = block.replace(" .", "  .") if rng.random() < 0.1 else block
+        canonical = ox.serialize(
+            ox.parse(block.encode(), format=ox.RdfFormat.N_TRIPLES), format=ox.RdfFormat.N_QUADS
+        )
+        if written_as_is(block.encode()) and fast_triples(block.encode(), wanted) is not None:
+            skipped += 1
+            assert block.encode() == canonical
+        else:
+            changed = block.encode() != canonical
+            assert changed or "\\" in block or "XMLSchema#string>" in block  # escapes: rewritten
+    assert skipped > 10
 
 
 def test_line_blocks_cut_between_lines_and_count_them():
