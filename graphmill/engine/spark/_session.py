@@ -56,6 +56,9 @@ BASE_SETTINGS = {
     "spark.sql.ansi.doubleQuotedIdentifiers": "true",  # the local engine's quoting
     # an Arrow table sent to Spark becomes one partition per batch: fewer, larger ones
     "spark.sql.execution.arrow.maxRecordsPerBatch": "262144",
+    # positions and policed edges come back whole by design (24 bytes an edge): Spark's 1g
+    # cap on collected results would fail a relation of about 45M edges whatever the memory
+    "spark.driver.maxResultSize": "0",
 }
 LOCAL_SETTINGS = {
     "spark.driver.host": "127.0.0.1",
