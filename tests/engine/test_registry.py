@@ -181,6 +181,9 @@ def test_cluster_urls_are_checked_and_never_shown_with_credentials() -> None:
     capped = {"spark.driver.maxResultSize": "8g"}
     capped_conf = _settings(EngineSpec(kind="spark", cluster="yarn", cluster_settings=capped))
     assert capped_conf["spark.driver.maxResultSize"] == "8g"
+    # a local driver runs every task: 4g unless engine.memory_limit says; a cluster's is its own
+    assert _settings(EngineSpec(kind="spark", cluster="local[2]"))["spark.driver.memory"] == "4096m"
+    assert "spark.driver.memory" not in capped_conf
     remote = _settings(EngineSpec(kind="spark", cluster="sc://h:15002"))
     assert "spark.driver.host" not in remote and "spark.local.dir" not in remote
 

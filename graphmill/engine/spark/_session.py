@@ -99,8 +99,10 @@ def _settings(settings: EngineSpec) -> dict[str, str]:
     conf = dict(BASE_SETTINGS)
     if cluster.startswith("local"):
         conf |= LOCAL_SETTINGS
-        if settings.memory_limit is not None:  # the driver runs every task in local mode
-            conf["spark.driver.memory"] = f"{memory_bytes(settings.memory_limit) // 2**20}m"
+        # the driver runs every task in local mode: Spark's 1g default failed the check of a
+        # 10M-edge graph (bench/README.md), so a local driver gets 4g unless told otherwise
+        limit = memory_bytes(settings.memory_limit) if settings.memory_limit else 4 * 2**30
+        conf["spark.driver.memory"] = f"{limit // 2**20}m"
         java = f"-Dlog4j2.configurationFile={LOG4J.as_uri()}"
         conf["spark.driver.extraJavaOptions"] = java
     if settings.spill_folder is not None and not cluster.startswith("sc://"):
