@@ -211,9 +211,10 @@ def child_engine(source: dict[str, Any], out: Path, engine: dict[str, Any]) -> d
 
 
 def run_child(args: list[str]) -> dict[str, Any]:
-    done = subprocess.run(
-        [sys.executable, __file__, *args], check=True, capture_output=True, text=True
-    )
+    """Run one child; its stderr passes through, so a failure shows its own message."""
+    done = subprocess.run([sys.executable, __file__, *args], stdout=subprocess.PIPE, text=True)
+    if done.returncode:
+        raise SystemExit(f"the {args[1]} run failed (exit {done.returncode}); see above")
     return dict(json.loads(done.stdout.strip().splitlines()[-1]))
 
 

@@ -176,6 +176,14 @@ def test_cluster_urls_are_checked_and_never_shown_with_credentials() -> None:
     )
     assert conf["spark.driver.bindAddress"] == "127.0.0.1" and conf["spark.ui.enabled"] == "false"
     assert (conf["spark.driver.memory"], conf["spark.local.dir"]) == ("1024m", "/s")
+    # results come back whole by design: no cap of Spark's (1g) unless the spec sets one
+    assert conf["spark.driver.maxResultSize"] == "0"
+    capped = {"spark.driver.maxResultSize": "8g"}
+    capped_conf = _settings(EngineSpec(kind="spark", cluster="yarn", cluster_settings=capped))
+    assert capped_conf["spark.driver.maxResultSize"] == "8g"
+    # a local driver runs every task: 4g unless engine.memory_limit says; a cluster's is its own
+    assert _settings(EngineSpec(kind="spark", cluster="local[2]"))["spark.driver.memory"] == "4096m"
+    assert "spark.driver.memory" not in capped_conf
     remote = _settings(EngineSpec(kind="spark", cluster="sc://h:15002"))
     assert "spark.driver.host" not in remote and "spark.local.dir" not in remote
 
