@@ -16,17 +16,21 @@ TOP_CATEGORIES = 12
 
 
 def degree_points(root: Path, manifest: dict[str, Any], dotted: str) -> dict[str, Any]:
-    """(degree, number of vertices with it) for out- and in-degrees of one relation."""
+    """(degree, number of vertices with it) for out- and in-degrees of one relation; the
+    edge table is read a row group at a time (a sharded bundle's relation may not fit)."""
     entry = manifest["relations"][dotted]
-    table = pq.read_table(root / entry["table"], columns=["source_index", "target_index"])
     counts = {
         "out": manifest["vertex_types"][entry["source_type"]]["count"],
         "in": manifest["vertex_types"][entry["target_type"]]["count"],
     }
+    degrees = {side: np.zeros(n, dtype=np.int64) for side, n in counts.items()}
+    edges = pq.ParquetFile(root / entry["table"])
+    for batch in edges.iter_batches(columns=["source_index", "target_index"]):
+        for side, column in (("out", 0), ("in", 1)):
+            idx = batch.column(column).to_numpy().astype(np.int64, copy=False)
+            degrees[side] += np.bincount(idx, minlength=counts[side])
     out = {}
-    for side, column in (("out", "source_index"), ("in", "target_index")):
-        idx = table.column(column).to_numpy().astype(np.int64, copy=False)
-        degree = np.bincount(idx, minlength=counts[side])
+    for side, degree in degrees.items():
         values, n = np.unique(degree[degree > 0], return_counts=True)
         out[side] = (values.astype(np.float64), n.astype(np.float64))
     return out
