@@ -23,6 +23,14 @@ A bundle is a folder, written in one piece by :func:`graphmill.transform.build_b
       tables/parts/<type>.parquet      index, part ("train" | "validation" | "test")
       tables/edge_parts/<src>.<rel>.<dst>.parquet  edge (position), part (edge tasks)
 
+A bundle with more than ``output.shard_edges`` edges in all (default
+:data:`graphmill._shards.SHARD_EDGES`) is sharded: no ``tensors.safetensors``, but the same
+keys under ``tensors/``: ``vertex.<type>.safetensors``, ``relation.<key>.safetensors`` (the
+relation's tensors not aligned with its edges) and ``relation.<key>.<k>.safetensors`` (the
+endpoints and multiplicity of the ``k``-th range of ``shard_edges`` edges). The manifest then
+has ``tensor_layout`` and each tensor's ``pieces`` (``file``, ``start``, ``stop`` along
+``axis``); every shard is listed in ``files`` with its sha256.
+
 ``<part>`` is ``train``, ``validation`` or ``test``. Row 0 of ``endpoints`` holds source
 indices, row 1 target indices, sorted by (source, target). The manifest is canonical JSON
 (sorted keys, two-space indent) carrying ``manifest_sha256``, the sha256 of its own canonical
@@ -48,13 +56,12 @@ from graphmill._bundle_checks import (
     MAX_MANIFEST_BYTES,
     capped,
     check_manifest_counts,
-    check_shards,
-    check_tensor_file,
     check_tensor_values,
     parse_json,
     read_bounded,
     short_value,
 )
+from graphmill._bundle_tensors import TENSOR_FILE, check_tensor_files, read_tensors
 from graphmill._output_kinds import read_stale_note
 from graphmill._shards import SHARD_FOLDER, owner
 from graphmill.errors import BundleIntegrityError, InputError, require
@@ -62,7 +69,6 @@ from graphmill.spec import RelationKey
 
 BUNDLE_FORMAT = 1
 MANIFEST_FILE = "manifest.json"
-TENSOR_FILE = "tensors.safetensors"
 SELF_HASH_KEY = "manifest_sha256"
 PARTS = ("train", "validation", "test")
 EDGE_ROLES = ("message", "supervision")  # disjoint subsets of a links task's train edges
@@ -250,53 +256,6 @@ class GraphBundle:
         return self._id_cache[vertex_type]
 
 
-def check_tensor_files(root: Path, manifest: dict[str, Any]) -> None:
-    """The tensor files' headers agree with the manifest, whichever the layout."""
-    if "tensor_layout" in manifest:
-        check_shards(root, manifest)
-    else:
-        check_tensor_file(root, manifest, TENSOR_FILE)
-
-
-def tensor_files(manifest: dict[str, Any]) -> dict[str, list[dict[str, Any]]]:
-    """Tensor key -> its pieces (``file``, ``start``, ``stop`` along ``axis``); a bundle with
-    one tensor file has one piece per tensor."""
-    out = {}
-    for key, entry in manifest["tensors"].items():
-        whole = [{"file": TENSOR_FILE, "start": 0, "stop": (entry["shape"] or [0])[0]}]
-        out[key] = entry.get("pieces", whole) if "tensor_layout" in manifest else whole
-    return out
-
-
-def _read_tensors(root: Path, manifest: dict[str, Any], keys: list[str]) -> dict[str, Any]:
-    """The tensors ``keys`` as torch tensors, each read through a memory map of its file(s)
-    (``safetensors.safe_open``): only these bytes are read; a split tensor's pieces are
-    joined along their axis."""
-    import torch
-    from safetensors import safe_open
-
-    pieces = tensor_files(manifest)
-    wanted: dict[str, list[str]] = {}
-    for key in keys:
-        for piece in pieces[key]:
-            wanted.setdefault(piece["file"], []).append(key)
-    parts: dict[str, list[Any]] = {key: [] for key in keys}
-    for file, file_keys in sorted(wanted.items(), key=lambda f: f[0]):
-        path = root / file
-        try:
-            with safe_open(str(path), framework="pt") as opened:
-                for key in file_keys:
-                    parts[key].append(opened.get_tensor(key))
-        except Exception as exc:  # the library's own errors: SafetensorError, OSError, ...
-            raise BundleIntegrityError(
-                f"the tensor file cannot be loaded ({capped(str(exc).splitlines()[0])})",
-                file=str(path),
-                hint="the bundle was altered or damaged; build it again",
-            ) from exc
-    axis = {k: manifest["tensors"][k].get("axis", 0) for k in keys}
-    return {k: v[0] if len(v) == 1 else torch.cat(v, dim=axis[k]) for k, v in parts.items()}
-
-
 def load_bundle(
     path: str | Path,
     *,
@@ -325,7 +284,7 @@ def load_bundle(
     )
     owners = {f"vertex.{t}" for t in types} | {f"relation.{r}" for r in chosen}
     keys = [k for k in manifest["tensors"] if owner(k) in owners]
-    tensors = _read_tensors(root, manifest, keys)
+    tensors = read_tensors(root, manifest, keys)
     where = root / (SHARD_FOLDER if "tensor_layout" in manifest else TENSOR_FILE)
     check_tensor_values(manifest, tensors, where)
     vertex_tensors = {name: _vertex_tensors(name, manifest["vertex_types"][name], tensors)

@@ -45,6 +45,12 @@ class BundleContent:
         self.meanings[key] = meaning
         return key
 
+    def materialize(self) -> None:
+        """Read the deferred relations into the tensors and tables."""
+        for d in self.deferred.values():
+            emit_edges(self, d.key, d.edges(), d.properties)
+        self.deferred.clear()
+
 
 _DTYPE_NAMES = {
     np.dtype(np.float32): "float32",
@@ -74,9 +80,7 @@ def write_bundle(
     total = sum(int(e["count"]) for e in content.manifest.get("relations", {}).values())
     sharded = total > shard_edges
     if not sharded:
-        for d in content.deferred.values():
-            emit_edges(content, d.key, d.edges(), d.properties)
-        content.deferred.clear()
+        content.materialize()
     for rel_path, table in sorted(content.tables.items()):
         write_parquet(table, root / rel_path)
     layout: dict[str, Any] = {}
