@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import json
 import shutil
 from pathlib import Path
@@ -202,3 +203,48 @@ def test_streamed_edge_tables_cut_the_same_row_groups_whatever_the_batches(
         one.take(edge_table(edges, properties))
         one.close()
     assert path.read_bytes() == reference.read_bytes()
+
+
+def test_shards_do_not_depend_on_the_engines_batches(tmp_path: Path) -> None:
+    import pyarrow as pa
+    from safetensors.numpy import load_file
+
+    from graphmill.spec import RelationKey
+    from graphmill.transform._edge_stream import EdgeStream
+    from graphmill.transform._edges import EdgeArrays
+    from graphmill.transform._relation_edges import DeferredEdges
+    from graphmill.transform._sharded import write_shards
+
+    key = RelationKey.parse("a.to.b")
+    n = 23
+    edges = EdgeArrays(
+        np.arange(n, dtype=np.int64) // 3,
+        np.arange(n, dtype=np.int64) % 5,
+        np.arange(n, dtype=np.int64)[::-1].copy(),
+        np.arange(n, dtype=np.int64) % 4 + 1,
+    )
+    properties = pa.table({"w": np.arange(n, dtype=np.float64)})
+    written = []
+    for i, sizes in enumerate([[23], [1] * 23, [5, 9, 9], [4, 4, 15]]):
+        cuts = np.cumsum([0, *sizes])
+        batches = [edges.take(np.arange(a, b)) for a, b in itertools.pairwise(cuts)]
+        stream = EdgeStream(n, True, lambda reverse, b=batches: iter(b))
+        root = tmp_path / f"bundle{i}"
+        index = write_shards(
+            root,
+            {},
+            {},
+            {key.dotted: {"count": n, "merged": True}},
+            {key.dotted: DeferredEdges(key, stream, False, properties)},
+            4,
+        )
+        pieces = index["relation.a.to.b.endpoints"]["pieces"]
+        assert [(p["start"], p["stop"]) for p in pieces] == piece_ranges(n, 4)
+        ends = [load_file(root / p["file"])["relation.a.to.b.endpoints"] for p in pieces]
+        assert np.array_equal(np.concatenate(ends, axis=1), np.stack([edges.source, edges.target]))
+        table = pq.read_table(root / "tables/edges/a.to.b.parquet")
+        assert table.column("w").to_pylist() == [float(r) for r in edges.rows]
+        assert table.column("multiplicity").to_pylist() == edges.multiplicity.tolist()
+        files = sorted(p for p in root.rglob("*") if p.is_file())
+        written.append({p.relative_to(root).as_posix(): p.read_bytes() for p in files})
+    assert all(w == written[0] for w in written[1:])  # the same bytes whatever the batches
