@@ -204,7 +204,8 @@ def assemble_content(
     parts, the features, and each relation's edges with their edge and link parts and
     negatives. The build continues from here; ``graphmill check`` stops here to run the
     leakage audit on the same parts (see :mod:`graphmill.validate._leakage_checks`), with
-    ``audit_only``: no feature encoders and no negatives, which no audit rule reads."""
+    ``audit_only``: no feature encoders and no negatives, which no audit rule reads, and
+    no relations at all unless a links task's rules read them."""
     progress = progress or SilentProgress()
     content = BundleContent()
     content.manifest.update(
@@ -224,11 +225,14 @@ def assemble_content(
         info.vertex_counts[name] = vi.count
         info.duplicate_vertices[name] = vi.duplicates
         task.advance()
-    task = progress.task("build relations", total=len(spec.relations))
-    for rel in spec.relations:
+    links_task = spec.task.links if spec.task is not None else None
+    # the audit reads relations only for a links task: without one, check maps no edge
+    relations = spec.relations if links_task is not None or not audit_only else []
+    task = progress.task("build relations", total=len(relations))
+    for rel in relations:
         _add_relation(content, info, spec, snapshot, rel, indices, engine, audit_only)
         task.advance()
-    if links_task := (spec.task.links if spec.task is not None else None):
+    if links_task is not None:
         content.manifest["task"] = {"kind": "links", "relations": list(links_task.relations)}
     return content
 
