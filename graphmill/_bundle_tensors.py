@@ -35,28 +35,35 @@ def tensor_files(manifest: dict[str, Any]) -> dict[str, list[dict[str, Any]]]:
 
 def read_tensors(root: Path, manifest: dict[str, Any], keys: list[str]) -> dict[str, Any]:
     """The tensors ``keys`` as torch tensors, each read through a memory map of its file(s)
-    (``safetensors.safe_open``): only these bytes are read; a split tensor's pieces are
-    joined along their axis."""
+    (``safetensors.safe_open``): only these bytes are read. A split tensor is allocated once
+    and each piece copied into its place, so reading it needs its size plus one piece."""
     import torch
-    from safetensors import safe_open
 
     pieces = tensor_files(manifest)
-    wanted: dict[str, list[str]] = {}
+    out = {}
     for key in keys:
-        for piece in pieces[key]:
-            wanted.setdefault(piece["file"], []).append(key)
-    parts: dict[str, list[Any]] = {key: [] for key in keys}
-    for file, file_keys in sorted(wanted.items(), key=lambda f: f[0]):
-        path = root / file
-        try:
-            with safe_open(str(path), framework="pt") as opened:
-                for key in file_keys:
-                    parts[key].append(opened.get_tensor(key))
-        except Exception as exc:  # the library's own errors: SafetensorError, OSError, ...
-            raise BundleIntegrityError(
-                f"the tensor file cannot be loaded ({capped(str(exc).splitlines()[0])})",
-                file=str(path),
-                hint="the bundle was altered or damaged; build it again",
-            ) from exc
-    axis = {k: manifest["tensors"][k].get("axis", 0) for k in keys}
-    return {k: v[0] if len(v) == 1 else torch.cat(v, dim=axis[k]) for k, v in parts.items()}
+        entry, listed = manifest["tensors"][key], pieces[key]
+        if len(listed) == 1:
+            out[key] = _piece(root / listed[0]["file"], key)
+            continue
+        axis = entry.get("axis", 0)
+        whole = torch.empty(entry["shape"], dtype=getattr(torch, entry["dtype"]))
+        for piece in listed:
+            part = _piece(root / piece["file"], key)
+            whole.narrow(axis, piece["start"], piece["stop"] - piece["start"]).copy_(part)
+        out[key] = whole
+    return out
+
+
+def _piece(path: Path, key: str) -> Any:
+    from safetensors import safe_open
+
+    try:
+        with safe_open(str(path), framework="pt") as opened:
+            return opened.get_tensor(key)
+    except Exception as exc:  # the library's own errors: SafetensorError, OSError, ...
+        raise BundleIntegrityError(
+            f"the tensor file cannot be loaded ({capped(str(exc).splitlines()[0])})",
+            file=str(path),
+            hint="the bundle was altered or damaged; build it again",
+        ) from exc
