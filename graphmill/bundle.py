@@ -23,6 +23,14 @@ A bundle is a folder, written in one piece by :func:`graphmill.transform.build_b
       tables/parts/<type>.parquet      index, part ("train" | "validation" | "test")
       tables/edge_parts/<src>.<rel>.<dst>.parquet  edge (position), part (edge tasks)
 
+A bundle with more than ``output.shard_edges`` edges in all (default
+:data:`graphmill._shards.SHARD_EDGES`) is sharded: no ``tensors.safetensors``, but the same
+keys under ``tensors/``: ``vertex.<type>.safetensors``, ``relation.<key>.safetensors`` (the
+relation's tensors not aligned with its edges) and ``relation.<key>.<k>.safetensors`` (the
+endpoints and multiplicity of the ``k``-th range of ``shard_edges`` edges). The manifest then
+has ``tensor_layout`` and each tensor's ``pieces`` (``file``, ``start``, ``stop`` along
+``axis``); every shard is listed in ``files`` with its sha256.
+
 ``<part>`` is ``train``, ``validation`` or ``test``. Row 0 of ``endpoints`` holds source
 indices, row 1 target indices, sorted by (source, target). The manifest is canonical JSON
 (sorted keys, two-space indent) carrying ``manifest_sha256``, the sha256 of its own canonical
@@ -34,6 +42,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -47,19 +56,19 @@ from graphmill._bundle_checks import (
     MAX_MANIFEST_BYTES,
     capped,
     check_manifest_counts,
-    check_tensor_file,
     check_tensor_values,
     parse_json,
     read_bounded,
     short_value,
 )
+from graphmill._bundle_tensors import TENSOR_FILE, check_tensor_files, read_tensors
 from graphmill._output_kinds import read_stale_note
+from graphmill._shards import SHARD_FOLDER, owner
 from graphmill.errors import BundleIntegrityError, InputError, require
 from graphmill.spec import RelationKey
 
 BUNDLE_FORMAT = 1
 MANIFEST_FILE = "manifest.json"
-TENSOR_FILE = "tensors.safetensors"
 SELF_HASH_KEY = "manifest_sha256"
 PARTS = ("train", "validation", "test")
 EDGE_ROLES = ("message", "supervision")  # disjoint subsets of a links task's train edges
@@ -147,10 +156,13 @@ def verify_files(root: Path, manifest: dict[str, Any]) -> None:
     """Raise :class:`BundleIntegrityError` naming the first file missing or altered."""
     for entry in manifest["files"]:
         if not _file_ok(root, entry):
+            path = root / entry["path"]
             raise BundleIntegrityError(
-                "file is missing or its sha256 differs from the manifest",
-                file=str(root / entry["path"]),
-                hint="the bundle was altered or damaged; build it again",
+                "a file the manifest lists is missing"
+                if not path.is_file()
+                else "file's size or sha256 differs from the manifest",
+                file=str(path),
+                hint="the bundle was altered, damaged or copied in part; build it again",
             )
 
 
@@ -244,36 +256,45 @@ class GraphBundle:
         return self._id_cache[vertex_type]
 
 
-def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
-    """Open a bundle; with ``verify`` every file's sha256 is checked first. The tensor file's
-    header is parsed and checked against the manifest before the tensors are loaded; any
-    defect raises :class:`BundleIntegrityError` naming the file."""
+def load_bundle(
+    path: str | Path,
+    *,
+    verify: bool = True,
+    vertex_types: Iterable[str] | None = None,
+    relations: Iterable[str | RelationKey] | None = None,
+) -> GraphBundle:
+    """Open a bundle; with ``verify`` every file's sha256 is checked first. The tensor files'
+    headers are parsed and checked against the manifest before any tensor is read; any defect
+    raises :class:`BundleIntegrityError` naming the file. Either layout (one
+    ``tensors.safetensors`` or shards under ``tensors/``) is read through memory maps.
+
+    ``vertex_types`` and ``relations`` (dotted names), when given, load only those: the
+    others are left out of the result, their tensors never read."""
     root = Path(path)
     manifest = read_manifest(root, verify=verify)
     if verify:
         verify_files(root, manifest)
-    check_tensor_file(root, manifest, TENSOR_FILE)
+    check_tensor_files(root, manifest)
     require("torch", "torch")
-    from safetensors.torch import load as load_tensors
-
-    tensor_path = root / TENSOR_FILE
-    try:
-        tensors = load_tensors(tensor_path.read_bytes())
-    except Exception as exc:  # the library's own errors: SafetensorError, OSError, ...
-        raise BundleIntegrityError(
-            f"the tensor file cannot be loaded ({capped(str(exc).splitlines()[0])})",
-            file=str(tensor_path),
-            hint="the bundle was altered or damaged; build it again",
-        ) from exc
-    check_tensor_values(manifest, tensors, tensor_path)
-    vertex_types = {
-        name: _vertex_tensors(name, e, tensors) for name, e in manifest["vertex_types"].items()
-    }
-    relations = {}
-    for dotted, entry in manifest["relations"].items():
+    types = _chosen(vertex_types, manifest["vertex_types"], "vertex type")
+    chosen = _chosen(
+        None if relations is None else [str(getattr(r, "dotted", r)) for r in relations],
+        manifest["relations"],
+        "relation",
+    )
+    owners = {f"vertex.{t}" for t in types} | {f"relation.{r}" for r in chosen}
+    keys = [k for k in manifest["tensors"] if owner(k) in owners]
+    tensors = read_tensors(root, manifest, keys)
+    where = root / (SHARD_FOLDER if "tensor_layout" in manifest else TENSOR_FILE)
+    check_tensor_values(manifest, tensors, where)
+    vertex_tensors = {name: _vertex_tensors(name, manifest["vertex_types"][name], tensors)
+                      for name in types}  # fmt: skip
+    relation_tensors = {}
+    for dotted in chosen:
+        entry = manifest["relations"][dotted]
         key = RelationKey.parse(dotted)
         features = entry.get("features") or {}
-        relations[key] = RelationTensors(
+        relation_tensors[key] = RelationTensors(
             key,
             tensors[entry["tensor"]],
             tensors.get(relation_key(key, "multiplicity")),
@@ -292,7 +313,21 @@ def load_bundle(path: str | Path, *, verify: bool = True) -> GraphBundle:
             feature_names=tuple(features.get("columns", ())),
             encoders=tuple(features.get("encoders", ())),
         )
-    return GraphBundle(root, manifest, vertex_types, relations)
+    return GraphBundle(root, manifest, vertex_tensors, relation_tensors)
+
+
+def _chosen(names: Iterable[str] | None, known: dict[str, Any], what: str) -> list[str]:
+    """``names`` in the manifest's order (all when ``None``); an unknown one is refused."""
+    if names is None:
+        return list(known)
+    wanted = list(names)
+    for name in wanted:
+        if name not in known:
+            raise InputError(
+                f"no {what} {name!r} in this bundle (has: {', '.join(sorted(known))})",
+                hint=f"name a {what} the bundle's manifest lists",
+            )
+    return [name for name in known if name in wanted]
 
 
 def _vertex_tensors(name: str, entry: dict[str, Any], tensors: dict[str, Any]) -> VertexTypeTensors:
@@ -319,7 +354,7 @@ def inspect_bundle(path: str | Path) -> dict[str, Any]:
     """A summary of a bundle, with whether each file's hash verifies; loads no tensors."""
     root = Path(path)
     manifest = read_manifest(root, verify=False)
-    check_tensor_file(root, manifest, TENSOR_FILE)
+    check_tensor_files(root, manifest)
     try:
         read_manifest(root, verify=True)
         manifest_ok = True

@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any, NamedTuple
 
 from graphmill._output_paths import check_output_paths
+from graphmill._shards import SHARD_EDGES
 from graphmill._spec_checks import cross_check, refuse_nan
 from graphmill._spec_explain import check_against_schema
 from graphmill._spec_yaml import read_spec_document
@@ -215,6 +216,7 @@ class OutputSpec:
     bundle: Path
     report: Path
     junit: Path | None = None
+    shard_edges: int = SHARD_EDGES  # more edges in all: the tensors are written sharded
 
 
 @dataclass(frozen=True)
@@ -338,6 +340,7 @@ def spec_from_dict(
         if "report" in out
         else Path(f"{snapshot}.report.json"),
         junit=_absolute(out["junit"], base, "output.junit", where) if "junit" in out else None,
+        shard_edges=out.get("shard_edges", SHARD_EDGES),
     )
     engine_doc = doc.get("engine", {})
     engine = EngineSpec(

@@ -26,7 +26,12 @@ torch = pytest.importorskip("torch")
 @pytest.fixture(scope="module")
 def built(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """A bundle using every tensor kind: features, labels, codes, parts, multiplicity."""
-    out = tmp_path_factory.mktemp("bundle")
+    return build_example(tmp_path_factory.mktemp("bundle"))
+
+
+def build_example(out: Path, **output: Any) -> Path:
+    """Build the example bundle of :func:`built` into ``out``; ``output`` adds to the spec's
+    ``output`` section (``shard_edges``)."""
     document = spec_document(
         out,
         {
@@ -92,6 +97,7 @@ def built(tmp_path_factory: pytest.TempPathFactory) -> Path:
             "amount": [1.0, 2.0, 3.0],
         }
     )
+    document["output"].update(output)
     spec, snapshot = publish(
         document,
         {"member": members, "shop": shops, "member.knows.member": knows, "member.buys.shop": buys},

@@ -20,7 +20,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from graphmill.bundle import TENSOR_FILE, GraphBundle, load_bundle, relation_key
+from graphmill.bundle import GraphBundle, load_bundle
 from graphmill.errors import InputError, require
 
 PART_MASKS = {"train": "train_mask", "validation": "val_mask", "test": "test_mask"}
@@ -63,11 +63,9 @@ def link_prediction_graphs(bundle: GraphBundle | str | Path) -> dict[str, Any]:
     """
     require("torch_geometric.data", "pyg")
     import torch
-    from safetensors.torch import load_file
 
     bundle = _bundle(bundle)
-    tensors = load_file(str(bundle.root / TENSOR_FILE))
-    split = [k for k in bundle.relations if relation_key(k, "part.train.positions") in tensors]
+    split = [k for k, rel in bundle.relations.items() if "train" in rel.parts]
     if not split:
         raise InputError(
             "this bundle has no edge split (no relation.<key>.part.train.positions tensor)",
@@ -78,13 +76,13 @@ def link_prediction_graphs(bundle: GraphBundle | str | Path) -> dict[str, Any]:
         data = to_hetero_graph(bundle)
         for key in split:
             store = data[key.source_type, key.name, key.target_type]
-            endpoints = bundle.relations[key].endpoints
-            store.edge_index = _pairs(tensors[relation_key(key, "part.train.positions")], endpoints)
-            positives = tensors.get(relation_key(key, f"part.{part}.positions"))
+            rel = bundle.relations[key]
+            store.edge_index = _pairs(rel.parts["train"], rel.endpoints)
+            positives = rel.parts.get(part)
             if positives is None:
                 continue
-            positives = _pairs(positives, endpoints)
-            negatives = tensors.get(relation_key(key, f"negatives.{part}"))
+            positives = _pairs(positives, rel.endpoints)
+            negatives = rel.negatives.get(part)
             if negatives is None:
                 negatives = torch.empty((2, 0), dtype=torch.int64)
             store.edge_label_index = torch.cat([positives, negatives], dim=1)

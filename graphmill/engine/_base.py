@@ -28,6 +28,7 @@ from graphmill.engine._contracts import Offenders
 from graphmill.spec import EngineSpec
 
 if TYPE_CHECKING:  # the transform package imports the engines, not the other way round
+    from graphmill.transform._edge_stream import EdgeStream
     from graphmill.transform._edges import EdgeOutcome
 
 Column: TypeAlias = pa.Array | pa.ChunkedArray
@@ -180,6 +181,33 @@ class Engine(ABC):
         )
         self.covered("policed", len(source))
         return outcome
+
+    def policed_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeStream:
+        """``mapped-edges`` whose result may stay in the engine and is read in batches when
+        the bundle is written (see :mod:`graphmill.transform._edge_stream`); this default
+        holds :meth:`mapped_edges`'s result in memory."""
+        from graphmill.transform._edge_stream import EdgeStream
+
+        outcome = self.mapped_edges(
+            edges,
+            source_ids,
+            target_ids,
+            same_type=same_type,
+            duplicates=duplicates,
+            self_loops=self_loops,
+            symmetrize=symmetrize,
+        )
+        return EdgeStream.in_memory(outcome)
 
     # ------------------------------------------------------------------ check
     @abstractmethod

@@ -13,7 +13,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
@@ -28,7 +27,7 @@ from graphmill.engine import Engine, open_engine
 from graphmill.errors import SpecError
 from graphmill.snapshot import Snapshot
 from graphmill.spec import PipelineSpec, RelationKey
-from graphmill.transform._edge_features import add_edge_features
+from graphmill.transform._edge_features import add_edge_features, edge_feature_specs
 from graphmill.transform._edges import EdgeArrays
 from graphmill.transform._indexing import VertexIndex, index_vertices
 from graphmill.transform._inputs import check_snapshot, check_summary, check_unique, public_source
@@ -39,6 +38,7 @@ from graphmill.transform._pseudonyms import (
     pseudonym_key,
     pseudonymizer,
 )
+from graphmill.transform._relation_edges import DeferredEdges, emit_edges
 from graphmill.transform._vertices import add_vertex_type
 from graphmill.transform._writer import BundleContent, write_bundle
 
@@ -170,7 +170,9 @@ def build_bundle(
         }
     )
     with atomic_directory(spec.output.bundle, kind="bundle", key="output.bundle") as scratch:
-        manifest = write_bundle(scratch, content, progress=progress)
+        manifest = write_bundle(
+            scratch, content, shard_edges=spec.output.shard_edges, progress=progress
+        )
         if before is not None:
             from graphmill.compare._with_build import record_comparison
 
@@ -337,7 +339,7 @@ def _add_relation(
             f"{key.dotted}: an undirected relation between two vertex types cannot be "
             "symmetrized within itself; left as it is (set edges.add_reverse for a reverse)"
         )
-    outcome = engine.mapped_edges(
+    stream = engine.policed_edges(
         edges_file,
         src.ids,
         dst.ids,
@@ -351,6 +353,25 @@ def _add_relation(
         "symmetrized": symmetrize and same_type,
         "reverse_of": None,
     }
+    info.dropped_edges[key.dotted] = stream.dropped
+    info.merged_edges[key.dotted] = stream.merged
+    info.added_edges[key.dotted] = stream.added_reverses
+    reverse = RelationKey(key.target_type, f"rev_{key.name}", key.source_type)
+    add_reverse = spec.edges.add_reverse and not rel.undirected
+    if add_reverse and any(r.key == reverse for r in spec.relations):
+        raise SpecError(
+            f"edges.add_reverse would add {reverse.dotted}, which the spec already declares",
+            key_path="edges.add_reverse",
+            hint="rename that relation or set add_reverse: false",
+        )
+    reverse_entry = {"undirected": False, "symmetrized": False, "reverse_of": key.dotted}
+    if not _needed_in_memory(spec, key):  # left in the engine until the bundle is written
+        _defer_relation(content, info, DeferredEdges(key, stream, False, properties), entry)
+        if add_reverse:
+            deferred = DeferredEdges(reverse, stream, True, properties)
+            _defer_relation(content, info, deferred, reverse_entry)
+        return
+    outcome = stream.outcome()
     _emit_relation(content, info, key, outcome.edges, properties, entry)
     if spec.task is not None and spec.task.relation == key.dotted:
         from graphmill.transform._edge_targets import add_edge_task
@@ -373,20 +394,9 @@ def _add_relation(
         )
         for part, n in sizes.items():
             info.part_sizes[part] = info.part_sizes.get(part, 0) + n
-    info.dropped_edges[key.dotted] = outcome.dropped
-    info.merged_edges[key.dotted] = outcome.merged
-    info.added_edges[key.dotted] = outcome.added_reverses
-    if spec.edges.add_reverse and not rel.undirected:
-        reverse = RelationKey(key.target_type, f"rev_{key.name}", key.source_type)
-        if any(r.key == reverse for r in spec.relations):
-            raise SpecError(
-                f"edges.add_reverse would add {reverse.dotted}, which the spec already declares",
-                key_path="edges.add_reverse",
-                hint="rename that relation or set add_reverse: false",
-            )
-        entry = {"undirected": False, "symmetrized": False, "reverse_of": key.dotted}
+    if add_reverse:
         reversed_edges = outcome.edges.reversed()
-        _emit_relation(content, info, reverse, reversed_edges, properties, entry)
+        _emit_relation(content, info, reverse, reversed_edges, properties, reverse_entry)
         if linked:
             add_link_split(
                 content, spec, reverse, reversed_edges, properties, (dst, src), forward=key
@@ -397,6 +407,31 @@ def _add_relation(
             add_edge_parts(content, spec, reverse, reversed_edges, (dst, src), forward=key)
 
 
+def _needed_in_memory(spec: PipelineSpec, key: RelationKey) -> bool:
+    """Whether a relation's edges are read before the bundle is written: by an edge or links
+    task (the leakage audit reads every relation's), or to fit its edge features."""
+    task = spec.task
+    if task is not None and (task.relation is not None or task.links is not None):
+        return True
+    return key.dotted in edge_feature_specs(spec)
+
+
+def _relation_entry(
+    key: RelationKey, count: int, merged: bool, properties: pa.Table, entry: dict[str, Any]
+) -> dict[str, Any]:
+    return {
+        **entry,
+        "source_type": key.source_type,
+        "name": key.name,
+        "target_type": key.target_type,
+        "count": count,
+        "merged": merged,
+        "properties": [n for n in properties.column_names],
+        "table": table_path("edges", key.dotted),
+        "tensor": relation_key(key, "endpoints"),
+    }
+
+
 def _emit_relation(
     content: BundleContent,
     info: BuildInfo,
@@ -405,35 +440,20 @@ def _emit_relation(
     properties: pa.Table,
     entry: dict[str, Any],
 ) -> None:
-    endpoints = np.stack([edges.source, edges.target]).astype(np.int64).reshape(2, len(edges))
-    tensor = content.add_tensor(
-        relation_key(key, "endpoints"),
-        endpoints,
-        f"{key.dotted}: row 0 source index, row 1 target index",
-    )
-    columns: dict[str, Any] = {"source_index": edges.source, "target_index": edges.target}
-    if edges.multiplicity is not None:
-        content.add_tensor(
-            relation_key(key, "multiplicity"),
-            edges.multiplicity.astype(np.float32),
-            f"{key.dotted}: number of repeated copies merged into each edge",
-        )
-        columns["multiplicity"] = edges.multiplicity
-    edge_table = pa.table(columns)
-    kept = properties.take(pa.array(edges.rows, pa.int64()))
-    for name in kept.column_names:
-        edge_table = edge_table.append_column(name, kept.column(name))
-    path = table_path("edges", key.dotted)
-    content.tables[path] = edge_table
-    content.manifest.setdefault("relations", {})[key.dotted] = {
-        **entry,
-        "source_type": key.source_type,
-        "name": key.name,
-        "target_type": key.target_type,
-        "count": len(edges),
-        "merged": edges.multiplicity is not None,
-        "properties": [n for n in properties.column_names],
-        "table": path,
-        "tensor": tensor,
-    }
+    emit_edges(content, key, edges, properties)
+    merged = edges.multiplicity is not None
+    relations = content.manifest.setdefault("relations", {})
+    relations[key.dotted] = _relation_entry(key, len(edges), merged, properties, entry)
     info.edge_counts[key.dotted] = len(edges)
+
+
+def _defer_relation(
+    content: BundleContent, info: BuildInfo, deferred: DeferredEdges, entry: dict[str, Any]
+) -> None:
+    """The manifest entry now; the edges when the bundle is written."""
+    key, count = deferred.key, deferred.stream.count
+    merged = deferred.stream.merged_repeats
+    relations = content.manifest.setdefault("relations", {})
+    relations[key.dotted] = _relation_entry(key, count, merged, deferred.properties, entry)
+    content.deferred[key.dotted] = deferred
+    info.edge_counts[key.dotted] = count

@@ -161,6 +161,7 @@ def test_link_prediction_graphs_follow_an_edge_split(
 
     def with_split(content: Any, spec: Any) -> None:
         add_edge_features(content, spec)
+        content.materialize()  # relations without a task wait in the engine until written
         endpoints = content.tensors[f"{key}.endpoints"]
         e = endpoints.shape[1]
         content.add_tensor(f"{key}.part.train.positions", np.arange(0, e, 2), "train edges")

@@ -46,7 +46,10 @@ def outputs(
         spec,
         engine=settings,
         output=OutputSpec(
-            snapshot=out / "snapshot", bundle=out / "bundle", report=out / "report.json"
+            snapshot=out / "snapshot",
+            bundle=out / "bundle",
+            report=out / "report.json",
+            shard_edges=spec.output.shard_edges,
         ),
     )
     pipeline = Pipeline(spec)

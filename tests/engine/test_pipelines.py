@@ -10,6 +10,7 @@ when one can start). Spark runs fewer hypothesis examples.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import json
 import sys
 import tempfile
@@ -22,6 +23,7 @@ import yaml
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from graphmill._shards import SHARD_EDGES
 from graphmill.spec import EngineSpec, spec_from_dict
 from tests.engine._differential import run_everywhere
 from tests.validate._graphs import InMemorySource, make_spec
@@ -29,8 +31,9 @@ from tests.validate._graphs import InMemorySource, make_spec
 REPO = Path(__file__).resolve().parents[2]
 
 
+@pytest.mark.parametrize("shard_edges", [None, 10])
 def test_karate_club_is_identical_on_every_engine(
-    tmp_path: Path, engine_settings: EngineSpec
+    tmp_path: Path, engine_settings: EngineSpec, shard_edges: int | None
 ) -> None:
     graph = nx.karate_club_graph()  # Zachary (1977): 34 members, 78 friendships (networkx)
     dump = tmp_path / "dump"
@@ -67,10 +70,17 @@ def test_karate_club_is_identical_on_every_engine(
         "split": {"method": "stratified", "seed": 3},
         "output": {"bundle": "out/bundle"},
     }
+    if shard_edges is not None:  # 78 friendships, both ways: 156 edges in 16 pieces
+        document["output"]["shard_edges"] = shard_edges
     spec = spec_from_dict(document, base_dir=tmp_path)
     runs = run_everywhere(spec, tmp_path, engines=("reference", engine_settings))
     assert "error" not in runs[engine_settings.kind]
-    assert "bundle/tensors.safetensors" in runs[engine_settings.kind]
+    files = runs[engine_settings.kind]
+    if shard_edges is None:
+        assert "bundle/tensors.safetensors" in files
+    else:
+        pieces = [f for f in files if f.startswith("bundle/tensors/relation.person.meets.")]
+        assert len(pieces) == 16 and "bundle/tensors.safetensors" not in files
 
 
 @pytest.mark.slow
@@ -81,9 +91,11 @@ def test_demo_is_identical_on_every_engine(tmp_path: Path, engine_settings: Engi
     counts = generate.generate(tmp_path / "data")
     document = yaml.safe_load((REPO / "examples/lending_coop/spec.yaml").read_text("utf-8"))
     document["source"]["paths"] = [str(counts.path)]
-    document["output"] = {"bundle": str(tmp_path / "bundle")}
+    # 5,000 edges per piece: the demo's bundle is sharded and streamed from each engine
+    document["output"] = {"bundle": str(tmp_path / "bundle"), "shard_edges": 5000}
     spec = spec_from_dict(document, base_dir=tmp_path)
     runs = run_everywhere(spec, tmp_path, engines=("reference", engine_settings))
+    assert any(f.startswith("bundle/tensors/") for f in runs[engine_settings.kind])
     report = runs[engine_settings.kind]["report.json"].decode()
     # the demo plants these defects (examples/lending_coop/generate.py)
     for rule in ("dangling-edge", "one-way-edge", "repeated-edge", "self-loop"):
@@ -140,8 +152,9 @@ def graphs(draw: Any) -> dict[str, Any]:
         "add_reverse": draw(st.booleans()),
     }
     split = draw(st.integers(1, 3))  # pages per table: the merge must not depend on paging
+    shards = draw(st.sampled_from([SHARD_EDGES, 1, 3]))  # small: the bundle is sharded
     return {"accounts": accounts, "shops": shops, "knows": knows, "buys": buys,
-            "policy": policy, "pages": split}  # fmt: skip
+            "policy": policy, "pages": split, "shard_edges": shards}  # fmt: skip
 
 
 def _paged(columns: dict[str, list[Any]], pages: int) -> list[dict[str, list[Any]]]:
@@ -202,6 +215,8 @@ def run_generated(graph: dict[str, Any], engines: tuple[str | EngineSpec, ...]) 
             checks={"min_class_size": 1},
             edges=graph["policy"],
         )
+        output = dataclasses.replace(spec.output, shard_edges=graph["shard_edges"])
+        spec = dataclasses.replace(spec, output=output)
         pages = graph["pages"]
 
         def source(s: Any) -> InMemorySource:

@@ -22,7 +22,8 @@ from graphmill.engine.local import _queries as q
 from graphmill.engine.local._session import QueryError, Session
 from graphmill.engine.reference import ReferenceEngine
 from graphmill.errors import InputError
-from graphmill.transform._edges import DROP_REASONS, EdgeOutcome, resolved_outcome
+from graphmill.transform._edge_stream import BATCH, EdgeStream
+from graphmill.transform._edges import DROP_REASONS, EdgeArrays, EdgeOutcome
 
 ENDPOINTS = ["source_id", "target_id"]
 
@@ -240,7 +241,8 @@ class LocalEngine(ReferenceEngine):
     ) -> EdgeOutcome:
         mapped = pa.table({"s": source, "t": target, "row": _rows(len(source))})
         with self.session.tables({"m": mapped}) as n:
-            return self._police(n["m"], same_type, duplicates, self_loops, symmetrize)
+            stream = self._police(n["m"], same_type, duplicates, self_loops, symmetrize)
+        return stream.outcome()
 
     def mapped_edges(
         self,
@@ -253,7 +255,29 @@ class LocalEngine(ReferenceEngine):
         self_loops: str,
         symmetrize: bool,
     ) -> EdgeOutcome:
-        """One join per side straight from the file; the mapped edges stay in DuckDB.
+        return self.policed_edges(
+            edges,
+            source_ids,
+            target_ids,
+            same_type=same_type,
+            duplicates=duplicates,
+            self_loops=self_loops,
+            symmetrize=symmetrize,
+        ).outcome()
+
+    def policed_edges(
+        self,
+        edges: TableInput,
+        source_ids: pa.Array,
+        target_ids: pa.Array,
+        *,
+        same_type: bool,
+        duplicates: str,
+        self_loops: str,
+        symmetrize: bool,
+    ) -> EdgeStream:
+        """One join per side straight from the file; the policed edges stay in DuckDB
+        (spilling under the memory limit) until they are read, in order, in batches.
         Reports the edge rows as ``mapped`` once joined, as ``policed`` once policed."""
         s = self.session
         sources = pa.table({"id": _column(source_ids), "position": _rows(len(source_ids))})
@@ -286,9 +310,10 @@ class LocalEngine(ReferenceEngine):
         symmetrize: bool,
         *,
         owned: bool = False,
-    ) -> EdgeOutcome:
+    ) -> EdgeStream:
         """``edge-policy`` on the session table ``m`` (``s``, ``t``, ``row``; -1: dangling);
-        ``owned``: ``m`` is a scratch table, dropped as soon as the kept edges are taken."""
+        ``owned``: ``m`` is a scratch table, dropped as soon as the kept edges are taken.
+        The resolved edges are kept in the session until the stream is released."""
         s = self.session
         dropped = dict.fromkeys(DROP_REASONS, 0)
         total, both, no_source, no_target = s.ints(q.dangling_counts(m))
@@ -308,12 +333,27 @@ class LocalEngine(ReferenceEngine):
                 with s.scratch(q.missing_reverses(kept)) as extra:
                     (added,) = s.ints(f"SELECT count(*) FROM {extra}")
                     union += f" UNION ALL SELECT s, t, row, 1 FROM {extra}"
-                    result = s.arrow(q.resolved(f"({union})", duplicates))
+                    table = s.load_query(q.resolved_rows(f"({union})", duplicates))
             else:
-                result = s.arrow(q.resolved(f"({union})", duplicates))
+                table = s.load_query(q.resolved_rows(f"({union})", duplicates))
+        (count,) = s.ints(f"SELECT count(*) FROM {table}")
+        merge = duplicates == "merge"
 
-        return resolved_outcome(
-            result, dropped, kept=kept_count, added=added, duplicates=duplicates
+        def read(reverse: bool) -> Iterator[EdgeArrays]:
+            for batch in s.batches(q.in_order(table, duplicates, reverse=reverse), BATCH):
+                columns = [np.asarray(c.to_numpy(), dtype=np.int64) for c in batch.columns]
+                source, target, rows = columns[:3]
+                yield EdgeArrays(source, target, rows, columns[3] if merge else None)
+
+        def release() -> None:
+            if self._session is s:
+                s.connection.execute(f"DROP TABLE IF EXISTS {table}")
+
+        removed = kept_count + added - count
+        if not merge:
+            dropped["repeated-edge"] = removed
+        return EdgeStream(
+            count, merge, read, dropped, removed if merge else 0, added, release=release
         )
 
     # ------------------------------------------------------------------ check

@@ -149,6 +149,25 @@ def resolved(edges: str, policy: str) -> str:
     return f"SELECT s, t, min(row) AS row{count} FROM {edges} GROUP BY s, t ORDER BY s, t"
 
 
+def resolved_rows(edges: str, policy: str) -> str:
+    """:func:`resolved` without its order, to be kept in the session and read in order by
+    :func:`in_order` (``keep`` keeps the ``added`` flag that order needs)."""
+    if policy == "keep":
+        return f"SELECT s, t, row, added FROM {edges}"
+    count = ", count(*) AS multiplicity" if policy == "merge" else ""
+    return f"SELECT s, t, min(row) AS row{count} FROM {edges} GROUP BY s, t"
+
+
+def in_order(resolved_table: str, policy: str, *, reverse: bool = False) -> str:
+    """The rows of :func:`resolved_rows` in :func:`resolved`'s order; ``reverse``: endpoints
+    swapped, then sorted by the swapped pair, ties in the same order as before."""
+    ends = "t AS s, s AS t" if reverse else "s, t"
+    if policy == "keep":
+        return f"SELECT {ends}, row, added FROM {resolved_table} ORDER BY 1, 2, 4, 3"
+    extra = ", multiplicity" if policy == "merge" else ""
+    return f"SELECT {ends}, row{extra} FROM {resolved_table} ORDER BY 1, 2"
+
+
 def group_key(schema: pa.Schema) -> str:
     """Every column of an edge table, as grouping expressions with the reference's equality:
     floating-point values compare by their text (so -0.0 and 0.0 differ, NaN equals NaN)."""
