@@ -31,6 +31,8 @@ PARTS = ("train", "validation", "test")
 NO_PART = -1
 HASH = "blake2b-64, key = the seed in decimal ASCII, message = the UTF-8 original ID"
 UNLABELED_STRATUM = "<unlabeled>"
+#: IDs hashed per slice: their Python bytes objects live only as long as one slice
+HASH_SLICE = 1 << 16
 
 
 def stable_unit_interval(ids: pa.Array, seed: int) -> np.ndarray:
@@ -49,10 +51,13 @@ def stable_unit_interval(ids: pa.Array, seed: int) -> np.ndarray:
         h.update(value)
         return h.digest()
 
-    raw = ids.cast(pa.binary()).to_pylist()
-    packed = b"".join(map(digest, raw))
-    words = np.frombuffer(packed, dtype=">u8").astype(np.uint64)
-    return (words >> np.uint64(11)).astype(np.float64) * 2.0**-53
+    out = np.empty(len(ids), dtype=np.float64)
+    binary = ids.cast(pa.binary())
+    for start in range(0, len(binary), HASH_SLICE):  # Python bytes for one slice at a time
+        raw = binary.slice(start, HASH_SLICE).to_pylist()
+        words = np.frombuffer(b"".join(map(digest, raw)), dtype=">u8").astype(np.uint64)
+        out[start : start + len(raw)] = (words >> np.uint64(11)).astype(np.float64) * 2.0**-53
+    return out
 
 
 def part_sizes(counts: np.ndarray, fractions: tuple[float, float, float]) -> np.ndarray:
